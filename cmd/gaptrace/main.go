@@ -1,0 +1,130 @@
+// Command gaptrace measures what a sheared sample really did from a side-view
+// video of tracer particles in a rheometer gap: the velocity profile, wall
+// slip, shear banding and motion after cessation. See README.md.
+//
+// Each sub-command lives in its own file and registers itself in commands.
+package main
+
+import (
+	"errors"
+	"flag"
+	"fmt"
+	"io"
+	"os"
+	"sort"
+	"strings"
+)
+
+// command is one sub-command.
+type command struct {
+	summary string
+	run     func(args []string, stderr io.Writer) error
+}
+
+var commands = map[string]command{}
+
+// usageError is bad usage or bad input: exit status 2.
+type usageError struct{ err error }
+
+func (e usageError) Error() string { return e.err.Error() }
+func (e usageError) Unwrap() error { return e.err }
+
+// badInput marks err as bad usage or bad input (exit status 2).
+func badInput(err error) error {
+	if err == nil {
+		return nil
+	}
+	return usageError{err}
+}
+
+// badInputf formats a bad-input error.
+func badInputf(format string, a ...any) error { return usageError{fmt.Errorf(format, a...)} }
+
+func main() {
+	os.Exit(mainArgs(os.Args[1:], os.Stderr))
+}
+
+// mainArgs runs gaptrace with args and returns the exit status.
+func mainArgs(args []string, stderr io.Writer) int {
+	if len(args) == 0 || args[0] == "-h" || args[0] == "--help" || args[0] == "help" {
+		usage(stderr)
+		if len(args) == 0 {
+			return 2
+		}
+		return 0
+	}
+	if args[0] == "version" || args[0] == "--version" {
+		fmt.Fprintln(stderr, "gaptrace", version)
+		return 0
+	}
+	c, ok := commands[args[0]]
+	if !ok {
+		fmt.Fprintf(stderr, "gaptrace: unknown command %q (try gaptrace help)\n", args[0])
+		return 2
+	}
+	err := c.run(args[1:], stderr)
+	return exitStatus(err, stderr)
+}
+
+func exitStatus(err error, stderr io.Writer) int {
+	if err == nil {
+		return 0
+	}
+	if errors.Is(err, flag.ErrHelp) {
+		return 0
+	}
+	msg := strings.ReplaceAll(strings.TrimSpace(err.Error()), "\n", "; ")
+	fmt.Fprintf(stderr, "gaptrace: %s\n", msg)
+	var u usageError
+	if errors.As(err, &u) {
+		return 2
+	}
+	return 1
+}
+
+func usage(w io.Writer) {
+	fmt.Fprintln(w, "gaptrace: velocity profiles, wall slip, shear banding and motion after cessation from rheometer gap videos")
+	fmt.Fprintln(w, "\nUsage: gaptrace COMMAND [flags] [INPUT]\n\nCommands:")
+	names := make([]string, 0, len(commands))
+	for n := range commands {
+		names = append(names, n)
+	}
+	sort.Strings(names)
+	for _, n := range names {
+		fmt.Fprintf(w, "  %-8s %s\n", n, commands[n].summary)
+	}
+	fmt.Fprintln(w, "\nRun gaptrace COMMAND -h for the flags of one command.")
+}
+
+// newFlags returns a flag set that reports errors as bad usage and prints
+// its usage to stderr.
+func newFlags(name, args string, stderr io.Writer) *flag.FlagSet {
+	fs := flag.NewFlagSet(name, flag.ContinueOnError)
+	fs.SetOutput(stderr)
+	fs.Usage = func() {
+		fmt.Fprintf(stderr, "Usage: gaptrace %s [flags] %s\n", name, args)
+		fs.PrintDefaults()
+	}
+	return fs
+}
+
+// parseFlags parses args and wraps a flag error as bad usage.
+func parseFlags(fs *flag.FlagSet, args []string) error {
+	// Allow flags after the positional argument, as in "run in.avi -o out".
+	var pos []string
+	for len(args) > 0 {
+		if err := fs.Parse(args); err != nil {
+			if errors.Is(err, flag.ErrHelp) {
+				return err
+			}
+			return badInput(err)
+		}
+		args = fs.Args()
+		if len(args) == 0 {
+			break
+		}
+		pos = append(pos, args[0])
+		args = args[1:]
+	}
+	return fs.Parse(append([]string{"--"}, pos...))
+}

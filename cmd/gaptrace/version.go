@@ -1,0 +1,5 @@
+package main
+
+import "gaptrace/profile/summary"
+
+const version = summary.Version

@@ -1,0 +1,222 @@
+// Package summary defines summary.json, the machine-readable result of a
+// gaptrace run, as fixed by the interface contract, and writes it so that a
+// failed run never leaves a complete-looking file behind.
+//
+// Unknown numbers are NaN in Go and null in JSON (type Num).
+package summary
+
+import (
+	"encoding/json"
+	"fmt"
+	"math"
+	"os"
+	"path/filepath"
+	"strconv"
+
+	"gaptrace/calib"
+)
+
+// Num is a float64 that is written to JSON as null when it is NaN or
+// infinite, and read back from null as NaN.
+type Num float64
+
+// Null is the unknown Num.
+var Null = Num(math.NaN())
+
+// Known reports whether n holds a finite number.
+func (n Num) Known() bool { return !math.IsNaN(float64(n)) && !math.IsInf(float64(n), 0) }
+
+// MarshalJSON implements json.Marshaler.
+func (n Num) MarshalJSON() ([]byte, error) {
+	if !n.Known() {
+		return []byte("null"), nil
+	}
+	return strconv.AppendFloat(nil, float64(n), 'g', 10, 64), nil
+}
+
+// UnmarshalJSON implements json.Unmarshaler.
+func (n *Num) UnmarshalJSON(b []byte) error {
+	if string(b) == "null" {
+		*n = Null
+		return nil
+	}
+	v, err := strconv.ParseFloat(string(b), 64)
+	if err != nil {
+		return fmt.Errorf("summary: %q is not a number or null", b)
+	}
+	*n = Num(v)
+	return nil
+}
+
+// Summary is summary.json.
+type Summary struct {
+	Tool        Tool               `json:"tool"`
+	Experiment  string             `json:"experiment,omitempty"` // the experiment's name
+	Input       Input              `json:"input"`
+	Calibration *calib.Calibration `json:"calibration"`
+	Tracking    Tracking           `json:"tracking"`
+	Phases      []Phase            `json:"phases"`
+	ShearPhases []ShearPhase       `json:"shear_phases"`
+	AfterStop   *AfterStop         `json:"after_stop"`
+	Warnings    []string           `json:"warnings"`
+}
+
+// Tool names the program.
+type Tool struct {
+	Name    string `json:"name"`
+	Version string `json:"version"`
+}
+
+// Version is gaptrace's version.
+const Version = "0.1.0"
+
+// Input describes the video.
+type Input struct {
+	Path     string  `json:"path"`
+	Frames   int     `json:"frames"`
+	FPS      float64 `json:"fps"`
+	WidthPx  int     `json:"width_px"`
+	HeightPx int     `json:"height_px"`
+}
+
+// Tracking counts what the linker produced.
+type Tracking struct {
+	Detections        int `json:"detections"`
+	Tracks            int `json:"tracks"`
+	MedianTrackFrames int `json:"median_track_frames"`
+}
+
+// Phase kinds.
+const (
+	Rest          = "rest"
+	Shear         = "shear"
+	AfterStopKind = "after_stop"
+)
+
+// Phase is one segment of the experiment's time line.
+type Phase struct {
+	Kind   string  `json:"kind"`
+	StartS float64 `json:"start_s"`
+	EndS   float64 `json:"end_s"`
+	Source string  `json:"source"` // experiment | detected
+}
+
+// Band is one layer of uniform local shear rate, from FromUM to ToUM above
+// the stationary wall.
+type Band struct {
+	FromUM      Num `json:"from_um"`
+	ToUM        Num `json:"to_um"`
+	RatePerS    Num `json:"rate_per_s"`
+	RateErrPerS Num `json:"rate_err_per_s"`
+	// Boundary uncertainty of ToUM, um (null for the top band).
+	ToErrUM Num `json:"to_err_um"`
+}
+
+// Verdicts of a shear phase.
+const (
+	Homogeneous    = "homogeneous"
+	WallSlip       = "wall_slip"
+	Banded         = "banded"
+	WallSlipBanded = "wall_slip+banded"
+)
+
+// ShearPhase is the rheometric decomposition of one shear phase.
+type ShearPhase struct {
+	StartS                  float64    `json:"start_s"`
+	EndS                    float64    `json:"end_s"`
+	WindowS                 [2]float64 `json:"window_s"`
+	WallSpeedUMPerS         Num        `json:"wall_speed_um_per_s"`
+	NominalRatePerS         Num        `json:"nominal_rate_per_s"`
+	BulkRatePerS            Num        `json:"bulk_rate_per_s"`
+	BulkRateErrPerS         Num        `json:"bulk_rate_err_per_s"`
+	SlipStationaryUMPerS    Num        `json:"slip_stationary_um_per_s"`
+	SlipStationaryErrUMPerS Num        `json:"slip_stationary_err_um_per_s"`
+	SlipMovingUMPerS        Num        `json:"slip_moving_um_per_s"`
+	SlipMovingErrUMPerS     Num        `json:"slip_moving_err_um_per_s"`
+	SlipLengthStationaryUM  Num        `json:"slip_length_stationary_um"`
+	SlipLengthMovingUM      Num        `json:"slip_length_moving_um"`
+	SlipFraction            Num        `json:"slip_fraction"`
+	SlipFractionErr         Num        `json:"slip_fraction_err"`
+	WallSlip                bool       `json:"wall_slip"`
+	Bands                   []Band     `json:"bands"`
+	Banded                  bool       `json:"banded"`
+	Verdict                 string     `json:"verdict"`
+}
+
+// After-stop verdicts and modes.
+const (
+	Quiescent = "quiescent"
+	Moving    = "moving"
+	ModeWall  = "wall"
+	ModeBulk  = "bulk"
+)
+
+// AfterStop is the analysis of the time after the last shear phase.
+type AfterStop struct {
+	StopS             float64 `json:"stop_s"`
+	ObservedS         float64 `json:"observed_s"`
+	NoiseFloorUM      Num     `json:"noise_floor_um"`
+	MaxDisplacementUM Num     `json:"max_displacement_um"`
+	RecoveredStrain   Num     `json:"recovered_strain"`
+	Verdict           string  `json:"verdict"`
+	Mode              *string `json:"mode"`
+	PlaneUM           Num     `json:"plane_um"`
+	OnsetAfterStopS   Num     `json:"onset_after_stop_s"`
+}
+
+// New returns a summary with the tool filled in and empty, non-null lists.
+func New() *Summary {
+	return &Summary{Tool: Tool{Name: "gaptrace", Version: Version}, Phases: []Phase{},
+		ShearPhases: []ShearPhase{}, Warnings: []string{}}
+}
+
+// WriteFileAtomic writes data to path through a temporary file in the same
+// folder, renamed over path only when completely written, so a failed run
+// never leaves a partial file under the final name.
+func WriteFileAtomic(path string, data []byte) error {
+	dir, base := filepath.Split(path)
+	if dir == "" {
+		dir = "."
+	}
+	f, err := os.CreateTemp(dir, "."+base+".partial-*")
+	if err != nil {
+		return err
+	}
+	tmp := f.Name()
+	if _, err := f.Write(data); err != nil {
+		f.Close()
+		os.Remove(tmp)
+		return err
+	}
+	if err := f.Close(); err != nil {
+		os.Remove(tmp)
+		return err
+	}
+	if err := os.Rename(tmp, path); err != nil {
+		os.Remove(tmp)
+		return err
+	}
+	return nil
+}
+
+// Write writes s as indented JSON to path, atomically.
+func (s *Summary) Write(path string) error {
+	b, err := json.MarshalIndent(s, "", "  ")
+	if err != nil {
+		return err
+	}
+	return WriteFileAtomic(path, append(b, '\n'))
+}
+
+// Read reads a summary.json file.
+func Read(path string) (*Summary, error) {
+	b, err := os.ReadFile(path)
+	if err != nil {
+		return nil, err
+	}
+	var s Summary
+	if err := json.Unmarshal(b, &s); err != nil {
+		return nil, fmt.Errorf("%s: %w", path, err)
+	}
+	return &s, nil
+}
