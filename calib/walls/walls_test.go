@@ -1,0 +1,205 @@
+package walls
+
+import (
+	"math"
+	"math/rand"
+	"strings"
+	"testing"
+
+	"gocv.io/x/gocv"
+)
+
+// gapImage describes a simple test picture: two plates with a blurred edge,
+// the sample between them, optional reflection lines, stuck particles and
+// a scratch. It is not a rendering of a real experiment; the full renderer
+// lives in track/synth.
+type gapImage struct {
+	w, h       int
+	topY, botY float64 // wall heights at x = 0, px
+	tiltDeg    float64
+	plate, gap float64 // grey levels
+	noise      float64 // Gaussian noise sigma, grey levels
+	reflect    float64 // added brightness of a thin line near each wall
+	reflectAt  float64 // its distance from the wall in px, positive inside the gap
+	stuck      int     // number of stuck dark blobs on the top wall
+	scratch    bool    // a bright diagonal scratch across the gap
+	blurPx     float64
+	seed       int64
+}
+
+func phi(x float64) float64 { return 0.5 * math.Erfc(-x/math.Sqrt2) }
+
+// render returns the image as 8-bit levels (float).
+func (g gapImage) render() []float32 {
+	r := rand.New(rand.NewSource(g.seed))
+	s := math.Tan(g.tiltDeg * math.Pi / 180)
+	blur := g.blurPx
+	if blur == 0 {
+		blur = 1
+	}
+	pix := make([]float32, g.w*g.h)
+	type blob struct{ x, y float64 }
+	var blobs []blob
+	for i := 0; i < g.stuck; i++ {
+		x := r.Float64() * float64(g.w)
+		blobs = append(blobs, blob{x, g.topY + s*x + 2})
+	}
+	for y := 0; y < g.h; y++ {
+		for x := 0; x < g.w; x++ {
+			fx, fy := float64(x), float64(y)
+			cos := math.Cos(math.Atan(s))
+			dt := (fy - (g.topY + s*fx)) * cos // >0 inside the gap
+			db := ((g.botY + s*fx) - fy) * cos
+			in := phi(dt/blur) * phi(db/blur)
+			v := g.plate + (g.gap-g.plate)*in
+			if g.reflect != 0 {
+				v += g.reflect * (math.Exp(-sq(dt-g.reflectAt)/2) + math.Exp(-sq(db-g.reflectAt)/2))
+			}
+			for _, b := range blobs {
+				if d2 := sq(fx-b.x) + sq(fy-b.y); d2 < 25 {
+					v -= 0.6 * (g.gap) * math.Exp(-d2/4)
+				}
+			}
+			if g.scratch && math.Abs(fy-(0.2*fx+g.topY)) < 1 && in > 0.5 {
+				v += 60
+			}
+			v += g.noise * r.NormFloat64()
+			pix[y*g.w+x] = float32(v)
+		}
+	}
+	return pix
+}
+
+func sq(x float64) float64 { return x * x }
+
+// Tolerances of the detection tests, from the acceptance list of issue 4.
+const (
+	lineTolPx  = 0.3
+	tiltTolDeg = 0.05
+)
+
+func checkWalls(t *testing.T, g gapImage, r *Result) {
+	t.Helper()
+	s := math.Tan(g.tiltDeg * math.Pi / 180)
+	for _, x := range []float64{0, float64(g.w-1) / 2, float64(g.w - 1)} {
+		if d := r.Top.YAt(x) - (g.topY + s*x); math.Abs(d) > lineTolPx {
+			t.Errorf("top wall at x=%g off by %.3f px", x, d)
+		}
+		if d := r.Bottom.YAt(x) - (g.botY + s*x); math.Abs(d) > lineTolPx {
+			t.Errorf("bottom wall at x=%g off by %.3f px", x, d)
+		}
+	}
+	if d := r.TiltDeg - g.tiltDeg; math.Abs(d) > tiltTolDeg {
+		t.Errorf("tilt %.4f deg, want %.4f", r.TiltDeg, g.tiltDeg)
+	}
+	wantGap := (g.botY - g.topY) * math.Cos(math.Atan(s))
+	if d := r.GapPx - wantGap; math.Abs(d) > lineTolPx {
+		t.Errorf("gap %.3f px, want %.3f", r.GapPx, wantGap)
+	}
+}
+
+func TestFindSimple(t *testing.T) {
+	base := gapImage{w: 320, h: 240, topY: 40.3, botY: 200.8, plate: 200, gap: 60, noise: 4}
+	cases := []struct {
+		name string
+		mod  func(*gapImage)
+	}{
+		{"bright plates", func(g *gapImage) {}},
+		{"dark plates", func(g *gapImage) { g.plate, g.gap = 20, 150 }},
+		{"tilt +3", func(g *gapImage) { g.tiltDeg = 3 }},
+		{"tilt -3", func(g *gapImage) { g.tiltDeg = -3; g.topY, g.botY = 60.7, 220.2 }},
+		{"tilt -1.3 dark", func(g *gapImage) { g.tiltDeg = -1.3; g.plate, g.gap = 30, 170; g.topY, g.botY = 50.1, 210.6 }},
+		{"reflection inside", func(g *gapImage) { g.reflect = 50; g.reflectAt = 5; g.tiltDeg = 0.7 }},
+		{"reflection on plate", func(g *gapImage) { g.reflect = -80; g.reflectAt = -5; g.tiltDeg = -0.4 }},
+		{"reflection dark plate", func(g *gapImage) { g.plate, g.gap = 20, 150; g.reflect = 90; g.reflectAt = -5; g.tiltDeg = 2.9 }},
+		{"stuck particles", func(g *gapImage) { g.stuck = 6; g.tiltDeg = 1.1 }},
+		{"scratch", func(g *gapImage) { g.scratch = true }},
+		{"noisy", func(g *gapImage) { g.noise = 12; g.tiltDeg = 2.2 }},
+		{"soft edge", func(g *gapImage) { g.blurPx = 2.5; g.tiltDeg = -2; g.topY, g.botY = 50.5, 210 }},
+	}
+	for i, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			g := base
+			g.seed = int64(i + 1)
+			c.mod(&g)
+			r, err := FindPixels(g.render(), g.w, g.h, Options{})
+			if err != nil {
+				t.Fatal(err)
+			}
+			checkWalls(t, g, r)
+		})
+	}
+}
+
+// toMat packs float levels into an 8- or 16-bit Mat (16 bit at full range).
+func toMat(t *testing.T, pix []float32, w, h int, sixteen bool) gocv.Mat {
+	t.Helper()
+	if !sixteen {
+		b := make([]byte, len(pix))
+		for i, v := range pix {
+			b[i] = uint8(math.Max(0, math.Min(255, math.Round(float64(v)))))
+		}
+		m, err := gocv.NewMatFromBytes(h, w, gocv.MatTypeCV8U, b)
+		if err != nil {
+			t.Fatal(err)
+		}
+		return m
+	}
+	b := make([]byte, 2*len(pix))
+	for i, v := range pix {
+		u := uint16(math.Max(0, math.Min(65535, math.Round(float64(v)*257))))
+		b[2*i], b[2*i+1] = byte(u), byte(u>>8)
+	}
+	m, err := gocv.NewMatFromBytes(h, w, gocv.MatTypeCV16U, b)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return m
+}
+
+func TestFindMat8And16(t *testing.T) {
+	g := gapImage{w: 320, h: 240, topY: 40.3, botY: 200.8, plate: 220, gap: 40, noise: 3, tiltDeg: 1.7, seed: 9}
+	pix := g.render()
+	for _, sixteen := range []bool{false, true} {
+		m := toMat(t, pix, g.w, g.h, sixteen)
+		r, err := Find(m, Options{})
+		m.Close()
+		if err != nil {
+			t.Fatalf("16 bit %v: %v", sixteen, err)
+		}
+		checkWalls(t, g, r)
+		if c := math.Abs(r.Top.ContrastLevels); math.Abs(c-180) > 20 {
+			t.Errorf("16 bit %v: top contrast %.1f levels, want about 180", sixteen, c)
+		}
+	}
+}
+
+func TestFindErrors(t *testing.T) {
+	cases := []struct {
+		name string
+		g    gapImage
+		want string
+	}{
+		{"no walls", gapImage{w: 320, h: 240, topY: -100, botY: 1000, plate: 100, gap: 100, noise: 2}, "walls not found: strongest horizontal edge"},
+		{"one wall outside", gapImage{w: 320, h: 240, topY: 60, botY: 400, plate: 200, gap: 50, noise: 2}, "outside"},
+		{"gap of 3 px", gapImage{w: 320, h: 240, topY: 100, botY: 103, plate: 200, gap: 50, noise: 2, blurPx: 0.6}, "gap of 3."},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			_, err := FindPixels(c.g.render(), c.g.w, c.g.h, Options{})
+			if err == nil || !strings.Contains(err.Error(), c.want) {
+				t.Fatalf("error %v, want one containing %q", err, c.want)
+			}
+			t.Log(err)
+		})
+	}
+}
+
+func TestCheckInside(t *testing.T) {
+	if err := CheckInside("moving", Line{Y0: -40, Slope: 0.001}, 640, 480); err == nil || !strings.Contains(err.Error(), "outside the 640x480 image") {
+		t.Fatalf("got %v", err)
+	}
+	if err := CheckInside("moving", Line{Y0: 40, Slope: 0.001}, 640, 480); err != nil {
+		t.Fatal(err)
+	}
+}
