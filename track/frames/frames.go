@@ -1,0 +1,427 @@
+// Package frames streams the frames of a recording as single-channel images:
+// video files read through OpenCV's FFmpeg backend, and folders or globs of
+// still frames (PNG, TIFF; 8 and 16 bit kept at full depth).
+//
+// A Source delivers the frames of a Range one at a time into a Mat the caller
+// reuses, so memory does not grow with the number of frames. Median computes
+// a per-pixel temporal median of a Source, the background that removes static
+// walls, reflections and stuck particles.
+//
+// Videos whose frames are independent JPEG images (Motion JPEG) are decoded
+// straight to grey from the container's packets, which skips the colour
+// conversion of the general path; every other codec is read as BGR and
+// converted to grey once per frame into a reused Mat.
+package frames
+
+import (
+	"errors"
+	"fmt"
+	"io"
+	"math"
+	"os"
+	"path/filepath"
+	"sort"
+	"strings"
+
+	"gocv.io/x/gocv"
+)
+
+// Info describes an input.
+type Info struct {
+	Path string
+	// Frames is the number of frames in the input (not in the range), -1
+	// if the container does not say.
+	Frames int
+	// FPS is the frame rate in frames per second: the override given to
+	// Open, else the container's, else 0 when unknown.
+	FPS float64
+	// WidthPx and HeightPx are the frame size in pixels.
+	WidthPx, HeightPx int
+	// BitDepth is 8 or 16: the depth of the Mats Next returns (CV_8U or
+	// CV_16U).
+	BitDepth int
+}
+
+// Range selects frames by their index in the input: First, First+Step, ...
+// up to Last inclusive. Last = -1 runs to the end; Step 0 means 1.
+type Range struct {
+	First, Last, Step int
+}
+
+// All is the range of every frame.
+var All = Range{First: 0, Last: -1, Step: 1}
+
+func (r Range) step() int {
+	if r.Step <= 0 {
+		return 1
+	}
+	return r.Step
+}
+
+// Check reports a range that selects nothing for certain.
+func (r Range) Check() error {
+	switch {
+	case r.First < 0:
+		return fmt.Errorf("frames: range first frame %d is negative", r.First)
+	case r.Step < 0:
+		return fmt.Errorf("frames: range step %d is negative", r.Step)
+	case r.Last != -1 && r.Last < r.First:
+		return fmt.Errorf("frames: range last frame %d is before first frame %d", r.Last, r.First)
+	}
+	return nil
+}
+
+// Count is the number of frames the range selects in an input of total
+// frames; -1 when total is unknown and the range runs to the end.
+func (r Range) Count(total int) int {
+	last := r.Last
+	if total >= 0 && (last < 0 || last > total-1) {
+		last = total - 1
+	}
+	if last < 0 {
+		if total < 0 {
+			return -1
+		}
+		return 0
+	}
+	if last < r.First {
+		return 0
+	}
+	return (last-r.First)/r.step() + 1
+}
+
+// Source is a stream of single-channel frames.
+type Source interface {
+	// Info describes the input.
+	Info() Info
+	// Next reads the next frame of the range into dst as a single-channel
+	// CV_8U or CV_16U Mat, reusing dst's memory when it has the right size
+	// and type, and returns the frame's index in the input. At the end of
+	// the range it returns io.EOF.
+	Next(dst *gocv.Mat) (index int, err error)
+	// Close releases the input.
+	Close() error
+}
+
+// Open opens a video file, a folder of still frames or a glob pattern of
+// still frames. fpsOverride, when positive, replaces the container's frame
+// rate (the experiment file's camera.fps).
+func Open(path string, fpsOverride float64, r Range) (Source, error) {
+	if err := r.Check(); err != nil {
+		return nil, err
+	}
+	if fpsOverride < 0 || math.IsNaN(fpsOverride) || math.IsInf(fpsOverride, 0) {
+		return nil, fmt.Errorf("frames: frame rate override %g is not a positive number", fpsOverride)
+	}
+	if strings.ContainsAny(path, "*?[") {
+		if _, err := os.Stat(path); err != nil {
+			names, gerr := filepath.Glob(path)
+			if gerr != nil {
+				return nil, fmt.Errorf("frames: bad glob pattern %q: %v", path, gerr)
+			}
+			return openStills(path, names, fpsOverride, r)
+		}
+	}
+	st, err := os.Stat(path)
+	if err != nil {
+		return nil, fmt.Errorf("frames: %w", err)
+	}
+	if st.IsDir() {
+		ents, err := os.ReadDir(path)
+		if err != nil {
+			return nil, fmt.Errorf("frames: %w", err)
+		}
+		var names []string
+		for _, e := range ents {
+			if !e.IsDir() && isStill(e.Name()) {
+				names = append(names, filepath.Join(path, e.Name()))
+			}
+		}
+		return openStills(path, names, fpsOverride, r)
+	}
+	if isStill(path) {
+		return openStills(path, []string{path}, fpsOverride, r)
+	}
+	return openVideo(path, fpsOverride, r)
+}
+
+// isStill reports whether name has the extension of a still-image format.
+func isStill(name string) bool {
+	switch strings.ToLower(filepath.Ext(name)) {
+	case ".png", ".tif", ".tiff":
+		return true
+	}
+	return false
+}
+
+// naturalLess orders file names so that frame2 comes before frame10.
+func naturalLess(a, b string) bool {
+	for a != "" && b != "" {
+		ca, cb := a[0], b[0]
+		if isDigit(ca) && isDigit(cb) {
+			ia, ib := digitsEnd(a), digitsEnd(b)
+			na, nb := strings.TrimLeft(a[:ia], "0"), strings.TrimLeft(b[:ib], "0")
+			if len(na) != len(nb) {
+				return len(na) < len(nb)
+			}
+			if na != nb {
+				return na < nb
+			}
+			a, b = a[ia:], b[ib:]
+			continue
+		}
+		if ca != cb {
+			return ca < cb
+		}
+		a, b = a[1:], b[1:]
+	}
+	return len(a) < len(b)
+}
+
+func isDigit(c byte) bool { return c >= '0' && c <= '9' }
+
+func digitsEnd(s string) int {
+	i := 0
+	for i < len(s) && isDigit(s[i]) {
+		i++
+	}
+	return i
+}
+
+// errEmpty is returned for an input without any frame.
+var errEmpty = errors.New("no frames")
+
+// stills is a Source over a list of still-image files.
+type stills struct {
+	info  Info
+	names []string
+	r     Range
+	next  int // index of the next frame to deliver
+}
+
+func openStills(path string, names []string, fps float64, r Range) (Source, error) {
+	kept := names[:0:0]
+	for _, n := range names {
+		if isStill(n) {
+			kept = append(kept, n)
+		}
+	}
+	if len(kept) == 0 {
+		return nil, fmt.Errorf("frames: %s: %w (no .png, .tif or .tiff files)", path, errEmpty)
+	}
+	sort.Slice(kept, func(i, j int) bool { return naturalLess(filepath.Base(kept[i]), filepath.Base(kept[j])) })
+	first := gocv.IMRead(kept[0], gocv.IMReadAnyDepth|gocv.IMReadGrayScale)
+	defer first.Close()
+	if first.Empty() {
+		return nil, fmt.Errorf("frames: %s: cannot read frame 0 (%s)", path, kept[0])
+	}
+	depth, err := bitDepth(first.Type())
+	if err != nil {
+		return nil, fmt.Errorf("frames: %s: frame 0: %v", kept[0], err)
+	}
+	s := &stills{
+		info: Info{Path: path, Frames: len(kept), FPS: fps, WidthPx: first.Cols(), HeightPx: first.Rows(), BitDepth: depth},
+		names: kept, r: r, next: r.First,
+	}
+	return s, nil
+}
+
+func bitDepth(t gocv.MatType) (int, error) {
+	switch t {
+	case gocv.MatTypeCV8U:
+		return 8, nil
+	case gocv.MatTypeCV16U:
+		return 16, nil
+	}
+	return 0, fmt.Errorf("unsupported pixel type %v (want 8 or 16 bit unsigned grey)", t)
+}
+
+func (s *stills) Info() Info { return s.info }
+
+func (s *stills) Next(dst *gocv.Mat) (int, error) {
+	i := s.next
+	if i >= len(s.names) || (s.r.Last >= 0 && i > s.r.Last) {
+		return 0, io.EOF
+	}
+	s.next += s.r.step()
+	img := gocv.IMRead(s.names[i], gocv.IMReadAnyDepth|gocv.IMReadGrayScale)
+	defer img.Close()
+	if img.Empty() {
+		return 0, fmt.Errorf("frames: %s: cannot read frame %d (%s)", s.info.Path, i, s.names[i])
+	}
+	if img.Cols() != s.info.WidthPx || img.Rows() != s.info.HeightPx {
+		return 0, fmt.Errorf("frames: %s: frame %d (%s) is %dx%d px, the sequence is %dx%d px",
+			s.info.Path, i, s.names[i], img.Cols(), img.Rows(), s.info.WidthPx, s.info.HeightPx)
+	}
+	if d, err := bitDepth(img.Type()); err != nil || d != s.info.BitDepth {
+		return 0, fmt.Errorf("frames: %s: frame %d (%s) has pixel type %v, the sequence is %d bit",
+			s.info.Path, i, s.names[i], img.Type(), s.info.BitDepth)
+	}
+	img.CopyTo(dst)
+	return i, nil
+}
+
+func (s *stills) Close() error { return nil }
+
+// video is a Source over a video file.
+type video struct {
+	info   Info
+	cap    *gocv.VideoCapture
+	r      Range
+	next   int // index of the next frame the capture will return
+	jpeg   bool
+	raw    gocv.Mat // encoded packet (jpeg) or BGR frame
+	closed bool
+}
+
+// probe reads the first frame of a fresh capture to learn the size and
+// whether its packets are independent JPEG images.
+func openVideo(path string, fps float64, r Range) (Source, error) {
+	if _, err := os.Stat(path); err != nil {
+		return nil, fmt.Errorf("frames: %w", err)
+	}
+	v, err := openCapture(path, true)
+	if err != nil {
+		return nil, err
+	}
+	if v == nil {
+		if v, err = openCapture(path, false); err != nil {
+			return nil, err
+		}
+	}
+	v.r = r
+	if fps > 0 {
+		v.info.FPS = fps
+	}
+	return v, nil
+}
+
+// openCapture opens path; with jpeg it asks for the undecoded packets and
+// returns nil, nil when they are not JPEG images.
+func openCapture(path string, jpeg bool) (*video, error) {
+	c, err := gocv.VideoCaptureFileWithAPI(path, gocv.VideoCaptureFFmpeg)
+	if err != nil || !c.IsOpened() {
+		if c != nil {
+			c.Close()
+		}
+		return nil, fmt.Errorf("frames: %s: cannot open as a video", path)
+	}
+	v := &video{cap: c, raw: gocv.NewMat(), jpeg: jpeg}
+	v.info = Info{Path: path, Frames: -1, BitDepth: 8,
+		WidthPx: int(c.Get(gocv.VideoCaptureFrameWidth)), HeightPx: int(c.Get(gocv.VideoCaptureFrameHeight))}
+	if n := c.Get(gocv.VideoCaptureFrameCount); n > 0 && n < math.MaxInt32 {
+		v.info.Frames = int(math.Round(n))
+	}
+	if f := c.Get(gocv.VideoCaptureFPS); f > 0 && !math.IsInf(f, 0) && !math.IsNaN(f) {
+		v.info.FPS = f
+	}
+	if jpeg {
+		c.Set(gocv.VideoCaptureFormat, -1)
+		ok := c.Get(gocv.VideoCaptureFormat) == -1 && c.Read(&v.raw)
+		if ok {
+			b, _ := v.raw.DataPtrUint8()
+			ok = len(b) > 4 && b[0] == 0xff && b[1] == 0xd8
+			if ok {
+				g, err := gocv.IMDecode(b, gocv.IMReadGrayScale)
+				ok = err == nil && !g.Empty() && g.Cols() == v.info.WidthPx && g.Rows() == v.info.HeightPx
+				g.Close()
+			}
+		}
+		v.Close()
+		if !ok {
+			return nil, nil
+		}
+		// Reopen to start again at frame 0.
+		c, err = gocv.VideoCaptureFileWithAPI(path, gocv.VideoCaptureFFmpeg)
+		if err != nil || !c.IsOpened() {
+			if c != nil {
+				c.Close()
+			}
+			return nil, fmt.Errorf("frames: %s: cannot reopen as a video", path)
+		}
+		c.Set(gocv.VideoCaptureFormat, -1)
+		v.cap, v.raw, v.closed = c, gocv.NewMat(), false
+	}
+	if v.info.WidthPx <= 0 || v.info.HeightPx <= 0 {
+		v.Close()
+		return nil, fmt.Errorf("frames: %s: the video has no frame size", path)
+	}
+	return v, nil
+}
+
+func (v *video) Info() Info { return v.info }
+
+func (v *video) Next(dst *gocv.Mat) (int, error) {
+	if v.closed {
+		return 0, fmt.Errorf("frames: %s: read after Close", v.info.Path)
+	}
+	target := v.r.First
+	if v.next > v.r.First {
+		target = v.next - 1 + v.r.step()
+	}
+	if v.r.Last >= 0 && target > v.r.Last {
+		return 0, io.EOF
+	}
+	for v.next <= target {
+		if !v.cap.Read(&v.raw) || v.raw.Empty() {
+			if v.info.Frames >= 0 && v.next < v.info.Frames {
+				return 0, fmt.Errorf("frames: %s: cannot read frame %d of %d (file truncated or damaged)", v.info.Path, v.next, v.info.Frames)
+			}
+			return 0, io.EOF
+		}
+		v.next++
+	}
+	i := v.next - 1
+	if v.jpeg {
+		b, err := v.raw.DataPtrUint8()
+		if err != nil {
+			return 0, fmt.Errorf("frames: %s: frame %d: %v", v.info.Path, i, err)
+		}
+		g, err := gocv.IMDecode(b, gocv.IMReadGrayScale)
+		if err != nil || g.Empty() {
+			g.Close()
+			return 0, fmt.Errorf("frames: %s: cannot decode frame %d (damaged JPEG data)", v.info.Path, i)
+		}
+		defer g.Close()
+		if err := v.checkSize(g, i); err != nil {
+			return 0, err
+		}
+		// Swap rather than copy: g's memory becomes dst's.
+		*dst, g = g, *dst
+		return i, nil
+	}
+	if err := v.checkSize(v.raw, i); err != nil {
+		return 0, err
+	}
+	switch v.raw.Channels() {
+	case 1:
+		v.raw.CopyTo(dst)
+	case 3:
+		gocv.CvtColor(v.raw, dst, gocv.ColorBGRToGray)
+	case 4:
+		gocv.CvtColor(v.raw, dst, gocv.ColorBGRAToGray)
+	default:
+		return 0, fmt.Errorf("frames: %s: frame %d has %d channels", v.info.Path, i, v.raw.Channels())
+	}
+	if dst.Type() != gocv.MatTypeCV8U {
+		dst.ConvertTo(dst, gocv.MatTypeCV8U)
+	}
+	return i, nil
+}
+
+func (v *video) checkSize(m gocv.Mat, i int) error {
+	if m.Cols() != v.info.WidthPx || m.Rows() != v.info.HeightPx {
+		return fmt.Errorf("frames: %s: frame %d is %dx%d px, the video is %dx%d px",
+			v.info.Path, i, m.Cols(), m.Rows(), v.info.WidthPx, v.info.HeightPx)
+	}
+	return nil
+}
+
+func (v *video) Close() error {
+	if v.closed {
+		return nil
+	}
+	v.closed = true
+	v.raw.Close()
+	return v.cap.Close()
+}

@@ -1,0 +1,381 @@
+package frames
+
+import (
+	"errors"
+	"fmt"
+	"io"
+	"os"
+	"path/filepath"
+	"strings"
+	"testing"
+
+	"gocv.io/x/gocv"
+)
+
+func TestMain(m *testing.M) {
+	code := m.Run()
+	if code == 0 {
+		if err := matLeaks(); err != nil {
+			fmt.Fprintln(os.Stderr, err)
+			code = 1
+		}
+	}
+	os.Exit(code)
+}
+
+// pattern is the grey level of pixel (x, y) in frame f of the test inputs:
+// smooth, so that a lossy codec keeps it within a few levels.
+func pattern(f, x, y, maxV int) int {
+	return (f*37 + x*3 + y*2) % maxV
+}
+
+func makeFrame(t *testing.T, f, w, h int, typ gocv.MatType) gocv.Mat {
+	t.Helper()
+	m := gocv.NewMatWithSize(h, w, typ)
+	switch typ {
+	case gocv.MatTypeCV8U:
+		b, _ := m.DataPtrUint8()
+		for y := 0; y < h; y++ {
+			for x := 0; x < w; x++ {
+				b[y*w+x] = uint8(pattern(f, x, y, 200))
+			}
+		}
+	case gocv.MatTypeCV16U:
+		b, _ := m.DataPtrUint16()
+		for y := 0; y < h; y++ {
+			for x := 0; x < w; x++ {
+				b[y*w+x] = uint16(1000 + 97*pattern(f, x, y, 200))
+			}
+		}
+	}
+	return m
+}
+
+func writeStills(t *testing.T, dir string, n, w, h int, typ gocv.MatType, ext string) {
+	t.Helper()
+	for f := 0; f < n; f++ {
+		m := makeFrame(t, f, w, h, typ)
+		// Unpadded numbers: the source must order them naturally.
+		if !gocv.IMWrite(filepath.Join(dir, fmt.Sprintf("img%d%s", f, ext)), m) {
+			t.Fatalf("cannot write frame %d", f)
+		}
+		m.Close()
+	}
+}
+
+func readAll(t *testing.T, s Source) (idx []int, frames [][]int) {
+	t.Helper()
+	m := gocv.NewMat()
+	defer m.Close()
+	for {
+		i, err := s.Next(&m)
+		if errors.Is(err, io.EOF) {
+			return
+		}
+		if err != nil {
+			t.Fatal(err)
+		}
+		idx = append(idx, i)
+		var px []int
+		switch m.Type() {
+		case gocv.MatTypeCV8U:
+			b, _ := m.DataPtrUint8()
+			for _, v := range b {
+				px = append(px, int(v))
+			}
+		case gocv.MatTypeCV16U:
+			b, _ := m.DataPtrUint16()
+			for _, v := range b {
+				px = append(px, int(v))
+			}
+		default:
+			t.Fatalf("frame %d has type %v", i, m.Type())
+		}
+		frames = append(frames, px)
+	}
+}
+
+func TestStills(t *testing.T) {
+	const w, h, n = 24, 16, 12
+	for _, tc := range []struct {
+		name string
+		typ  gocv.MatType
+		ext  string
+		bits int
+	}{
+		{"png8", gocv.MatTypeCV8U, ".png", 8},
+		{"png16", gocv.MatTypeCV16U, ".png", 16},
+		{"tiff8", gocv.MatTypeCV8U, ".tif", 8},
+		{"tiff16", gocv.MatTypeCV16U, ".tiff", 16},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			dir := t.TempDir()
+			writeStills(t, dir, n, w, h, tc.typ, tc.ext)
+			for _, in := range []string{dir, filepath.Join(dir, "img*"+tc.ext)} {
+				s, err := Open(in, 25, Range{First: 1, Last: 10, Step: 3})
+				if err != nil {
+					t.Fatal(err)
+				}
+				info := s.Info()
+				if info.Frames != n || info.WidthPx != w || info.HeightPx != h || info.BitDepth != tc.bits || info.FPS != 25 {
+					t.Errorf("%s: info %+v", in, info)
+				}
+				idx, got := readAll(t, s)
+				s.Close()
+				if fmt.Sprint(idx) != "[1 4 7 10]" {
+					t.Fatalf("%s: indices %v, want [1 4 7 10]", in, idx)
+				}
+				for k, f := range idx {
+					ref := makeFrame(t, f, w, h, tc.typ)
+					_, want := readAll(t, &single{m: ref})
+					ref.Close()
+					if fmt.Sprint(got[k]) != fmt.Sprint(want[0]) {
+						t.Fatalf("%s: frame %d differs from what was written (full depth lost?)", in, f)
+					}
+				}
+			}
+		})
+	}
+}
+
+// single is a Source of one Mat, to read a reference frame like the others.
+type single struct {
+	m    gocv.Mat
+	done bool
+}
+
+func (s *single) Info() Info { return Info{} }
+func (s *single) Next(dst *gocv.Mat) (int, error) {
+	if s.done {
+		return 0, io.EOF
+	}
+	s.m.CopyTo(dst)
+	s.done = true
+	return 0, nil
+}
+func (s *single) Close() error { return nil }
+
+func TestStillsErrors(t *testing.T) {
+	dir := t.TempDir()
+	writeStills(t, dir, 3, 20, 10, gocv.MatTypeCV8U, ".png")
+	// A frame of another size inside the sequence.
+	odd := makeFrame(t, 3, 21, 10, gocv.MatTypeCV8U)
+	gocv.IMWrite(filepath.Join(dir, "img3.png"), odd)
+	odd.Close()
+	// An unreadable frame.
+	if err := os.WriteFile(filepath.Join(dir, "img4.png"), []byte("not a png"), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	for _, tc := range []struct {
+		first int
+		want  string
+	}{
+		{3, "frame 3 (" + filepath.Join(dir, "img3.png") + ") is 21x10 px, the sequence is 20x10 px"},
+		{4, "cannot read frame 4 (" + filepath.Join(dir, "img4.png") + ")"},
+	} {
+		s, err := Open(dir, 0, All)
+		if err != nil {
+			t.Fatal(err)
+		}
+		m := gocv.NewMat()
+		for {
+			_, err = s.Next(&m)
+			if err != nil {
+				break
+			}
+		}
+		m.Close()
+		s.Close()
+		if tc.first == 4 {
+			s, _ = Open(dir, 0, Range{First: 4, Last: -1})
+			m = gocv.NewMat()
+			_, err = s.Next(&m)
+			m.Close()
+		}
+		if err == nil || !strings.Contains(err.Error(), tc.want) {
+			t.Errorf("error %v, want one containing %q", err, tc.want)
+		}
+	}
+	for _, in := range []string{filepath.Join(dir, "missing"), filepath.Join(dir, "none*.png"), t.TempDir()} {
+		if _, err := Open(in, 0, All); err == nil {
+			t.Errorf("Open(%s) succeeded", in)
+		}
+	}
+	if _, err := Open(dir, 0, Range{First: 5, Last: 2}); err == nil || !strings.Contains(err.Error(), "last frame 2 is before first frame 5") {
+		t.Errorf("bad range: %v", err)
+	}
+}
+
+func writeVideo(t *testing.T, path, codec string, n, w, h int) {
+	t.Helper()
+	vw, err := gocv.VideoWriterFile(path, codec, 40, w, h, false)
+	if err != nil || !vw.IsOpened() {
+		t.Skipf("cannot write %s video: %v", codec, err)
+	}
+	for f := 0; f < n; f++ {
+		m := makeFrame(t, f, w, h, gocv.MatTypeCV8U)
+		if err := vw.Write(m); err != nil {
+			t.Fatal(err)
+		}
+		m.Close()
+	}
+	vw.Close()
+}
+
+func TestVideo(t *testing.T) {
+	const w, h, n = 64, 48, 20
+	for _, tc := range []struct {
+		codec, ext string
+		jpeg       bool
+		tolGrey    float64 // mean absolute grey-level error the codec may make
+	}{
+		// Lossy JPEG at OpenCV's default quality: a few grey levels on
+		// average, more at the pattern's sharp wrap-around (common practice).
+		{"MJPG", ".avi", true, 2},
+		{"FFV1", ".mkv", false, 0},
+	} {
+		t.Run(tc.codec, func(t *testing.T) {
+			path := filepath.Join(t.TempDir(), "v"+tc.ext)
+			writeVideo(t, path, tc.codec, n, w, h)
+			s, err := Open(path, 0, Range{First: 2, Last: -1, Step: 5})
+			if err != nil {
+				t.Fatal(err)
+			}
+			defer s.Close()
+			info := s.Info()
+			if info.Frames != n || info.WidthPx != w || info.HeightPx != h || info.BitDepth != 8 || info.FPS != 40 {
+				t.Errorf("info %+v", info)
+			}
+			if v, ok := s.(*video); !ok || v.jpeg != tc.jpeg {
+				t.Errorf("JPEG packet path %v, want %v", ok && v.jpeg, tc.jpeg)
+			}
+			idx, got := readAll(t, s)
+			if fmt.Sprint(idx) != "[2 7 12 17]" {
+				t.Fatalf("indices %v, want [2 7 12 17]", idx)
+			}
+			for k, f := range idx {
+				sum := 0
+				for p, v := range got[k] {
+					d := v - pattern(f, p%w, p/w, 200)
+					sum += max(d, -d)
+				}
+				if mean := float64(sum) / float64(w*h); mean > tc.tolGrey {
+					t.Errorf("frame %d: mean error %.2f grey levels, want <= %g", f, mean, tc.tolGrey)
+				}
+			}
+			s2, err := Open(path, 100, Range{Last: 3})
+			if err != nil {
+				t.Fatal(err)
+			}
+			defer s2.Close()
+			if s2.Info().FPS != 100 {
+				t.Errorf("fps override: %g", s2.Info().FPS)
+			}
+			if idx, _ := readAll(t, s2); fmt.Sprint(idx) != "[0 1 2 3]" {
+				t.Errorf("indices %v, want [0 1 2 3]", idx)
+			}
+		})
+	}
+}
+
+func TestVideoTruncated(t *testing.T) {
+	const w, h, n = 64, 48, 30
+	path := filepath.Join(t.TempDir(), "v.avi")
+	writeVideo(t, path, "MJPG", n, w, h)
+	b, err := os.ReadFile(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := os.WriteFile(path, b[:len(b)/2], 0o644); err != nil {
+		t.Fatal(err)
+	}
+	s, err := Open(path, 0, All)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer s.Close()
+	m := gocv.NewMat()
+	defer m.Close()
+	for {
+		_, err = s.Next(&m)
+		if err != nil {
+			break
+		}
+	}
+	if errors.Is(err, io.EOF) || !strings.Contains(err.Error(), path) || !strings.Contains(err.Error(), "frame") {
+		t.Errorf("truncated video: error %v, want one naming the file and the frame", err)
+	}
+	if _, err := Open(filepath.Join(t.TempDir(), "garbage.avi"), 0, All); err == nil {
+		t.Error("missing video opened")
+	}
+}
+
+func TestMedian(t *testing.T) {
+	const w, h = 6, 4
+	for _, bits := range []int{8, 16} {
+		typ := gocv.MatTypeCV8U
+		if bits == 16 {
+			typ = gocv.MatTypeCV16U
+		}
+		dir := t.TempDir()
+		// Pixel p of frame f is base(p) except for "tracers" passing in two
+		// frames out of five; the median must give base(p) exactly.
+		for f := 0; f < 5; f++ {
+			m := gocv.NewMatWithSize(h, w, typ)
+			for p := 0; p < w*h; p++ {
+				v := 10 + p
+				if (p+f)%5 < 2 {
+					v += 100 + f
+				}
+				if bits == 8 {
+					b, _ := m.DataPtrUint8()
+					b[p] = uint8(v)
+				} else {
+					b, _ := m.DataPtrUint16()
+					b[p] = uint16(v * 200)
+				}
+			}
+			gocv.IMWrite(filepath.Join(dir, fmt.Sprintf("f%02d.png", f)), m)
+			m.Close()
+		}
+		s, err := Open(dir, 0, All)
+		if err != nil {
+			t.Fatal(err)
+		}
+		med, err := Median(s, 100)
+		s.Close()
+		if err != nil {
+			t.Fatal(err)
+		}
+		got, _ := med.DataPtrFloat32()
+		for p, v := range got {
+			want := float32(10 + p)
+			if bits == 16 {
+				want *= 200
+			}
+			if v != want {
+				t.Errorf("%d bit: pixel %d median %g, want %g", bits, p, v, want)
+			}
+		}
+		med.Close()
+	}
+	for _, tc := range []struct {
+		v    []uint8
+		want float32
+	}{{[]uint8{3}, 3}, {[]uint8{4, 1}, 2.5}, {[]uint8{9, 1, 5, 5, 2, 8}, 5}, {[]uint8{7, 7, 1, 9, 2}, 7}, {[]uint8{1, 2, 3, 4, 5, 6, 7, 8}, 4.5}} {
+		if got := medianOf(append([]uint8(nil), tc.v...)); got != tc.want {
+			t.Errorf("medianOf(%v) = %g, want %g", tc.v, got, tc.want)
+		}
+	}
+}
+
+func TestNaturalOrder(t *testing.T) {
+	for _, tc := range []struct {
+		a, b string
+		less bool
+	}{{"f2.png", "f10.png", true}, {"f10.png", "f2.png", false}, {"f002.png", "f10.png", true}, {"a.png", "b.png", true}, {"f1", "f1a", true}} {
+		if got := naturalLess(tc.a, tc.b); got != tc.less {
+			t.Errorf("naturalLess(%q, %q) = %v", tc.a, tc.b, got)
+		}
+	}
+}
