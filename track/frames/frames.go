@@ -220,7 +220,7 @@ func openStills(path string, names []string, fps float64, r Range) (Source, erro
 		return nil, fmt.Errorf("frames: %s: frame 0: %v", kept[0], err)
 	}
 	s := &stills{
-		info: Info{Path: path, Frames: len(kept), FPS: fps, WidthPx: first.Cols(), HeightPx: first.Rows(), BitDepth: depth},
+		info:  Info{Path: path, Frames: len(kept), FPS: fps, WidthPx: first.Cols(), HeightPx: first.Rows(), BitDepth: depth},
 		names: kept, r: r, next: r.First,
 	}
 	return s, nil
