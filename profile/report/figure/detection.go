@@ -1,0 +1,114 @@
+package figure
+
+import (
+	"fmt"
+	"image/color"
+	"math"
+
+	"gonum.org/v1/plot"
+	"gonum.org/v1/plot/plotter"
+	"gonum.org/v1/plot/vg"
+)
+
+// Detection holds per-detection values for the detection diagnostics.
+type Detection struct {
+	// SNR is each detection's signal-to-noise ratio (peak over background
+	// noise, dimensionless).
+	SNR []float64
+	// SNRThreshold is the detector's acceptance threshold (0: not drawn).
+	SNRThreshold float64
+	// FracXPx and FracYPx are the fractional parts of the sub-pixel centres,
+	// x - floor(x), in [0, 1) px. A flat histogram shows no pixel locking.
+	FracXPx, FracYPx []float64
+}
+
+// Histogram bins of the diagnostics.
+const (
+	snrBins  = 40
+	fracBins = 20
+)
+
+// Check reports the first value that makes d impossible to draw.
+func (d *Detection) Check() error {
+	if len(d.SNR) == 0 {
+		return fmt.Errorf("figure: detection diagnostics have no SNR values")
+	}
+	if len(d.FracXPx) == 0 && len(d.FracYPx) == 0 {
+		return fmt.Errorf("figure: detection diagnostics have no fractional positions")
+	}
+	for i, v := range d.SNR {
+		if !finite(v) {
+			return fmt.Errorf("figure: detection %d has SNR %g", i, v)
+		}
+	}
+	for _, fs := range [][]float64{d.FracXPx, d.FracYPx} {
+		for i, f := range fs {
+			if !(f >= 0 && f < 1) {
+				return fmt.Errorf("figure: fractional position %d is %g px, must be in [0, 1)", i, f)
+			}
+		}
+	}
+	return nil
+}
+
+// DetectionPlot draws the SNR histogram (left) and the histograms of the
+// fractional pixel positions in x and y (right), across both columns.
+func DetectionPlot(d *Detection) (*Figure, error) {
+	if err := d.Check(); err != nil {
+		return nil, err
+	}
+	left := newPlot("signal-to-noise ratio", "detections")
+	h, err := plotter.NewHist(plotter.Values(d.SNR), snrBins)
+	if err != nil {
+		return nil, err
+	}
+	h.FillColor, h.LineStyle.Color, h.LineStyle.Width = SkyBlue, Blue, vg.Points(0.5)
+	left.Add(h)
+	if d.SNRThreshold > 0 {
+		ymax := 0.0
+		for _, b := range h.Bins {
+			ymax = math.Max(ymax, b.Weight)
+		}
+		if err := vLine(left, d.SNRThreshold, 0, ymax, Vermillion, dataLinePt, dashes[1]); err != nil {
+			return nil, err
+		}
+		left.Legend.Add("threshold", lineThumb{lineStyle(Vermillion, dataLinePt, dashes[1])})
+		left.Legend.Top = true
+	}
+
+	right := newPlot("fractional position (px)", "fraction of detections per bin")
+	right.X.Min, right.X.Max = 0, 1
+	type series struct {
+		v    []float64
+		name string
+		c    color.RGBA
+		d    []vg.Length
+	}
+	peak := 0.0
+	for k, s := range []series{{d.FracXPx, "x", Blue, nil}, {d.FracYPx, "y", Vermillion, dashes[1]}} {
+		if len(s.v) == 0 {
+			continue
+		}
+		counts := make([]float64, fracBins)
+		for _, f := range s.v {
+			counts[min(int(f*fracBins), fracBins-1)]++
+		}
+		// A step outline, so two histograms stay readable on top of each other.
+		var pts plotter.XYs
+		for i, c := range counts {
+			y := c / float64(len(s.v))
+			peak = math.Max(peak, y)
+			pts = append(pts, plotter.XY{X: float64(i) / fracBins, Y: y}, plotter.XY{X: float64(i+1) / fracBins, Y: y})
+		}
+		if err := addLine(right, pts, s.c, dataLinePt+0.3*float64(k), s.d, s.name); err != nil {
+			return nil, err
+		}
+	}
+	flat := 1.0 / fracBins
+	if err := addLine(right, plotter.XYs{{X: 0, Y: flat}, {X: 1, Y: flat}}, Black, refLinePt, dashes[2], "uniform"); err != nil {
+		return nil, err
+	}
+	right.Y.Min, right.Y.Max = 0, math.Max(peak, flat)*1.4
+	right.Legend.Top = true
+	return renderGrid([][]*plot.Plot{{left, right}}, DoubleColumnCM, 6)
+}
