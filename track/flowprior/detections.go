@@ -1,0 +1,342 @@
+package flowprior
+
+import (
+	"fmt"
+	"math"
+
+	"gaptrace/calib"
+	"gaptrace/track/tracks"
+)
+
+// Point is a detected tracer position in image pixels.
+type Point struct {
+	XPx, YPx float64
+}
+
+// HistOptions sets how FromDetections builds the profile.
+type HistOptions struct {
+	// BinUM is the height of a gap bin, um. Zero means gap/DefaultBins.
+	BinUM float64
+	// MaxStepPx is the largest displacement per frame along the flow that
+	// is looked for, px. Required.
+	MaxStepPx float64
+	// CrossPx is the largest displacement per frame across the flow that a
+	// candidate may have, px. Zero means DefaultCrossPx.
+	CrossPx float64
+	// ResolutionPx is the width of a histogram bin, px. Zero means
+	// DefaultResolutionPx.
+	ResolutionPx float64
+	// MaxPairs bounds the number of frame pairs used, spread evenly over the
+	// input. Zero means all.
+	MaxPairs int
+}
+
+// Defaults of HistOptions.
+const (
+	// DefaultBins is the number of gap bins when no bin height is given:
+	// fine enough to follow a banded profile, coarse enough to hold a few
+	// hundred tracers per bin in a short video (common practice).
+	DefaultBins = 20
+	// DefaultCrossPx admits the localization noise of two detections (well
+	// under a pixel) plus a pixel of camera jitter or of diffusion.
+	DefaultCrossPx = 2.0
+	// DefaultResolutionPx is a quarter pixel: finer than the linker's search
+	// radius by an order of magnitude, coarse enough for counts per bin.
+	DefaultResolutionPx = 0.25
+)
+
+// peakSigmas is how far, in Poisson standard deviations, the histogram peak
+// must rise above the background of accidental pairs for a bin to count as
+// known; five keeps the false-peak rate per bin below one in a million.
+const peakSigmas = 5.0
+
+// FromDetections estimates the displacement profile from detections alone,
+// for when no frames are at hand (relinking from tracks.csv). frames[i] holds
+// the detections of frame i. For each pair of consecutive frames and each
+// detection, every detection of the next frame within MaxStepPx along the
+// flow and CrossPx across it is a candidate; the candidates' displacements
+// along the flow are histogrammed per gap bin. The true displacement piles up
+// in one histogram bin while accidental pairs spread evenly, so the peak,
+// refined by the centroid of its neighbourhood above the background, is the
+// estimate. Time and memory are linear in the number of detections.
+func FromDetections(frames [][]Point, cal *calib.Calibration, opt HistOptions) (*Profile, error) {
+	if err := cal.Check(); err != nil {
+		return nil, fmt.Errorf("flowprior: %w", err)
+	}
+	if !(opt.MaxStepPx > 0) || math.IsInf(opt.MaxStepPx, 0) {
+		return nil, fmt.Errorf("flowprior: MaxStepPx must be positive, got %g px", opt.MaxStepPx)
+	}
+	if opt.BinUM == 0 {
+		opt.BinUM = cal.GapUM / DefaultBins
+	}
+	if opt.CrossPx == 0 {
+		opt.CrossPx = DefaultCrossPx
+	}
+	if opt.ResolutionPx == 0 {
+		opt.ResolutionPx = DefaultResolutionPx
+	}
+	if !(opt.CrossPx > 0) || !(opt.ResolutionPx > 0) {
+		return nil, fmt.Errorf("flowprior: CrossPx %g px and ResolutionPx %g px must be positive", opt.CrossPx, opt.ResolutionPx)
+	}
+	ys, err := bins(cal.GapUM, opt.BinUM)
+	if err != nil {
+		return nil, err
+	}
+	nh := 2*int(math.Ceil(opt.MaxStepPx/opt.ResolutionPx)) + 1
+	if nh*len(ys) > maxHistCells {
+		return nil, fmt.Errorf("flowprior: MaxStepPx %g px at resolution %g px needs %d histogram cells, more than %d", opt.MaxStepPx, opt.ResolutionPx, nh*len(ys), maxHistCells)
+	}
+	hist := make([]float64, nh*len(ys))
+	half := nh / 2
+	fx, fy := FlowDir(cal)
+	ax, ay := AcrossDir(cal)
+
+	pairs := len(frames) - 1
+	stride := 1
+	if opt.MaxPairs > 0 && pairs > opt.MaxPairs {
+		stride = int(math.Ceil(float64(pairs) / float64(opt.MaxPairs)))
+	}
+	reach := math.Hypot(opt.MaxStepPx, opt.CrossPx)
+	var g grid
+	for f := 0; f+1 < len(frames); f += stride {
+		next := frames[f+1]
+		if len(frames[f]) == 0 || len(next) == 0 {
+			continue
+		}
+		g.build(next, reach)
+		for _, a := range frames[f] {
+			_, yUM := cal.ToGap(a.XPx, a.YPx)
+			b := binOf(yUM, cal.GapUM, len(ys))
+			if b < 0 {
+				continue
+			}
+			row := hist[b*nh : (b+1)*nh]
+			g.near(a.XPx, a.YPx, reach, func(j int) {
+				dx, dy := next[j].XPx-a.XPx, next[j].YPx-a.YPx
+				along, across := dx*fx+dy*fy, dx*ax+dy*ay
+				if math.Abs(across) > opt.CrossPx || math.Abs(along) > opt.MaxStepPx {
+					return
+				}
+				row[half+int(math.Round(along/opt.ResolutionPx))]++
+			})
+		}
+	}
+
+	p := &Profile{YUM: ys, DXPx: make([]float64, len(ys)), DYPx: make([]float64, len(ys)),
+		SpreadPx: make([]float64, len(ys)), N: make([]int, len(ys))}
+	for b := range ys {
+		along, n, ok := histPeak(hist[b*nh:(b+1)*nh], half, opt.ResolutionPx)
+		p.SpreadPx[b] = math.NaN()
+		if !ok {
+			continue
+		}
+		p.DXPx[b], p.DYPx[b] = along*fx, along*fy
+		p.N[b] = n
+	}
+	if p.Known() == 0 {
+		return nil, fmt.Errorf("flowprior: no gap bin shows a common displacement among %d frames within %g px", len(frames), opt.MaxStepPx)
+	}
+	return p, nil
+}
+
+// maxHistCells bounds the displacement histogram's memory (8 MB).
+const maxHistCells = 1 << 20
+
+// peakHalfWidth is the half-width, in histogram bins, of the window around
+// the peak whose centroid refines it: with quarter-pixel bins it spans ±1 px,
+// which holds the spread of two noisy localizations and a pixel of jitter.
+const peakHalfWidth = 4
+
+// histPeak finds the peak of a displacement histogram, smoothed over three
+// bins, and refines it by the background-subtracted centroid of the window
+// around it. It returns the displacement, the number of pairs above the
+// background in the window, and whether the peak is significant.
+func histPeak(h []float64, half int, resPx float64) (alongPx float64, n int, ok bool) {
+	best, bi := -1.0, -1
+	for i := 1; i+1 < len(h); i++ {
+		if s := h[i-1] + h[i] + h[i+1]; s > best {
+			best, bi = s, i
+		}
+	}
+	if bi < 0 {
+		return 0, 0, false
+	}
+	// Background: the median count per bin, outside the window.
+	var rest []float64
+	for i, c := range h {
+		if i < bi-peakHalfWidth || i > bi+peakHalfWidth {
+			rest = append(rest, c)
+		}
+	}
+	bg := median(rest)
+	if math.IsNaN(bg) {
+		bg = 0
+	}
+	if best-3*bg < peakSigmas*math.Sqrt(3*bg+1) {
+		return 0, 0, false
+	}
+	var sw, swx float64
+	for i := max(bi-peakHalfWidth, 0); i <= min(bi+peakHalfWidth, len(h)-1); i++ {
+		w := h[i] - bg
+		if w <= 0 {
+			continue
+		}
+		sw += w
+		swx += w * float64(i-half)
+	}
+	return swx / sw * resPx, int(math.Round(sw)), true
+}
+
+// TrackOptions sets how FromTracks bins the tracks.
+type TrackOptions struct {
+	// BinUM is the height of a gap bin, um. Zero means gap/DefaultBins.
+	BinUM float64
+	// MinSteps is the fewest steps a bin needs to be known. Zero means
+	// DefaultMinSteps.
+	MinSteps int
+}
+
+// DefaultMinSteps is the fewest one-frame steps for a bin of FromTracks: with
+// ten, the median's error is about 0.4 of one step's scatter (common
+// practice: the median of n normal values has error 1.25 sigma/sqrt(n)).
+const DefaultMinSteps = 10
+
+// FromTracks estimates the displacement profile from linked tracks: the
+// median, per gap bin, of the one-frame steps of all tracks, taken in gap
+// coordinates (so common-mode motion already removed from XUM, YUM stays
+// removed) and turned back into image pixels. pts must be grouped by track
+// and ordered by frame within a track, as Linker returns them.
+func FromTracks(pts []tracks.Point, cal *calib.Calibration, opt TrackOptions) (*Profile, error) {
+	ss, err := trackSteps(pts, cal, 0, 1)
+	if err != nil {
+		return nil, err
+	}
+	return profileFromSteps(ss[0], cal, opt, len(pts))
+}
+
+// step is one one-frame step of a track: its mean height, um, and its
+// displacement along and across the flow, px.
+type step struct {
+	yUM, along, across float64
+}
+
+// trackSteps collects the one-frame steps of pts, split into windows of
+// windowFrames by their first frame (all in one when windowFrames is 0).
+func trackSteps(pts []tracks.Point, cal *calib.Calibration, windowFrames, windows int) ([][]step, error) {
+	if err := cal.Check(); err != nil {
+		return nil, fmt.Errorf("flowprior: %w", err)
+	}
+	ss := make([][]step, windows)
+	eachStep(pts, func(a, b *tracks.Point) {
+		w := 0
+		if windowFrames > 0 {
+			w = a.Frame / windowFrames
+			if a.Frame < 0 || w >= windows {
+				return
+			}
+		}
+		ss[w] = append(ss[w], step{(a.YUM + b.YUM) / 2, (b.XUM - a.XUM) / cal.UMPerPx, (b.YUM - a.YUM) / cal.UMPerPx})
+	})
+	return ss, nil
+}
+
+// profileFromSteps bins steps into a Profile.
+func profileFromSteps(ss []step, cal *calib.Calibration, opt TrackOptions, npts int) (*Profile, error) {
+	if opt.BinUM == 0 {
+		opt.BinUM = cal.GapUM / DefaultBins
+	}
+	if opt.MinSteps == 0 {
+		opt.MinSteps = DefaultMinSteps
+	}
+	ys, err := bins(cal.GapUM, opt.BinUM)
+	if err != nil {
+		return nil, err
+	}
+	along := make([][]float64, len(ys))
+	across := make([][]float64, len(ys))
+	for _, s := range ss {
+		if bi := binOf(s.yUM, cal.GapUM, len(ys)); bi >= 0 {
+			along[bi] = append(along[bi], s.along)
+			across[bi] = append(across[bi], s.across)
+		}
+	}
+	fx, fy := FlowDir(cal)
+	ax, ay := AcrossDir(cal)
+	p := &Profile{YUM: ys, DXPx: make([]float64, len(ys)), DYPx: make([]float64, len(ys)),
+		SpreadPx: make([]float64, len(ys)), N: make([]int, len(ys))}
+	for b := range ys {
+		p.SpreadPx[b] = math.NaN()
+		if len(along[b]) < opt.MinSteps {
+			continue
+		}
+		u, s := medianSpread(along[b])
+		v := median(across[b])
+		p.DXPx[b], p.DYPx[b] = u*fx+v*ax, u*fy+v*ay
+		p.SpreadPx[b] = s
+		p.N[b] = len(along[b])
+	}
+	if p.Known() == 0 {
+		return nil, fmt.Errorf("flowprior: no gap bin has %d one-frame steps among %d track points", opt.MinSteps, npts)
+	}
+	return p, nil
+}
+
+// eachStep calls fn for every pair of consecutive points one frame apart in
+// the same track.
+func eachStep(pts []tracks.Point, fn func(a, b *tracks.Point)) {
+	for i := 1; i < len(pts); i++ {
+		a, b := &pts[i-1], &pts[i]
+		if a.Track == tracks.Unlinked || a.Track != b.Track || b.Frame != a.Frame+1 {
+			continue
+		}
+		fn(a, b)
+	}
+}
+
+// CommonModeFromTracks measures what moved the whole image between frames
+// from the tracks themselves: for each pair of consecutive frames, the median
+// over all one-frame steps of the step minus the profile's prediction. The
+// result, indexed by frame from 0 to frames-1, is the offset of each frame's
+// image relative to frame 0, px (the running sum of the per-pair medians; a
+// pair without steps adds nothing). Only motion that changes from frame to
+// frame is seen: a steady drift looks like flow and stays in the profile.
+// Gap coordinates XUM, YUM of pts are taken as they are, so the offsets are
+// on top of whatever correction produced them.
+func CommonModeFromTracks(pts []tracks.Point, p Field, cal *calib.Calibration, frames int) ([]Shift, error) {
+	if err := cal.Check(); err != nil {
+		return nil, fmt.Errorf("flowprior: %w", err)
+	}
+	if frames < 1 {
+		return nil, fmt.Errorf("flowprior: need at least one frame, got %d", frames)
+	}
+	fx, fy := FlowDir(cal)
+	ax, ay := AcrossDir(cal)
+	rx := make([][]float64, frames)
+	ry := make([][]float64, frames)
+	eachStep(pts, func(a, b *tracks.Point) {
+		if a.Frame < 0 || b.Frame >= frames {
+			return
+		}
+		u, v := (b.XUM-a.XUM)/cal.UMPerPx, (b.YUM-a.YUM)/cal.UMPerPx
+		dx, dy := u*fx+v*ax, u*fy+v*ay
+		px, py, ok := p.Step(a.Frame, (a.YUM+b.YUM)/2)
+		if !ok {
+			return
+		}
+		rx[a.Frame] = append(rx[a.Frame], dx-px)
+		ry[a.Frame] = append(ry[a.Frame], dy-py)
+	})
+	out := make([]Shift, frames)
+	for f := 1; f < frames; f++ {
+		out[f] = out[f-1]
+		if len(rx[f-1]) >= minCommonSteps {
+			out[f].DXPx += median(rx[f-1])
+			out[f].DYPx += median(ry[f-1])
+		}
+	}
+	return out, nil
+}
+
+// minCommonSteps is the fewest steps a frame pair needs for its common-mode
+// shift to be measured: with fewer the median is a single tracer's noise.
+const minCommonSteps = 5
