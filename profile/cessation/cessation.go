@@ -1,0 +1,688 @@
+// Package cessation analyses the time after a shear phase stops: each
+// tracer's displacement along the flow since the stop, the layer profiles
+// dx(y) at log-spaced times, the noise floor, and a fit of the standard
+// picture of recoil, in which every layer of the sample recovers a common
+// strain elastically and the displacement jumps once, at an unknown height:
+// at a wall (slip after cessation, mode "wall") or inside the gap (a
+// localized failure plane, mode "bulk").
+//
+// Heights y are in um above the stationary wall, displacements in um along
+// +x of the gap, times in s.
+package cessation
+
+import (
+	"fmt"
+	"math"
+	"slices"
+	"sort"
+
+	"gaptrace/profile/layers"
+	"gaptrace/profile/velocity"
+)
+
+// Options describes the stop and the data around it.
+type Options struct {
+	StopS, EndS float64 // cessation time and end of the observation, s
+	// ShearSense is the sign of the stopped phase's wall speed along +x.
+	ShearSense float64
+	GapUM      float64
+	DtS        float64 // frame interval, s
+	SigmaUM    float64 // localization noise per coordinate, um
+	// RestS, when its end exceeds its start, is a quiet interval (the rest
+	// before the first shear) from which the noise floor is measured.
+	RestS [2]float64
+	// Times is the number of log-spaced times of the profiles; 0 means
+	// DefaultTimes. Bins is the number of layers (0: layers.DefaultBins).
+	Times, Bins int
+	Seed        uint64
+}
+
+// DefaultTimes log-spaced profiles: about five per decade over three
+// decades of a typical recording.
+const DefaultTimes = 16
+
+// RefFrames is the number of frames up to the stop through which each
+// tracer's trajectory is fitted with a straight line to place it at the
+// moment of the stop: the extrapolated position then carries about
+// 2/sqrt(RefFrames) of the localization noise instead of all of it.
+const RefFrames = 20
+
+// FinalFraction is the last part of the observation over which each
+// tracer's displacement is averaged for the fit of the standard picture.
+const FinalFraction = 0.1
+
+// MovingSigma is how many standard errors a displacement must exceed to be
+// called motion: five keeps the many layers and times tested from raising
+// a false alarm (common practice).
+const MovingSigma = 5
+
+// WallMarginFraction is the nearest a failure plane may lie to a wall, as a
+// fraction of the gap: closer, a jump cannot be told from slip at the wall,
+// and is reported as such.
+const WallMarginFraction = 0.05
+
+// minSideTracers is the fewest tracers on each side of a failure plane for
+// its jump to be estimated.
+const minSideTracers = 8
+
+// confirmFrames is the number of consecutive frames motion must last to
+// mark its onset, so that one noisy frame does not.
+const confirmFrames = 3
+
+// Noise floor sources.
+const (
+	FromRest         = "rest"
+	FromLocalization = "localization"
+)
+
+// TracerDisplacement is one tracer's mean displacement over the last part
+// of the observation.
+type TracerDisplacement struct {
+	Track int
+	YUM   float64
+	DXUM  float64
+}
+
+// TimeProfile is the layer profile of dx at one time after the stop.
+type TimeProfile struct {
+	TAfterS float64
+	Bins    []layers.Bin // values in um
+}
+
+// Picture is the fitted standard picture dx(y) = Offset + Slope*y (+ Jump
+// for y > Plane when Interior).
+type Picture struct {
+	OffsetUM, OffsetErrUM float64 // dx just above the stationary wall
+	Slope, SlopeErr       float64 // d(dx)/dy, dimensionless
+	Interior              bool    // a jump inside the gap was found
+	JumpUM, JumpErrUM     float64 // NaN without an interior jump
+	PlaneUM, PlaneErrUM   float64 // NaN without an interior jump
+	RSS                   float64 // residual sum of squares, um^2
+	N                     int     // tracers fitted
+	GapUM                 float64
+}
+
+// At returns the picture's displacement at height yUM in um.
+func (p Picture) At(yUM float64) float64 {
+	d := p.OffsetUM + p.Slope*yUM
+	if p.Interior && yUM > p.PlaneUM {
+		d += p.JumpUM
+	}
+	return d
+}
+
+// AmplitudePoint is the amplitude of the final picture at one frame: the
+// least-squares factor a with dx_i(t) = a * Picture.At(y_i), and its error.
+type AmplitudePoint struct {
+	TAfterS float64
+	A, AErr float64
+}
+
+// Result is the analysis of one cessation.
+type Result struct {
+	StopS, ObservedS float64
+	// NoiseFloorUM is the standard deviation of one tracer's displacement
+	// when nothing moves, from NoiseSource.
+	NoiseFloorUM float64
+	NoiseSource  string
+	Tracers      int // tracers placed at the stop
+	Profiles     []TimeProfile
+	Final        []TracerDisplacement
+	Picture      Picture
+	Amplitude    []AmplitudePoint
+	// MaxDisplacementUM is the largest |dx| of a layer mean at any time.
+	MaxDisplacementUM float64
+	Moving            bool
+	Mode              string // "", "wall" or "bulk"
+	Wall              string // for mode wall: "stationary" or "moving"
+	// RecoveredStrain is -Slope * ShearSense: positive when the layers
+	// move back against the earlier shear.
+	RecoveredStrain, RecoveredStrainErr float64
+	OnsetAfterStopS                     float64 // NaN when quiescent
+}
+
+// Modes and walls.
+const (
+	ModeWall       = "wall"
+	ModeBulk       = "bulk"
+	WallStationary = "stationary"
+	WallMoving     = "moving"
+)
+
+// Analyze analyses the tracks ts after the stop.
+func Analyze(ts []velocity.Track, o Options) (*Result, error) {
+	if !(o.EndS > o.StopS) {
+		return nil, fmt.Errorf("cessation: observation ends at %g s, not after the stop at %g s", o.EndS, o.StopS)
+	}
+	if !(o.GapUM > 0) || !(o.DtS > 0) {
+		return nil, fmt.Errorf("cessation: gap %g um and frame interval %g s must be positive", o.GapUM, o.DtS)
+	}
+	if o.Times <= 0 {
+		o.Times = DefaultTimes
+	}
+	if o.Bins <= 0 {
+		o.Bins = layers.DefaultBins
+	}
+	if o.ShearSense == 0 {
+		o.ShearSense = 1
+	}
+	r := &Result{StopS: o.StopS, ObservedS: o.EndS - o.StopS, OnsetAfterStopS: math.NaN()}
+	placed := place(ts, o)
+	r.Tracers = len(placed)
+	if len(placed) < 2*minSideTracers {
+		return nil, fmt.Errorf("cessation: only %d tracers are followed across the stop at %g s (need %d)", len(placed), o.StopS, 2*minSideTracers)
+	}
+	refNoise := o.SigmaUM * 2 / math.Sqrt(RefFrames)
+	r.NoiseFloorUM, r.NoiseSource = math.Hypot(o.SigmaUM, refNoise), FromLocalization
+	if nf, ok := restFloor(ts, o); ok {
+		r.NoiseFloorUM, r.NoiseSource = nf, FromRest
+	}
+	if err := r.profiles(placed, o); err != nil {
+		return nil, err
+	}
+	r.final(placed, o)
+	pic, err := fitPicture(r.Final, o.GapUM, r.NoiseFloorUM)
+	if err != nil {
+		return nil, err
+	}
+	r.Picture = pic
+	r.RecoveredStrain, r.RecoveredStrainErr = -pic.Slope*o.ShearSense, pic.SlopeErr
+	r.verdict()
+	r.amplitude(placed, o)
+	return r, nil
+}
+
+// placedTracer is a tracer placed at the stop: its reference position and
+// its points after the stop.
+type placedTracer struct {
+	id    int
+	xRef  float64
+	yUM   float64
+	after []velocityPoint
+}
+
+type velocityPoint struct {
+	frame        int
+	tS, xUM, yUM float64
+}
+
+// place finds each tracer's position at the stop, by a straight-line fit
+// through its last RefFrames points up to the stop (or its point at the stop
+// itself), and keeps its points after the stop.
+func place(ts []velocity.Track, o Options) []placedTracer {
+	var out []placedTracer
+	half := o.DtS / 2
+	for _, t := range ts {
+		p := t.Points
+		i := sort.Search(len(p), func(i int) bool { return p[i].TS > o.StopS+half })
+		if i == 0 || i == len(p) {
+			continue
+		}
+		lo := i - 1
+		for lo > 0 && i-lo < RefFrames && p[lo-1].TS >= o.StopS-float64(RefFrames)*o.DtS {
+			lo--
+		}
+		pre := p[lo:i]
+		if pre[len(pre)-1].TS < o.StopS-half-o.DtS {
+			continue // the track is lost more than a frame before the stop
+		}
+		var xRef float64
+		if len(pre) == 1 {
+			xRef = pre[0].XUM
+		} else {
+			var st, sx, stt, stx float64
+			for _, q := range pre {
+				dt := q.TS - o.StopS
+				st += dt
+				sx += q.XUM
+				stt += dt * dt
+				stx += dt * q.XUM
+			}
+			n := float64(len(pre))
+			den := n*stt - st*st
+			if den <= 0 {
+				xRef = sx / n
+			} else {
+				xRef = (sx*stt - st*stx) / den // the line's value at the stop
+			}
+		}
+		pt := placedTracer{id: t.ID, xRef: xRef, yUM: pre[len(pre)-1].YUM}
+		for _, q := range p[i:] {
+			if q.TS > o.EndS {
+				break
+			}
+			pt.after = append(pt.after, velocityPoint{q.Frame, q.TS, q.XUM, q.YUM})
+		}
+		if len(pt.after) > 0 {
+			out = append(out, pt)
+		}
+	}
+	return out
+}
+
+// minRestSamples is the fewest displacements in the rest phase for a noise
+// floor measured there.
+const minRestSamples = 200
+
+// restFloor measures the noise floor in the rest interval the same way the
+// displacements after the stop are measured: a reference from a line
+// through a track's first RefFrames points there, then the robust spread of
+// its displacements from that reference at its later points.
+func restFloor(ts []velocity.Track, o Options) (float64, bool) {
+	if !(o.RestS[1] > o.RestS[0]) {
+		return 0, false
+	}
+	var d []float64
+	for _, t := range ts {
+		var in []float64
+		var tt []float64
+		for _, q := range t.Points {
+			if q.TS >= o.RestS[0] && q.TS <= o.RestS[1] {
+				in = append(in, q.XUM)
+				tt = append(tt, q.TS)
+			}
+		}
+		if len(in) <= RefFrames {
+			continue
+		}
+		// Line through the first RefFrames points, evaluated at the last.
+		t0 := tt[RefFrames-1]
+		var st, sx, stt, stx float64
+		for k := range RefFrames {
+			dt := tt[k] - t0
+			st += dt
+			sx += in[k]
+			stt += dt * dt
+			stx += dt * in[k]
+		}
+		n := float64(RefFrames)
+		den := n*stt - st*st
+		if den <= 0 {
+			continue
+		}
+		ref := (sx*stt - st*stx) / den
+		for k := RefFrames; k < len(in); k++ {
+			d = append(d, in[k]-ref)
+		}
+	}
+	if len(d) < minRestSamples {
+		return 0, false
+	}
+	m := median(d)
+	for i := range d {
+		d[i] = math.Abs(d[i] - m)
+	}
+	return madToSigma * median(d), true
+}
+
+// madToSigma converts a median absolute deviation into a normal standard
+// deviation (Huber 1981, Robust Statistics).
+const madToSigma = 1.4826
+
+// LogTimes returns n times after the stop, log-spaced from one frame dtS to
+// observedS and rounded to whole frames, without repeats.
+func LogTimes(dtS, observedS float64, n int) []float64 {
+	var out []float64
+	last := -1
+	ratio := observedS / dtS
+	for k := range n {
+		f := 1.0
+		if n > 1 {
+			f = math.Pow(ratio, float64(k)/float64(n-1))
+		}
+		fr := int(math.Round(f))
+		if fr < 1 {
+			fr = 1
+		}
+		if fr > last {
+			out = append(out, float64(fr)*dtS)
+			last = fr
+		}
+	}
+	return out
+}
+
+func (r *Result) profiles(placed []placedTracer, o Options) error {
+	for k, t := range LogTimes(o.DtS, o.EndS-o.StopS, o.Times) {
+		var obs []layers.Obs
+		for _, p := range placed {
+			if q, ok := nearest(p.after, o.StopS+t, o.DtS/2); ok {
+				obs = append(obs, layers.Obs{Group: p.id, YUM: p.yUM, Value: q.xUM - p.xRef})
+			}
+		}
+		bins, err := layers.Profile(obs, layers.Options{GapUM: o.GapUM, Bins: o.Bins,
+			MinSamples: layers.DefaultMinGroups, MinGroups: layers.DefaultMinGroups, Seed: o.Seed + uint64(k)})
+		if err != nil {
+			return fmt.Errorf("cessation: %w", err)
+		}
+		for _, b := range bins {
+			if b.Known() && math.Abs(b.Value) > r.MaxDisplacementUM {
+				r.MaxDisplacementUM = math.Abs(b.Value)
+			}
+		}
+		r.Profiles = append(r.Profiles, TimeProfile{TAfterS: t, Bins: bins})
+	}
+	return nil
+}
+
+// nearest returns the point of pts (in time order) within tol of tS.
+func nearest(pts []velocityPoint, tS, tol float64) (velocityPoint, bool) {
+	i := sort.Search(len(pts), func(i int) bool { return pts[i].tS >= tS-tol })
+	if i < len(pts) && math.Abs(pts[i].tS-tS) <= tol {
+		return pts[i], true
+	}
+	return velocityPoint{}, false
+}
+
+func (r *Result) final(placed []placedTracer, o Options) {
+	from := o.EndS - FinalFraction*(o.EndS-o.StopS)
+	for _, p := range placed {
+		var s float64
+		n := 0
+		for _, q := range p.after {
+			if q.tS >= from {
+				s += q.xUM - p.xRef
+				n++
+			}
+		}
+		if n > 0 {
+			r.Final = append(r.Final, TracerDisplacement{Track: p.id, YUM: p.yUM, DXUM: s / float64(n)})
+		}
+	}
+}
+
+// huberRounds of reweighting make the fit of the picture robust to the odd
+// mislinked tracer.
+const huberRounds = 3
+
+// huberK is the Huber tuning constant, in robust standard deviations
+// (Huber 1964, Ann. Math. Statist. 35:73).
+const huberK = 1.345
+
+// fitPicture fits the standard picture to the tracers' final displacements:
+// a straight line, and a straight line with one jump inside the gap; the
+// jump is kept when it lowers the Bayesian information criterion (Schwarz
+// 1978, Ann. Statist. 6:461; two more parameters), exceeds MovingSigma
+// standard errors and the noise floor, and lies at least WallMarginFraction
+// of the gap from both walls.
+func fitPicture(fin []TracerDisplacement, gapUM, floorUM float64) (Picture, error) {
+	n := len(fin)
+	if n < 2*minSideTracers {
+		return Picture{}, fmt.Errorf("cessation: %d tracers with a final displacement, need %d", n, 2*minSideTracers)
+	}
+	pts := slices.Clone(fin)
+	slices.SortFunc(pts, func(a, b TracerDisplacement) int {
+		switch {
+		case a.YUM < b.YUM:
+			return -1
+		case a.YUM > b.YUM:
+			return 1
+		}
+		return 0
+	})
+	w := make([]float64, n)
+	for i := range w {
+		w[i] = 1
+	}
+	var line, jump fitResult
+	var jumpAt int
+	for round := 0; round <= huberRounds; round++ {
+		line = lsq(pts, w, -1)
+		jumpAt, jump = -1, fitResult{rss: math.Inf(1)}
+		for k := minSideTracers; k <= n-minSideTracers; k++ {
+			h := (pts[k-1].YUM + pts[k].YUM) / 2
+			if h < WallMarginFraction*gapUM || h > (1-WallMarginFraction)*gapUM {
+				continue
+			}
+			if f := lsq(pts, w, k); f.rss < jump.rss {
+				jump, jumpAt = f, k
+			}
+		}
+		if round == huberRounds {
+			break
+		}
+		// Reweight against the better of the two models' residuals.
+		best := line
+		if jumpAt >= 0 && jump.rss < line.rss {
+			best = jump
+		}
+		res := make([]float64, n)
+		for i, p := range pts {
+			res[i] = math.Abs(p.DXUM - best.at(p.YUM, jumpAt, pts))
+		}
+		s := madToSigma * median(slices.Clone(res))
+		if !(s > 0) {
+			break
+		}
+		for i := range w {
+			w[i] = 1
+			if res[i] > huberK*s {
+				w[i] = huberK * s / res[i]
+			}
+		}
+	}
+	pic := Picture{N: n, GapUM: gapUM, JumpUM: math.NaN(), JumpErrUM: math.NaN(), PlaneUM: math.NaN(), PlaneErrUM: math.NaN()}
+	use := line
+	if jumpAt >= 0 {
+		s2 := jump.rss / float64(max(1, n-4))
+		bic := float64(n)*math.Log(line.rss/jump.rss) > 2*math.Log(float64(n))
+		big := math.Abs(jump.coef[2]) > MovingSigma*math.Sqrt(s2*jump.inv[2][2]) && math.Abs(jump.coef[2]) > floorUM
+		if bic && big {
+			use = jump
+			pic.Interior = true
+			pic.PlaneUM = (pts[jumpAt-1].YUM + pts[jumpAt].YUM) / 2
+			pic.JumpUM = jump.coef[2]
+			pic.JumpErrUM = math.Sqrt(s2 * jump.inv[2][2])
+			pic.PlaneErrUM = planeError(pts, w, jumpAt, jump.rss, s2)
+		}
+	}
+	p := 2
+	if pic.Interior {
+		p = 4
+	}
+	s2 := use.rss / float64(max(1, n-p))
+	pic.OffsetUM, pic.OffsetErrUM = use.coef[0], math.Sqrt(s2*use.inv[0][0])
+	pic.Slope, pic.SlopeErr = use.coef[1], math.Sqrt(s2*use.inv[1][1])
+	pic.RSS = use.rss
+	return pic, nil
+}
+
+// planeError is the half-width of the heights at which a plane raises the
+// residual sum of squares by less than one residual variance above its
+// minimum (the profile-likelihood interval for one parameter), at least half
+// the spacing of the tracers around the plane.
+func planeError(pts []TracerDisplacement, w []float64, at int, rssMin, s2 float64) float64 {
+	lo, hi := at, at
+	for k := at - 1; k >= 1 && lsq(pts, w, k).rss-rssMin < s2; k-- {
+		lo = k
+	}
+	for k := at + 1; k < len(pts) && lsq(pts, w, k).rss-rssMin < s2; k++ {
+		hi = k
+	}
+	hLo := (pts[lo-1].YUM + pts[lo].YUM) / 2
+	hHi := (pts[hi-1].YUM + pts[hi].YUM) / 2
+	return math.Max((hHi-hLo)/2, (pts[at].YUM-pts[at-1].YUM)/2)
+}
+
+// fitResult is a weighted linear least-squares fit of offset, slope and,
+// with a jump at index k, the jump.
+type fitResult struct {
+	coef [3]float64
+	inv  [3][3]float64 // (X^T W X)^-1
+	rss  float64
+}
+
+func (f fitResult) at(y float64, k int, pts []TracerDisplacement) float64 {
+	d := f.coef[0] + f.coef[1]*y
+	if k >= 0 && y >= pts[k].YUM {
+		d += f.coef[2]
+	}
+	return d
+}
+
+// lsq fits pts (sorted by height) with weights w: a line when k < 0, a line
+// with a jump between points k-1 and k otherwise.
+func lsq(pts []TracerDisplacement, w []float64, k int) fitResult {
+	p := 2
+	if k >= 0 {
+		p = 3
+	}
+	var a [3][3]float64
+	var b [3]float64
+	for i, q := range pts {
+		x := [3]float64{1, q.YUM, 0}
+		if k >= 0 && i >= k {
+			x[2] = 1
+		}
+		for r := range p {
+			b[r] += w[i] * x[r] * q.DXUM
+			for c := range p {
+				a[r][c] += w[i] * x[r] * x[c]
+			}
+		}
+	}
+	inv, ok := invert(a, p)
+	f := fitResult{inv: inv, rss: math.Inf(1)}
+	if !ok {
+		return f
+	}
+	for r := range p {
+		for c := range p {
+			f.coef[r] += inv[r][c] * b[c]
+		}
+	}
+	f.rss = 0
+	for i, q := range pts {
+		d := q.DXUM - f.coef[0] - f.coef[1]*q.YUM
+		if k >= 0 && i >= k {
+			d -= f.coef[2]
+		}
+		f.rss += w[i] * d * d
+	}
+	return f
+}
+
+// invert inverts the leading p x p block of a (p = 2 or 3) by Gauss-Jordan
+// elimination.
+func invert(a [3][3]float64, p int) ([3][3]float64, bool) {
+	var inv [3][3]float64
+	for i := range p {
+		inv[i][i] = 1
+	}
+	for c := range p {
+		piv := c
+		for r := c + 1; r < p; r++ {
+			if math.Abs(a[r][c]) > math.Abs(a[piv][c]) {
+				piv = r
+			}
+		}
+		if math.Abs(a[piv][c]) < 1e-300 {
+			return inv, false
+		}
+		a[c], a[piv] = a[piv], a[c]
+		inv[c], inv[piv] = inv[piv], inv[c]
+		d := a[c][c]
+		for j := range p {
+			a[c][j] /= d
+			inv[c][j] /= d
+		}
+		for r := range p {
+			if r == c {
+				continue
+			}
+			f := a[r][c]
+			for j := range p {
+				a[r][j] -= f * a[c][j]
+				inv[r][j] -= f * inv[c][j]
+			}
+		}
+	}
+	return inv, true
+}
+
+// verdict decides quiescent or moving and the mode from the picture: moving
+// when the picture's displacement at a wall or across its jump exceeds
+// MovingSigma standard errors and the noise floor.
+func (r *Result) verdict() {
+	p := r.Picture
+	h := p.GapUM
+	// Displacement of the fluid against each wall, and its error.
+	atStat, atStatErr := p.OffsetUM, p.OffsetErrUM
+	atMov := p.OffsetUM + p.Slope*h
+	atMovErr := math.Hypot(p.OffsetErrUM, p.SlopeErr*h) // conservative: correlation left out
+	if p.Interior {
+		atMov += p.JumpUM
+		atMovErr = math.Hypot(atMovErr, p.JumpErrUM)
+	}
+	sig := func(d, e float64) bool { return math.Abs(d) > MovingSigma*e && math.Abs(d) > r.NoiseFloorUM }
+	switch {
+	case p.Interior:
+		r.Moving, r.Mode = true, ModeBulk
+	case sig(atStat, atStatErr) || sig(atMov, atMovErr):
+		r.Moving, r.Mode = true, ModeWall
+		r.Wall = WallStationary
+		if math.Abs(atMov) > math.Abs(atStat) {
+			r.Wall = WallMoving
+		}
+	}
+}
+
+// amplitude follows the final picture's shape in time and marks the onset:
+// the first frame from which its amplitude stays above MovingSigma standard
+// errors for confirmFrames frames.
+func (r *Result) amplitude(placed []placedTracer, o Options) {
+	type acc struct{ tS, sss, ssd float64 }
+	byFrame := map[int]*acc{}
+	for _, p := range placed {
+		s := r.Picture.At(p.yUM)
+		for _, q := range p.after {
+			a := byFrame[q.frame]
+			if a == nil {
+				a = &acc{tS: q.tS}
+				byFrame[q.frame] = a
+			}
+			a.sss += s * s
+			a.ssd += s * (q.xUM - p.xRef)
+		}
+	}
+	fs := make([]int, 0, len(byFrame))
+	for f := range byFrame {
+		fs = append(fs, f)
+	}
+	slices.Sort(fs)
+	run := 0
+	for _, f := range fs {
+		b := byFrame[f]
+		if b.sss == 0 {
+			continue
+		}
+		a, e := b.ssd/b.sss, r.NoiseFloorUM/math.Sqrt(b.sss)
+		r.Amplitude = append(r.Amplitude, AmplitudePoint{TAfterS: b.tS - o.StopS, A: a, AErr: e})
+		if !r.Moving || !math.IsNaN(r.OnsetAfterStopS) {
+			continue
+		}
+		if a > MovingSigma*e {
+			run++
+			if run == confirmFrames {
+				r.OnsetAfterStopS = r.Amplitude[len(r.Amplitude)-confirmFrames].TAfterS
+			}
+		} else {
+			run = 0
+		}
+	}
+	if r.Moving && math.IsNaN(r.OnsetAfterStopS) && len(r.Amplitude) > 0 {
+		r.OnsetAfterStopS = r.Amplitude[0].TAfterS
+	}
+}
+
+func median(v []float64) float64 {
+	if len(v) == 0 {
+		return math.NaN()
+	}
+	slices.Sort(v)
+	n := len(v)
+	if n%2 == 1 {
+		return v[n/2]
+	}
+	return (v[n/2-1] + v[n/2]) / 2
+}

@@ -1,0 +1,454 @@
+// Package profile turns tracer tracks into what the sample did: the phases
+// of the experiment, velocity profiles across the gap per time window, the
+// rheometric decomposition of each shear phase into wall slip, bulk shear
+// and bands, the local strain of each layer, a space-time map of velocity
+// and local rate, and the analysis of the time after the last shear phase
+// (package cessation). Analyze runs it all and returns the summary.json
+// parts and every series a report needs for its figures.
+//
+// Heights y are in um above the stationary wall, x in um along the flow,
+// velocities in um/s, rates in 1/s, times in s from the first frame.
+package profile
+
+import (
+	"errors"
+	"fmt"
+	"math"
+	"slices"
+
+	"gaptrace/calib"
+	"gaptrace/calib/experiment"
+	"gaptrace/profile/cessation"
+	"gaptrace/profile/layers"
+	"gaptrace/profile/rheometry"
+	"gaptrace/profile/summary"
+	"gaptrace/profile/velocity"
+	"gaptrace/track/tracks"
+)
+
+// Window is a time interval whose samples make one profile.
+type Window struct {
+	Name     string
+	T0S, T1S float64
+}
+
+// Options tunes Analyze; the zero value means the defaults.
+type Options struct {
+	// Bins is the number of layers across the gap (layers.DefaultBins).
+	Bins int
+	// Windows, when given, replace the default steady window (the second
+	// half) of each shear phase they overlap: the first overlapping one is
+	// decomposed. All are written to the profile table.
+	Windows []Window
+	// MapWindows is the number of windows of the space-time map over the
+	// whole recording (DefaultMapWindows).
+	MapWindows int
+	// Replicates of the bootstrap for steady profiles (layers default).
+	Replicates int
+	Seed       uint64
+}
+
+// DefaultMapWindows windows over the recording resolve a start-up or a
+// cessation in tenths of a phase while keeping thousands of samples each.
+const DefaultMapWindows = 40
+
+// mapReplicates bootstrap replicates per map window: errors good to about
+// 13%, enough to weight a fit, at a third of the cost of a steady profile.
+const mapReplicates = 30
+
+// SteadyFraction is the part of a shear phase, at its end, taken as steady
+// by default: the second half, once start-up transients have died out
+// (common practice).
+const SteadyFraction = 0.5
+
+// minPhaseFrames is the fewest frames of data after the last shear phase
+// for an after-stop analysis.
+const minPhaseFrames = 10
+
+// WindowProfile is the layer profile of velocity in one window.
+type WindowProfile struct {
+	Window
+	Bins []layers.Bin // values in um/s
+}
+
+// CurvePoint is a point of a fitted profile.
+type CurvePoint struct {
+	YUM, VUMPerS, ErrUMPerS float64
+}
+
+// SeriesPoint is the decomposition of one map window inside a shear phase.
+type SeriesPoint struct {
+	TS                                            float64 // window centre
+	BulkRatePerS, BulkRateErrPerS                 float64
+	SlipStationaryUMPerS, SlipStationaryErrUMPerS float64
+	SlipMovingUMPerS, SlipMovingErrUMPerS         float64
+}
+
+// StrainPoint is the local strain of one layer over a shear phase: the
+// slope, with respect to height, of the layers' accumulated displacement.
+type StrainPoint struct {
+	YUM, Strain, StrainErr float64
+}
+
+// Shear is everything found for one shear phase.
+type Shear struct {
+	Step          experiment.Step
+	Steady        WindowProfile
+	Decomposition *rheometry.Decomposition
+	Fit           []CurvePoint // the chosen band model across the gap
+	Series        []SeriesPoint
+	// LocalStrain per layer over the whole phase, against NominalStrain
+	// (the step's strain).
+	LocalStrain   []StrainPoint
+	NominalStrain float64
+	Summary       summary.ShearPhase
+}
+
+// SpaceTime is the velocity and local rate in map windows (rows) and
+// layers (columns); NaN where a layer has too few samples.
+type SpaceTime struct {
+	TS       []float64 // window centres, s
+	YUM      []float64 // layer centres, um
+	VUMPerS  [][]float64
+	RatePerS [][]float64 // central differences of V between layers
+	N        [][]int
+}
+
+// Result is the outcome of Analyze.
+type Result struct {
+	Phases      []summary.Phase
+	ShearPhases []summary.ShearPhase
+	AfterStop   *summary.AfterStop // nil without time after a shear phase
+	Warnings    []string
+
+	NoiseUM        float64 // localization noise per coordinate
+	FrameIntervalS float64
+	Lag            velocity.LagRule
+	Shear          []Shear
+	Profiles       []WindowProfile // every window: steady, user, map
+	Map            SpaceTime
+	Cessation      *cessation.Result
+}
+
+// Analyze analyses the tracks pts of experiment e with calibration c.
+func Analyze(pts []tracks.Point, e *experiment.Experiment, c *calib.Calibration, o Options) (*Result, error) {
+	if o.Bins <= 0 {
+		o.Bins = layers.DefaultBins
+	}
+	if o.MapWindows <= 0 {
+		o.MapWindows = DefaultMapWindows
+	}
+	gap := e.Geometry.Gap()
+	if c != nil && c.GapUM > 0 && math.Abs(c.GapUM-gap) > 1e-6*gap {
+		return nil, fmt.Errorf("profile: calibration gap %g um differs from the experiment's %g um", c.GapUM, gap)
+	}
+	ts := velocity.Group(pts)
+	if len(ts) == 0 {
+		return nil, errors.New("profile: no tracks (every detection is unlinked)")
+	}
+	dt, err := velocity.FrameIntervalS(ts)
+	if err != nil {
+		return nil, err
+	}
+	sigma, err := velocity.NoiseUM(ts)
+	if err != nil {
+		return nil, err
+	}
+	t0, t1 := math.Inf(1), math.Inf(-1)
+	for _, p := range pts {
+		t0, t1 = math.Min(t0, p.TS), math.Max(t1, p.TS)
+	}
+	r := &Result{NoiseUM: sigma, FrameIntervalS: dt, Warnings: []string{}}
+	prog := e.Program()
+	r.Phases = Phases(prog, t0, t1)
+	if len(prog) == 0 {
+		r.Warnings = append(r.Warnings, "the experiment file has no motion program, so no shear phase is analysed")
+	}
+	layer := gap / float64(o.Bins)
+	r.Lag = velocity.LagRule{SNR: velocity.DefaultSNR, MaxLag: velocity.MaxLagInLayer(ts, sigma, layer, t0, t1)}
+
+	// Samples per phase, so that no step straddles a change of motion.
+	var all []velocity.Sample
+	for _, ph := range r.Phases {
+		all = append(all, velocity.Samples(ts, r.Lag, sigma, dt, ph.StartS, ph.EndS)...)
+	}
+	slices.SortFunc(all, func(a, b velocity.Sample) int { return cmpFloat(a.TS, b.TS) })
+
+	prof := func(w Window, reps int, seed uint64) (WindowProfile, error) {
+		lo, _ := slices.BinarySearchFunc(all, w.T0S, func(s velocity.Sample, t float64) int { return cmpFloat(s.TS, t) })
+		hi, _ := slices.BinarySearchFunc(all, w.T1S, func(s velocity.Sample, t float64) int { return cmpFloat(s.TS, t) })
+		obs := make([]layers.Obs, 0, hi-lo)
+		for _, s := range all[lo:hi] {
+			obs = append(obs, layers.Obs{Group: s.Track, YUM: s.YUM, Value: s.VXUMPerS})
+		}
+		b, err := layers.Profile(obs, layers.Options{GapUM: gap, Bins: o.Bins, MinSamples: layers.DefaultMinSamples,
+			MinGroups: layers.DefaultMinGroups, Replicates: reps, Seed: seed})
+		return WindowProfile{Window: w, Bins: b}, err
+	}
+
+	// Space-time map over the whole recording.
+	mapW := (t1 - t0) / float64(o.MapWindows)
+	var mapProfiles []WindowProfile
+	for k := range o.MapWindows {
+		w := Window{Name: fmt.Sprintf("map%02d", k+1), T0S: t0 + float64(k)*mapW, T1S: t0 + float64(k+1)*mapW}
+		p, err := prof(w, mapReplicates, o.Seed+1000+uint64(k))
+		if err != nil {
+			return nil, err
+		}
+		mapProfiles = append(mapProfiles, p)
+	}
+	r.Map = spaceTime(mapProfiles, gap, o.Bins)
+
+	for i, w := range o.Windows {
+		if !(w.T1S > w.T0S) {
+			return nil, fmt.Errorf("profile: window %q from %g s to %g s is empty", w.Name, w.T0S, w.T1S)
+		}
+		if w.Name == "" {
+			o.Windows[i].Name = fmt.Sprintf("user%d", i+1)
+		}
+	}
+	var userProfiles []WindowProfile
+	for i, w := range o.Windows {
+		p, err := prof(w, o.Replicates, o.Seed+500+uint64(i))
+		if err != nil {
+			return nil, err
+		}
+		userProfiles = append(userProfiles, p)
+	}
+
+	n := 0
+	for _, st := range prog {
+		if st.WallSpeedUMPerS == 0 {
+			continue
+		}
+		n++
+		sh := Shear{Step: st, NominalStrain: st.Strain}
+		win := Window{Name: fmt.Sprintf("shear%d", n), T0S: st.EndS - SteadyFraction*st.DurationS(), T1S: st.EndS}
+		var steady *WindowProfile
+		for i, u := range userProfiles {
+			if u.T0S < st.EndS && u.T1S > st.StartS {
+				steady = &userProfiles[i]
+				break
+			}
+		}
+		if steady == nil {
+			p, err := prof(win, o.Replicates, o.Seed+uint64(n))
+			if err != nil {
+				return nil, err
+			}
+			r.Profiles = append(r.Profiles, p)
+			steady = &p
+		}
+		sh.Steady = *steady
+		sp := summary.ShearPhase{StartS: st.StartS, EndS: st.EndS, WindowS: [2]float64{steady.T0S, steady.T1S},
+			WallSpeedUMPerS: summary.Num(st.WallSpeedUMPerS), NominalRatePerS: summary.Num(st.RatePerS),
+			BulkRatePerS: summary.Null, BulkRateErrPerS: summary.Null, SlipStationaryUMPerS: summary.Null,
+			SlipStationaryErrUMPerS: summary.Null, SlipMovingUMPerS: summary.Null, SlipMovingErrUMPerS: summary.Null,
+			SlipLengthStationaryUM: summary.Null, SlipLengthMovingUM: summary.Null, SlipFraction: summary.Null,
+			SlipFractionErr: summary.Null, Bands: []summary.Band{}}
+		d, err := rheometry.Decompose(steady.Bins, e.Geometry, st.WallSpeedUMPerS, rheometry.Options{})
+		if err != nil {
+			r.Warnings = append(r.Warnings, fmt.Sprintf("shear phase %d (%g-%g s): %v", n, st.StartS, st.EndS, err))
+		} else {
+			sh.Decomposition = d
+			fillShear(&sp, d)
+			for k := 0; k <= curvePoints; k++ {
+				y := gap * float64(k) / curvePoints
+				v, ve := d.FitAt(y)
+				sh.Fit = append(sh.Fit, CurvePoint{YUM: y, VUMPerS: v, ErrUMPerS: ve})
+			}
+		}
+		for _, mp := range mapProfiles {
+			if mp.T0S < st.StartS || mp.T1S > st.EndS {
+				continue
+			}
+			md, err := rheometry.Decompose(mp.Bins, e.Geometry, st.WallSpeedUMPerS, rheometry.Options{})
+			if err != nil {
+				continue
+			}
+			sh.Series = append(sh.Series, SeriesPoint{TS: (mp.T0S + mp.T1S) / 2,
+				BulkRatePerS: md.BulkRatePerS, BulkRateErrPerS: md.BulkRateErrPerS,
+				SlipStationaryUMPerS: md.SlipStationaryUMPerS, SlipStationaryErrUMPerS: md.SlipStationaryErrUMPerS,
+				SlipMovingUMPerS: md.SlipMovingUMPerS, SlipMovingErrUMPerS: md.SlipMovingErrUMPerS})
+		}
+		whole, err := prof(Window{Name: fmt.Sprintf("whole%d", n), T0S: st.StartS, T1S: st.EndS}, o.Replicates, o.Seed+2000+uint64(n))
+		if err != nil {
+			return nil, err
+		}
+		sh.LocalStrain = localStrain(whole.Bins, e, st.DurationS())
+		sh.Summary = sp
+		r.Shear = append(r.Shear, sh)
+		r.ShearPhases = append(r.ShearPhases, sp)
+	}
+	r.Profiles = append(r.Profiles, userProfiles...)
+	r.Profiles = append(r.Profiles, mapProfiles...)
+
+	if err := r.afterStop(ts, prog, o, gap, dt, sigma, t1); err != nil {
+		return nil, err
+	}
+	if r.ShearPhases == nil {
+		r.ShearPhases = []summary.ShearPhase{}
+	}
+	return r, nil
+}
+
+// curvePoints is the number of intervals at which a fitted profile is
+// tabulated for plotting.
+const curvePoints = 100
+
+func cmpFloat(a, b float64) int {
+	switch {
+	case a < b:
+		return -1
+	case a > b:
+		return 1
+	}
+	return 0
+}
+
+func fillShear(sp *summary.ShearPhase, d *rheometry.Decomposition) {
+	sp.BulkRatePerS, sp.BulkRateErrPerS = summary.Num(d.BulkRatePerS), summary.Num(d.BulkRateErrPerS)
+	sp.SlipStationaryUMPerS, sp.SlipStationaryErrUMPerS = summary.Num(d.SlipStationaryUMPerS), summary.Num(d.SlipStationaryErrUMPerS)
+	sp.SlipMovingUMPerS, sp.SlipMovingErrUMPerS = summary.Num(d.SlipMovingUMPerS), summary.Num(d.SlipMovingErrUMPerS)
+	sp.SlipLengthStationaryUM, sp.SlipLengthMovingUM = summary.Num(d.SlipLengthStationaryUM), summary.Num(d.SlipLengthMovingUM)
+	sp.SlipFraction, sp.SlipFractionErr = summary.Num(d.SlipFraction), summary.Num(d.SlipFractionErr)
+	sp.WallSlip, sp.Bands, sp.Banded, sp.Verdict = d.WallSlip, d.Bands, d.Banded, d.Verdict
+}
+
+// Phases splits [t0S, t1S] by the motion program: rest before and between
+// shear steps (and during steps of zero speed), shear during each step, and
+// after_stop from the end of the last shear step to t1S.
+func Phases(p experiment.Program, t0S, t1S float64) []summary.Phase {
+	var out []summary.Phase
+	add := func(kind string, a, b float64) {
+		a, b = math.Max(a, t0S), math.Min(b, t1S)
+		if b > a {
+			out = append(out, summary.Phase{Kind: kind, StartS: a, EndS: b, Source: "experiment"})
+		}
+	}
+	last := -1
+	for i, s := range p {
+		if s.WallSpeedUMPerS != 0 {
+			last = i
+		}
+	}
+	if last < 0 {
+		add(summary.Rest, t0S, t1S)
+		return out
+	}
+	prev := t0S
+	for i, s := range p[:last+1] {
+		if s.WallSpeedUMPerS == 0 {
+			continue
+		}
+		add(summary.Rest, prev, s.StartS)
+		add(summary.Shear, s.StartS, s.EndS)
+		prev = s.EndS
+		_ = i
+	}
+	add(summary.AfterStopKind, p[last].EndS, t1S)
+	return out
+}
+
+// localStrainHalfWidth is the half-width, in layers, of the local linear
+// fit that differentiates the accumulated displacement: five layers smooth
+// the noise of single layers while keeping a band edge sharp to 2.5 layers.
+const localStrainHalfWidth = 2
+
+// localStrain returns each layer's strain over a phase of durS seconds: the
+// accumulated displacement X(y) = v(y) durS, differentiated with respect to
+// the Newtonian coordinate u (y between plates; see rheometry) by a
+// weighted local line through 2*localStrainHalfWidth+1 layers.
+func localStrain(bins []layers.Bin, e *experiment.Experiment, durS float64) []StrainPoint {
+	var out []StrainPoint
+	for j, b := range bins {
+		if !b.Known() {
+			continue
+		}
+		var sw, su, sx, suu, sux float64
+		n := 0
+		for k := max(0, j-localStrainHalfWidth); k <= min(len(bins)-1, j+localStrainHalfWidth); k++ {
+			q := bins[k]
+			if !q.Known() || !(q.Err > 0) {
+				continue
+			}
+			u := rheometry.NewtonianU(e.Geometry, q.YUM)
+			x := q.Value * durS
+			w := 1 / (q.Err * q.Err * durS * durS)
+			sw += w
+			su += w * u
+			sx += w * x
+			suu += w * u * u
+			sux += w * u * x
+			n++
+		}
+		den := sw*suu - su*su
+		if n < 3 || !(den > 0) {
+			continue
+		}
+		out = append(out, StrainPoint{YUM: b.YUM, Strain: (sw*sux - su*sx) / den, StrainErr: math.Sqrt(sw / den)})
+	}
+	return out
+}
+
+func spaceTime(ps []WindowProfile, gap float64, bins int) SpaceTime {
+	m := SpaceTime{}
+	for k := range bins {
+		m.YUM = append(m.YUM, (float64(k)+0.5)*gap/float64(bins))
+	}
+	for _, p := range ps {
+		m.TS = append(m.TS, (p.T0S+p.T1S)/2)
+		v := make([]float64, bins)
+		n := make([]int, bins)
+		rate := make([]float64, bins)
+		for k, b := range p.Bins {
+			v[k], n[k] = b.Value, b.N
+		}
+		for k := range bins {
+			lo, hi := max(0, k-1), min(bins-1, k+1)
+			rate[k] = (v[hi] - v[lo]) / (m.YUM[hi] - m.YUM[lo])
+		}
+		m.VUMPerS = append(m.VUMPerS, v)
+		m.RatePerS = append(m.RatePerS, rate)
+		m.N = append(m.N, n)
+	}
+	return m
+}
+
+func (r *Result) afterStop(ts []velocity.Track, prog experiment.Program, o Options, gap, dt, sigma, t1 float64) error {
+	last := -1
+	for i, s := range prog {
+		if s.WallSpeedUMPerS != 0 {
+			last = i
+		}
+	}
+	if last < 0 || t1-prog[last].EndS < minPhaseFrames*dt {
+		return nil
+	}
+	st := prog[last]
+	co := cessation.Options{StopS: st.EndS, EndS: t1, ShearSense: math.Copysign(1, st.WallSpeedUMPerS),
+		GapUM: gap, DtS: dt, SigmaUM: sigma, Bins: o.Bins, Seed: o.Seed + 3000}
+	if len(r.Phases) > 0 && r.Phases[0].Kind == summary.Rest {
+		co.RestS = [2]float64{r.Phases[0].StartS, r.Phases[0].EndS}
+	}
+	c, err := cessation.Analyze(ts, co)
+	if err != nil {
+		r.Warnings = append(r.Warnings, fmt.Sprintf("after the stop at %g s: %v", st.EndS, err))
+		return nil
+	}
+	r.Cessation = c
+	a := &summary.AfterStop{StopS: c.StopS, ObservedS: c.ObservedS, NoiseFloorUM: summary.Num(c.NoiseFloorUM),
+		MaxDisplacementUM: summary.Num(c.MaxDisplacementUM), RecoveredStrain: summary.Num(c.RecoveredStrain),
+		Verdict: summary.Quiescent, PlaneUM: summary.Null, OnsetAfterStopS: summary.Null}
+	if c.Moving {
+		a.Verdict = summary.Moving
+		mode := c.Mode
+		a.Mode = &mode
+		a.OnsetAfterStopS = summary.Num(c.OnsetAfterStopS)
+		if c.Mode == cessation.ModeBulk {
+			a.PlaneUM = summary.Num(c.Picture.PlaneUM)
+		}
+	}
+	r.AfterStop = a
+	return nil
+}

@@ -1,0 +1,207 @@
+// Package rheometry splits the imposed motion of one shear phase into wall
+// slip and bulk shear: from a velocity profile across the gap it finds the
+// bulk shear rate, the fluid's speed at each wall (by extrapolating the fit
+// to the wall line), the slip velocities, the Navier slip lengths, the slip
+// fraction, and the bands of distinct shear rate, all with standard errors,
+// and gives the verdict of the contract (homogeneous, wall_slip, banded,
+// wall_slip+banded).
+//
+// The fit runs in the geometry's Newtonian coordinate u = H v_N(y) / V,
+// where v_N is the exact no-slip Newtonian profile (geometry.Reference): u = y
+// between plates, and for a Couette cell the curvature of the
+// concentric-cylinder profile is taken out, so a Newtonian sample comes out
+// as one band. Band rates are slopes dv/du in 1/s (the local shear rate for
+// plates; for a Couette cell the rate relative to the Newtonian shape, whose
+// mean over the gap is the mean rate).
+//
+// Heights are in um above the stationary wall, speeds in um/s, rates in 1/s.
+package rheometry
+
+import (
+	"fmt"
+	"math"
+
+	"gaptrace/calib/geometry"
+	"gaptrace/profile/bands"
+	"gaptrace/profile/layers"
+	"gaptrace/profile/summary"
+)
+
+// SlipSigma is how many standard errors a slip velocity must exceed to be
+// called wall slip (common practice).
+const SlipSigma = 3
+
+// MinSlipFraction is the least slip velocity, as a fraction of the wall
+// speed, called wall slip: an error of 1% of the gap in placing a wall line
+// shifts the extrapolated fluid speed by 1% of the wall speed, so apparent
+// slip below 2% cannot be told from a calibration error.
+const MinSlipFraction = 0.02
+
+// Decomposition is the rheometric decomposition of one velocity profile.
+type Decomposition struct {
+	GapUM           float64
+	WallSpeedUMPerS float64 // signed: positive along +x
+	// Fluid speed extrapolated to each wall line, um/s.
+	FluidStationaryUMPerS, FluidStationaryErrUMPerS float64
+	FluidMovingUMPerS, FluidMovingErrUMPerS         float64
+	// Slip velocities per the contract: the fluid's speed at the
+	// stationary wall, and the wall's speed minus the fluid's at the moving
+	// wall, both positive when the fluid lags the wall that drags it.
+	SlipStationaryUMPerS, SlipStationaryErrUMPerS float64
+	SlipMovingUMPerS, SlipMovingErrUMPerS         float64
+	// BulkRatePerS is the mean rate of the sample, (v(H) - v(0)) / H from
+	// the fit, signed like the wall speed.
+	BulkRatePerS, BulkRateErrPerS float64
+	// Navier slip lengths b = v_s / bulk rate, um.
+	SlipLengthStationaryUM, SlipLengthStationaryErrUM float64
+	SlipLengthMovingUM, SlipLengthMovingErrUM         float64
+	// SlipFraction is (V - bulk rate * H) / V.
+	SlipFraction, SlipFractionErr float64
+	WallSlip                      bool
+	// Bands from the stationary wall up, in y (um); one band means none.
+	Bands   []summary.Band
+	Banded  bool
+	Verdict string
+	// Model is the chosen fit in the Newtonian coordinate u; Selection
+	// holds every model tried.
+	Model     *bands.Model
+	Selection *bands.Selection
+	geom      geometry.Geometry
+}
+
+// Options tunes the decomposition; the zero value means the defaults.
+type Options struct {
+	// Criteria for accepting bands; zero means bands.DefaultCriteria(gap).
+	Criteria *bands.Criteria
+}
+
+// Decompose decomposes the profile bins (velocities in um/s) of a phase in
+// which the moving wall travels at wallSpeedUMPerS, in geometry g. Layers
+// without a value are left out of the fit.
+func Decompose(bins []layers.Bin, g geometry.Geometry, wallSpeedUMPerS float64, o Options) (*Decomposition, error) {
+	h := g.Gap()
+	if !(h > 0) {
+		return nil, fmt.Errorf("rheometry: gap %g um is not positive", h)
+	}
+	if wallSpeedUMPerS == 0 || math.IsNaN(wallSpeedUMPerS) {
+		return nil, fmt.Errorf("rheometry: wall speed %g um/s; a shear phase needs a moving wall", wallSpeedUMPerS)
+	}
+	var pts []bands.Point
+	for _, b := range bins {
+		if b.Known() && b.Err > 0 {
+			pts = append(pts, bands.Point{U: newtonianU(g, b.YUM), V: b.Value, Err: b.Err})
+		}
+	}
+	c := bands.DefaultCriteria(h)
+	if o.Criteria != nil {
+		c = *o.Criteria
+	}
+	sel, err := bands.Select(pts, h, c)
+	if err != nil {
+		return nil, fmt.Errorf("rheometry: %w", err)
+	}
+	m := sel.Best
+	d := &Decomposition{GapUM: h, WallSpeedUMPerS: wallSpeedUMPerS, Model: m, Selection: sel, geom: g}
+	v := wallSpeedUMPerS
+	sgn := math.Copysign(1, v)
+	d.FluidStationaryUMPerS, d.FluidStationaryErrUMPerS = m.AtErr(0)
+	d.FluidMovingUMPerS, d.FluidMovingErrUMPerS = m.AtErr(h)
+	d.SlipStationaryUMPerS, d.SlipStationaryErrUMPerS = sgn*d.FluidStationaryUMPerS, d.FluidStationaryErrUMPerS
+	d.SlipMovingUMPerS, d.SlipMovingErrUMPerS = sgn*(v-d.FluidMovingUMPerS), d.FluidMovingErrUMPerS
+	dv := d.FluidMovingUMPerS - d.FluidStationaryUMPerS
+	dvErr := math.Sqrt(math.Max(0, m.Cov(0, 0)+m.Cov(h, h)-2*m.Cov(0, h)))
+	d.BulkRatePerS, d.BulkRateErrPerS = dv/h, dvErr/h
+	d.SlipFraction, d.SlipFractionErr = (v-dv)/v, dvErr/math.Abs(v)
+	rate := sgn * d.BulkRatePerS
+	d.SlipLengthStationaryUM, d.SlipLengthStationaryErrUM = ratioErr(d.SlipStationaryUMPerS, d.SlipStationaryErrUMPerS, rate, d.BulkRateErrPerS)
+	d.SlipLengthMovingUM, d.SlipLengthMovingErrUM = ratioErr(d.SlipMovingUMPerS, d.SlipMovingErrUMPerS, rate, d.BulkRateErrPerS)
+	d.WallSlip = significant(d.SlipStationaryUMPerS, d.SlipStationaryErrUMPerS, v) ||
+		significant(d.SlipMovingUMPerS, d.SlipMovingErrUMPerS, v)
+	edges := m.Edges()
+	for j, r := range m.Rates {
+		b := summary.Band{FromUM: summary.Num(yOfU(g, edges[j])), ToUM: summary.Num(yOfU(g, edges[j+1])),
+			RatePerS: summary.Num(r), RateErrPerS: summary.Num(m.RateErrs[j]), ToErrUM: summary.Null}
+		if j < len(m.Bounds) {
+			b.ToErrUM = summary.Num(m.BoundErrs[j] * dydu(g, m.Bounds[j]))
+		}
+		d.Bands = append(d.Bands, b)
+	}
+	d.Banded = len(m.Rates) > 1
+	switch {
+	case d.WallSlip && d.Banded:
+		d.Verdict = summary.WallSlipBanded
+	case d.WallSlip:
+		d.Verdict = summary.WallSlip
+	case d.Banded:
+		d.Verdict = summary.Banded
+	default:
+		d.Verdict = summary.Homogeneous
+	}
+	return d, nil
+}
+
+// significant reports whether slip s (um/s) with error e is wall slip at
+// wall speed v.
+func significant(s, e, v float64) bool {
+	return math.Abs(s) > SlipSigma*e && math.Abs(s) > MinSlipFraction*math.Abs(v)
+}
+
+// ratioErr returns a/b and its first-order error (errors taken independent).
+func ratioErr(a, ea, b, eb float64) (float64, float64) {
+	if b == 0 {
+		return math.NaN(), math.NaN()
+	}
+	r := a / b
+	return r, math.Hypot(ea/b, r*eb/b)
+}
+
+// FitAt returns the fitted velocity at height yUM and its standard error,
+// in um/s.
+func (d *Decomposition) FitAt(yUM float64) (v, err float64) {
+	return d.Model.AtErr(newtonianU(d.geom, yUM))
+}
+
+// NewtonianU maps a height y in um to the Newtonian coordinate u of g in
+// um: u = H v_N(y) / V, which is y between plates.
+func NewtonianU(g geometry.Geometry, yUM float64) float64 { return newtonianU(g, yUM) }
+
+func newtonianU(g geometry.Geometry, y float64) float64 {
+	if g.Kind != geometry.Couette {
+		return y
+	}
+	return g.Gap() * g.Reference(y, 1)
+}
+
+// uTol is the bisection tolerance of yOfU, far below any measured height.
+const uTol = 1e-9
+
+// yOfU inverts newtonianU (monotonic on [0, H]) by bisection.
+func yOfU(g geometry.Geometry, u float64) float64 {
+	if g.Kind != geometry.Couette {
+		return u
+	}
+	lo, hi := 0.0, g.Gap()
+	for hi-lo > uTol*g.Gap() {
+		mid := (lo + hi) / 2
+		if newtonianU(g, mid) < u {
+			lo = mid
+		} else {
+			hi = mid
+		}
+	}
+	return (lo + hi) / 2
+}
+
+// dydu returns dy/du at u, the factor turning an error in u into one in y.
+func dydu(g geometry.Geometry, u float64) float64 {
+	if g.Kind != geometry.Couette {
+		return 1
+	}
+	y, h := yOfU(g, u), derivStepFraction*g.Gap()
+	return 2 * h / (newtonianU(g, y+h) - newtonianU(g, y-h))
+}
+
+// derivStepFraction is the step, as a fraction of the gap, of the central
+// difference for du/dy: the Newtonian profile's curvature makes its error
+// of order 1e-12 of the gap.
+const derivStepFraction = 1e-6

@@ -1,0 +1,276 @@
+// Package velocity turns tracer tracks into velocity samples: for each
+// track, the displacement over a lag of L frames divided by the elapsed
+// time, placed at the midpoint (in time and in gap height) of the step.
+//
+// The lag follows an explicit rule (see LagRule): long enough that the
+// displacement stands well above the localization noise, short enough that
+// the tracer stays in its layer of the gap. Positions are in um, times in s,
+// velocities in um/s.
+package velocity
+
+import (
+	"errors"
+	"fmt"
+	"math"
+	"slices"
+
+	"gaptrace/track/tracks"
+)
+
+// Track is one tracer's points in frame order.
+type Track struct {
+	ID     int
+	Points []tracks.Point
+}
+
+// Group collects the linked points by track id (unlinked points, id -1, are
+// dropped) and sorts each track by frame. Tracks come out in id order.
+func Group(pts []tracks.Point) []Track {
+	by := map[int][]tracks.Point{}
+	for _, p := range pts {
+		if p.Track == tracks.Unlinked {
+			continue
+		}
+		by[p.Track] = append(by[p.Track], p)
+	}
+	ids := make([]int, 0, len(by))
+	for id := range by {
+		ids = append(ids, id)
+	}
+	slices.Sort(ids)
+	out := make([]Track, 0, len(ids))
+	for _, id := range ids {
+		p := by[id]
+		slices.SortFunc(p, func(a, b tracks.Point) int { return a.Frame - b.Frame })
+		out = append(out, Track{ID: id, Points: p})
+	}
+	return out
+}
+
+// FrameIntervalS returns the time between consecutive frames in s, the
+// median over all consecutive-frame pairs of the tracks. It fails when no
+// track holds two consecutive frames.
+func FrameIntervalS(ts []Track) (float64, error) {
+	var d []float64
+	for _, t := range ts {
+		for i := 1; i < len(t.Points); i++ {
+			a, b := t.Points[i-1], t.Points[i]
+			if b.Frame-a.Frame == 1 {
+				d = append(d, b.TS-a.TS)
+			}
+		}
+		if len(d) > maxIntervalPairs {
+			break
+		}
+	}
+	if len(d) == 0 {
+		return 0, errors.New("velocity: no track holds two consecutive frames, so the frame interval is unknown")
+	}
+	dt := median(d)
+	if !(dt > 0) {
+		return 0, fmt.Errorf("velocity: frame interval %g s is not positive (t_s does not grow with frame)", dt)
+	}
+	return dt, nil
+}
+
+// maxIntervalPairs is enough frame pairs for a median frame interval.
+const maxIntervalPairs = 10000
+
+// madToSigma converts a median absolute deviation into the standard
+// deviation of a normal distribution (1/0.6745; Huber 1981, Robust
+// Statistics).
+const madToSigma = 1.4826
+
+// NoiseUM estimates the localization noise, the standard deviation of one
+// coordinate of one detection in um, from second differences of positions
+// at consecutive frames: for a tracer moving at constant velocity,
+// x(f+1) - 2 x(f) + x(f-1) is pure noise with variance 6 sigma^2. A robust
+// scale (the median absolute deviation) keeps accelerations at phase changes
+// and the odd mislink out. Both coordinates are pooled. It fails when no
+// track has three consecutive frames.
+func NoiseUM(ts []Track) (float64, error) {
+	var d2 []float64
+	for _, t := range ts {
+		p := t.Points
+		for i := 2; i < len(p); i++ {
+			if p[i].Frame-p[i-1].Frame != 1 || p[i-1].Frame-p[i-2].Frame != 1 {
+				continue
+			}
+			d2 = append(d2, p[i].XUM-2*p[i-1].XUM+p[i-2].XUM, p[i].YUM-2*p[i-1].YUM+p[i-2].YUM)
+		}
+	}
+	if len(d2) == 0 {
+		return 0, errors.New("velocity: no track has three consecutive frames, so the localization noise is unknown")
+	}
+	return madToSigma * mad(d2) / math.Sqrt(6), nil
+}
+
+// LagRule chooses the lag, in frames, over which one velocity sample is
+// taken. For a tracer moving at speed |v| with localization noise sigma per
+// coordinate, a displacement over L frames of duration dt has noise
+// sqrt(2) sigma, so
+//
+//	L = ceil(SNR * sqrt(2) * sigma / (|v| * dt)),
+//
+// clamped to [1, MaxLag]. MaxLag is the largest lag over which tracers stay
+// in their layer: the rms excursion across the gap, with the noise
+// removed, sqrt(<dy^2>(L) - 2 sigma^2), stays below LayerFraction of the
+// layer width (see MaxLagInLayer), and no more than CapFrames.
+type LagRule struct {
+	// SNR is the ratio of displacement to its noise that a sample must reach.
+	SNR float64
+	// MaxLag is the longest lag in frames (at least 1).
+	MaxLag int
+}
+
+// DefaultSNR makes one sample's speed good to 1/20 = 5% of itself:
+// individual samples are averaged by the hundred per layer, so 5% per
+// sample is ample, while a longer lag would cost time resolution (common
+// practice).
+const DefaultSNR = 20
+
+// LayerFraction is the part of a layer's width that a tracer may wander
+// across the gap during one lag: a quarter keeps the sample's midpoint
+// height within its layer for all but the widest excursions (common
+// practice).
+const LayerFraction = 0.25
+
+// CapFrames bounds the lag whatever the motion across the gap: tracks rarely
+// last much longer in a side view, and a longer lag blurs changes in time.
+const CapFrames = 64
+
+// Lag returns the lag in frames for a tracer at speed vUMPerS, with noise
+// sigmaUM per coordinate and frame interval dtS.
+func (r LagRule) Lag(vUMPerS, sigmaUM, dtS float64) int {
+	maxLag := max(1, r.MaxLag)
+	v := math.Abs(vUMPerS)
+	if !(v > 0) || sigmaUM <= 0 {
+		if sigmaUM <= 0 {
+			return 1
+		}
+		return maxLag
+	}
+	l := math.Ceil(r.SNR * math.Sqrt2 * sigmaUM / (v * dtS))
+	if l > float64(maxLag) {
+		return maxLag
+	}
+	return max(1, int(l))
+}
+
+// MaxLagInLayer returns the largest lag L <= CapFrames (and at least 1)
+// for which the noise-free rms displacement across the gap,
+// sqrt(<dy^2>(L) - 2 sigma^2), stays below LayerFraction * layerUM. Only
+// points with tS in [t0S, t1S] are used.
+func MaxLagInLayer(ts []Track, sigmaUM, layerUM, t0S, t1S float64) int {
+	limit := LayerFraction * layerUM
+	best := 1
+	for l := 2; l <= CapFrames; l++ {
+		var s float64
+		n := 0
+		for _, t := range ts {
+			p := t.Points
+			j := 0
+			for i := range p {
+				if p[i].TS < t0S || p[i].TS > t1S {
+					continue
+				}
+				for j < len(p) && p[j].Frame < p[i].Frame+l {
+					j++
+				}
+				if j < len(p) && p[j].Frame == p[i].Frame+l && p[j].TS <= t1S {
+					dy := p[j].YUM - p[i].YUM
+					s += dy * dy
+					n++
+				}
+			}
+		}
+		if n < minPairs {
+			break
+		}
+		if math.Sqrt(math.Max(0, s/float64(n)-2*sigmaUM*sigmaUM)) > limit {
+			break
+		}
+		best = l
+	}
+	return best
+}
+
+// minPairs is the fewest point pairs for a mean square excursion.
+const minPairs = 30
+
+// Sample is one velocity measurement: a tracer's displacement over Lag
+// frames over the elapsed time, placed at the step's midpoint.
+type Sample struct {
+	Track    int
+	TS       float64 // midpoint time, s
+	XUM, YUM float64 // midpoint position, um
+	VXUMPerS float64 // velocity along the flow, um/s
+	VYUMPerS float64 // velocity across the gap, um/s
+	Lag      int     // frames
+}
+
+// Samples returns the velocity samples of the tracks whose both ends lie in
+// [t0S, t1S]. Each track's lag comes from rule with the track's own rough
+// speed there (its net displacement over its time in the interval); a
+// sample starts at every point of the track that has a partner exactly Lag
+// frames later, so samples of one track overlap and are correlated (treat
+// them per track when estimating errors).
+func Samples(ts []Track, rule LagRule, sigmaUM, dtS, t0S, t1S float64) []Sample {
+	var out []Sample
+	for _, t := range ts {
+		p := t.Points
+		lo, hi := -1, -1
+		for i := range p {
+			if p[i].TS >= t0S && p[i].TS <= t1S {
+				if lo < 0 {
+					lo = i
+				}
+				hi = i
+			}
+		}
+		if lo < 0 || hi == lo {
+			continue
+		}
+		p = p[lo : hi+1]
+		first, last := p[0], p[len(p)-1]
+		v := (last.XUM - first.XUM) / (last.TS - first.TS)
+		l := rule.Lag(v, sigmaUM, dtS)
+		j := 0
+		for i := range p {
+			for j < len(p) && p[j].Frame < p[i].Frame+l {
+				j++
+			}
+			if j >= len(p) {
+				break
+			}
+			if p[j].Frame != p[i].Frame+l {
+				continue
+			}
+			a, b := p[i], p[j]
+			dt := b.TS - a.TS
+			out = append(out, Sample{Track: t.ID, TS: (a.TS + b.TS) / 2,
+				XUM: (a.XUM + b.XUM) / 2, YUM: (a.YUM + b.YUM) / 2,
+				VXUMPerS: (b.XUM - a.XUM) / dt, VYUMPerS: (b.YUM - a.YUM) / dt, Lag: l})
+		}
+	}
+	return out
+}
+
+func median(v []float64) float64 {
+	c := slices.Clone(v)
+	slices.Sort(c)
+	n := len(c)
+	if n%2 == 1 {
+		return c[n/2]
+	}
+	return (c[n/2-1] + c[n/2]) / 2
+}
+
+func mad(v []float64) float64 {
+	m := median(v)
+	d := make([]float64, len(v))
+	for i, x := range v {
+		d[i] = math.Abs(x - m)
+	}
+	return median(d)
+}
