@@ -48,7 +48,7 @@ func NewRenderer(s *Scenario) (*Renderer, error) {
 		for j := range h {
 			for i := range w {
 				dx, dy := float64(i)-cx, float64(j)-cy
-				r.vig[j*w+i] = 1 - s.Vignetting*(dx*dx+dy*dy)/rc2
+				r.vig[j*w+i] = 1 - s.Vignetting*(dx*dx+dy*dy)/rc2 // as vignettingAt
 			}
 		}
 	}
