@@ -208,14 +208,30 @@ type velocityPoint struct {
 
 // place finds each tracer's position at the stop, by a straight-line fit
 // through its last RefFrames points up to the stop (or its point at the stop
-// itself), and keeps its points after the stop.
+// itself), and keeps its points after the stop. Tracks that begin after the
+// stop are joined to the tracer they continue (see stitch).
 func place(ts []velocity.Track, o Options) []placedTracer {
 	var out []placedTracer
+	var orphans [][]velocityPoint
 	half := o.DtS / 2
 	for _, t := range ts {
 		p := t.Points
 		i := sort.Search(len(p), func(i int) bool { return p[i].TS > o.StopS+half })
-		if i == 0 || i == len(p) {
+		if i == len(p) {
+			continue
+		}
+		var after []velocityPoint
+		for _, q := range p[i:] {
+			if q.TS > o.EndS {
+				break
+			}
+			after = append(after, velocityPoint{q.Frame, q.TS, q.XUM, q.YUM})
+		}
+		if len(after) == 0 {
+			continue
+		}
+		if i == 0 {
+			orphans = append(orphans, after)
 			continue
 		}
 		lo := i - 1
@@ -224,7 +240,8 @@ func place(ts []velocity.Track, o Options) []placedTracer {
 		}
 		pre := p[lo:i]
 		if pre[len(pre)-1].TS < o.StopS-half-o.DtS {
-			continue // the track is lost more than a frame before the stop
+			orphans = append(orphans, after) // lost more than a frame before the stop
+			continue
 		}
 		var xRef float64
 		if len(pre) == 1 {
@@ -246,18 +263,57 @@ func place(ts []velocity.Track, o Options) []placedTracer {
 				xRef = (sx*stt - st*stx) / den // the line's value at the stop
 			}
 		}
-		pt := placedTracer{id: t.ID, xRef: xRef, yUM: pre[len(pre)-1].YUM}
-		for _, q := range p[i:] {
-			if q.TS > o.EndS {
-				break
+		out = append(out, placedTracer{id: t.ID, xRef: xRef, yUM: pre[len(pre)-1].YUM, after: after})
+	}
+	stitch(out, orphans, o)
+	return out
+}
+
+// Stitching of broken tracks after the stop.
+const (
+	// stitchGapFrames is the longest break bridged, in frames.
+	stitchGapFrames = 5
+	// stitchSigmas is the search radius in standard deviations of the
+	// position noise of a frame-to-frame step, sqrt(2) sigma, per frame of
+	// the break; far below the typical spacing of tracers.
+	stitchSigmas = 5
+	// stitchVelocityPoints are the last points of a tracer from which its
+	// velocity is estimated to predict where it reappears.
+	stitchVelocityPoints = 5
+)
+
+// stitch joins each track that begins after the stop (in order of its
+// first frame) to the tracer whose last point lies at most stitchGapFrames
+// earlier and nearest to the predicted position, within the search radius.
+// A tracker that loses a tracer for a frame or two would otherwise cut it
+// off from its position at the stop.
+func stitch(placed []placedTracer, orphans [][]velocityPoint, o Options) {
+	slices.SortFunc(orphans, func(a, b []velocityPoint) int { return a[0].frame - b[0].frame })
+	for _, seg := range orphans {
+		first := seg[0]
+		best, bestD := -1, math.Inf(1)
+		for k := range placed {
+			a := placed[k].after
+			last := a[len(a)-1]
+			gap := first.frame - last.frame
+			if gap < 1 || gap > stitchGapFrames {
+				continue
 			}
-			pt.after = append(pt.after, velocityPoint{q.Frame, q.TS, q.XUM, q.YUM})
+			v := 0.0
+			if m := min(len(a), stitchVelocityPoints); m > 1 {
+				v = (last.xUM - a[len(a)-m].xUM) / (last.tS - a[len(a)-m].tS)
+			}
+			dx := first.xUM - (last.xUM + v*(first.tS-last.tS))
+			dy := first.yUM - last.yUM
+			d := math.Hypot(dx, dy)
+			if d < stitchSigmas*math.Sqrt2*o.SigmaUM*float64(gap) && d < bestD {
+				best, bestD = k, d
+			}
 		}
-		if len(pt.after) > 0 {
-			out = append(out, pt)
+		if best >= 0 {
+			placed[best].after = append(placed[best].after, seg...)
 		}
 	}
-	return out
 }
 
 // minRestSamples is the fewest displacements in the rest phase for a noise
