@@ -293,50 +293,222 @@ func eachStep(pts []tracks.Point, fn func(a, b *tracks.Point)) {
 	}
 }
 
-// CommonModeFromTracks measures what moved the whole image between frames
-// from the tracks themselves: for each pair of consecutive frames, the median
-// over all one-frame steps of the step minus the profile's prediction. The
-// result, indexed by frame from 0 to frames-1, is the offset of each frame's
-// image relative to frame 0, px (the running sum of the per-pair medians; a
-// pair without steps adds nothing). Only motion that changes from frame to
-// frame is seen: a steady drift looks like flow and stays in the profile.
-// Gap coordinates XUM, YUM of pts are taken as they are, so the offsets are
-// on top of whatever correction produced them.
-func CommonModeFromTracks(pts []tracks.Point, p Field, cal *calib.Calibration, frames int) ([]Shift, error) {
+// CommonModeFromTracks measures what moved the whole image from frame to
+// frame from the tracks themselves. Each track is cut into pieces of
+// segmentFrames frames, and every point is modelled as its piece's own
+// uniform motion plus the offset of its frame, common to all tracks:
+// p = a + b f + j(f). The fit alternates between the pieces' lines (least
+// squares on p - j) and the offsets (the median over all points of the
+// frame of p - a - b f), so one stray track cannot move an offset. A steady
+// drift cannot be told from flow by tracks alone: the linear trend of the
+// offsets is removed, and it stays in the profile. The result, indexed by
+// frame from 0 to frames-1, is the offset of each frame's image relative to
+// frame 0, px; a frame with fewer than minCommonPoints points gets the
+// offset interpolated from its neighbours. Positions are taken from the gap
+// coordinates XUM, YUM (turned back into image pixels), so the offsets are
+// on top of whatever correction produced them. Where the flow changes
+// abruptly (the start or stop of shear) the pieces are not uniform and the
+// offsets of those few frames are less certain.
+func CommonModeFromTracks(pts []tracks.Point, cal *calib.Calibration, frames int) ([]Shift, error) {
 	if err := cal.Check(); err != nil {
 		return nil, fmt.Errorf("flowprior: %w", err)
 	}
 	if frames < 1 {
 		return nil, fmt.Errorf("flowprior: need at least one frame, got %d", frames)
 	}
-	fx, fy := FlowDir(cal)
-	ax, ay := AcrossDir(cal)
+	// Image-oriented positions from the gap coordinates.
+	type obs struct {
+		f     int
+		x, y  float64
+		piece int
+	}
+	var os []obs
+	type line struct{ ax, bx, ay, by float64 }
+	var pieces []line
+	for i := 0; i < len(pts); {
+		j := i
+		for j < len(pts) && pts[j].Track == pts[i].Track {
+			j++
+		}
+		if pts[i].Track != tracks.Unlinked && j-i >= minPiecePoints {
+			// Stagger the pieces from track to track, so that no frame is
+			// the end of every piece: otherwise the offsets would be known
+			// only up to a line within each stretch of frames.
+			first := (pts[i].Frame + pts[i].Track) % segmentFrames
+			if first < minPiecePoints {
+				first = segmentFrames
+			}
+			for k := i; k < j; k += first {
+				if k > i {
+					first = segmentFrames
+				}
+				end := min(k+first, j)
+				if end-k < minPiecePoints {
+					break
+				}
+				for q := k; q < end; q++ {
+					p := pts[q]
+					if p.Frame < 0 || p.Frame >= frames {
+						continue
+					}
+					x, y := cal.ToImage(p.XUM, p.YUM)
+					os = append(os, obs{p.Frame, x, y, len(pieces)})
+				}
+				pieces = append(pieces, line{})
+			}
+		}
+		i = j
+	}
+	jx, jy := make([]float64, frames), make([]float64, frames)
+	// Sums for the least-squares lines, per piece.
+	type sums struct{ n, sf, sff, sx, sfx, sy, sfy float64 }
+	ps := make([]sums, len(pieces))
 	rx := make([][]float64, frames)
 	ry := make([][]float64, frames)
-	eachStep(pts, func(a, b *tracks.Point) {
-		if a.Frame < 0 || b.Frame >= frames {
-			return
+	rms := make([]float64, len(pieces))
+	tmp := make([]float64, 0, len(pieces))
+	bad := make([]bool, len(pieces))
+	for round := 0; round < commonRounds; round++ {
+		clear(ps)
+		for _, o := range os {
+			s := &ps[o.piece]
+			f := float64(o.f)
+			x, y := o.x-jx[o.f], o.y-jy[o.f]
+			s.n++
+			s.sf += f
+			s.sff += f * f
+			s.sx += x
+			s.sfx += f * x
+			s.sy += y
+			s.sfy += f * y
 		}
-		u, v := (b.XUM-a.XUM)/cal.UMPerPx, (b.YUM-a.YUM)/cal.UMPerPx
-		dx, dy := u*fx+v*ax, u*fy+v*ay
-		px, py, ok := p.Step(a.Frame, (a.YUM+b.YUM)/2)
-		if !ok {
-			return
+		for k, s := range ps {
+			d := s.n*s.sff - s.sf*s.sf
+			if d == 0 {
+				pieces[k] = line{ax: s.sx / s.n, ay: s.sy / s.n}
+				continue
+			}
+			bx := (s.n*s.sfx - s.sf*s.sx) / d
+			by := (s.n*s.sfy - s.sf*s.sy) / d
+			pieces[k] = line{ax: (s.sx - bx*s.sf) / s.n, bx: bx, ay: (s.sy - by*s.sf) / s.n, by: by}
 		}
-		rx[a.Frame] = append(rx[a.Frame], dx-px)
-		ry[a.Frame] = append(ry[a.Frame], dy-py)
-	})
+		if round > 0 {
+			// Leave out the pieces that do not move uniformly.
+			clear(rms)
+			for _, o := range os {
+				l := pieces[o.piece]
+				f := float64(o.f)
+				dx, dy := o.x-jx[o.f]-l.ax-l.bx*f, o.y-jy[o.f]-l.ay-l.by*f
+				rms[o.piece] += dx*dx + dy*dy
+			}
+			for k := range rms {
+				rms[k] = math.Sqrt(rms[k] / math.Max(ps[k].n, 1))
+			}
+			lim := pieceReject * median(append(tmp[:0], rms...))
+			for k := range bad {
+				bad[k] = rms[k] > lim
+			}
+		}
+		for f := range rx {
+			rx[f], ry[f] = rx[f][:0], ry[f][:0]
+		}
+		for _, o := range os {
+			if bad[o.piece] {
+				continue
+			}
+			l := pieces[o.piece]
+			f := float64(o.f)
+			rx[o.f] = append(rx[o.f], o.x-l.ax-l.bx*f)
+			ry[o.f] = append(ry[o.f], o.y-l.ay-l.by*f)
+		}
+		for f := range jx {
+			if len(rx[f]) >= minCommonPoints {
+				jx[f], jy[f] = median(rx[f]), median(ry[f])
+			} else {
+				jx[f], jy[f] = math.NaN(), math.NaN()
+			}
+		}
+		fillGaps(jx)
+		fillGaps(jy)
+		detrend(jx)
+		detrend(jy)
+	}
 	out := make([]Shift, frames)
-	for f := 1; f < frames; f++ {
-		out[f] = out[f-1]
-		if len(rx[f-1]) >= minCommonSteps {
-			out[f].DXPx += median(rx[f-1])
-			out[f].DYPx += median(ry[f-1])
-		}
+	for f := range out {
+		out[f] = Shift{jx[f] - jx[0], jy[f] - jy[0]}
 	}
 	return out, nil
 }
 
-// minCommonSteps is the fewest steps a frame pair needs for its common-mode
-// shift to be measured: with fewer the median is a single tracer's noise.
-const minCommonSteps = 5
+// Settings of CommonModeFromTracks.
+const (
+	// segmentFrames is the length of the pieces of track modelled as
+	// uniform motion. Motion common to all tracks that is smooth over a
+	// piece is absorbed by the pieces' lines, so the pieces are long (half
+	// a second at 100 frames/s); a piece across a change of flow is found by
+	// its residuals and left out (pieceReject).
+	segmentFrames = 50
+	// pieceReject leaves out a piece whose RMS residual exceeds this many
+	// times the median piece's: a tracer that did not move uniformly (start
+	// or stop of shear, a wrong link).
+	pieceReject = 3.0
+	// minPiecePoints is the fewest points of a piece: with three, a line
+	// through them leaves one degree of freedom for the offsets.
+	minPiecePoints = 3
+	// minCommonPoints is the fewest points of a frame for its offset to be
+	// measured: with fewer the median is a single tracer's noise.
+	minCommonPoints = 5
+	// commonRounds is the number of alternations; the fit settles in two
+	// or three.
+	commonRounds = 12
+)
+
+// fillGaps replaces NaN values by linear interpolation between the nearest
+// known ones (held constant at the ends; all zero when none is known).
+func fillGaps(v []float64) {
+	last := -1
+	for i := range v {
+		if math.IsNaN(v[i]) {
+			continue
+		}
+		if last < 0 {
+			for k := 0; k < i; k++ {
+				v[k] = v[i]
+			}
+		} else {
+			for k := last + 1; k < i; k++ {
+				w := float64(k-last) / float64(i-last)
+				v[k] = v[last] + w*(v[i]-v[last])
+			}
+		}
+		last = i
+	}
+	if last < 0 {
+		clear(v)
+		return
+	}
+	for k := last + 1; k < len(v); k++ {
+		v[k] = v[last]
+	}
+}
+
+// detrend subtracts the least-squares line through v (against its index).
+func detrend(v []float64) {
+	n := float64(len(v))
+	if n < 2 {
+		return
+	}
+	var sf, sff, sv, sfv float64
+	for i, x := range v {
+		f := float64(i)
+		sf += f
+		sff += f * f
+		sv += x
+		sfv += f * x
+	}
+	b := (n*sfv - sf*sv) / (n*sff - sf*sf)
+	a := (sv - b*sf) / n
+	for i := range v {
+		v[i] -= a + b*float64(i)
+	}
+}

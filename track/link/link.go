@@ -59,6 +59,10 @@ type Options struct {
 	// CommonMode[f] is the offset of frame f's image relative to frame 0,
 	// px; it is subtracted before linking. Frames past its end use zero.
 	CommonMode []flowprior.Shift
+	// MeasureCommonMode makes Link measure the common-mode motion from the
+	// tracks of its first pass (flowprior.CommonModeFromTracks) and add it
+	// to CommonMode for the final pass. The Linker ignores it.
+	MeasureCommonMode bool
 }
 
 // Tunings of the linker.
@@ -102,6 +106,9 @@ type Stats struct {
 	Conflicts  int     // sub-problems with more than one candidate pair, solved by assignment
 	Largest    int     // most candidate pairs in one sub-problem
 	SearchPx   float64 // search radius used, px
+	// CommonMode is the per-frame image offset removed, px (Link's final
+	// pass; nil when none).
+	CommonMode []flowprior.Shift
 }
 
 // track is an active trajectory.

@@ -17,12 +17,15 @@ const PriorWindowFrames = 50
 // detections alone (flowprior.SeriesFromDetections, windows of
 // PriorWindowFrames), a first linking pass with it, then a prior from those
 // tracks (flowprior.SeriesFromTracks) for the final pass. Without a
-// measurable prior it links on the tracks' own motion only.
+// measurable prior it links on the tracks' own motion only. With
+// MeasureCommonMode, the common-mode motion measured on the first pass's
+// tracks is removed in the final pass; Stats.CommonMode holds what was
+// removed.
 func Link(frames [][]Detection, cal *calib.Calibration, opt Options) ([]tracks.Point, Stats, error) {
 	if _, err := NewLinker(cal, opt); err != nil {
 		return nil, Stats{}, err
 	}
-	if opt.Prior == nil {
+	if opt.Prior == nil || opt.MeasureCommonMode {
 		pts := make([][]flowprior.Point, len(frames))
 		for f, ds := range frames {
 			var sh flowprior.Shift
@@ -34,18 +37,38 @@ func Link(frames [][]Detection, cal *calib.Calibration, opt Options) ([]tracks.P
 				pts[f][i] = flowprior.Point{XPx: d.XPx - sh.DXPx, YPx: d.YPx - sh.DYPx}
 			}
 		}
-		if s, err := flowprior.SeriesFromDetections(pts, cal, flowprior.HistOptions{MaxStepPx: opt.MaxStepPx}, PriorWindowFrames); err == nil {
-			opt.Prior = s
+		built := opt.Prior == nil
+		if built {
+			if s, err := flowprior.SeriesFromDetections(pts, cal, flowprior.HistOptions{MaxStepPx: opt.MaxStepPx}, PriorWindowFrames); err == nil {
+				opt.Prior = s
+			}
 		}
 		first, _, err := linkAll(frames, cal, opt)
 		if err != nil {
 			return nil, Stats{}, err
 		}
-		if s, err := flowprior.SeriesFromTracks(first, cal, flowprior.TrackOptions{}, len(frames), PriorWindowFrames); err == nil {
-			opt.Prior = s
+		if built {
+			if s, err := flowprior.SeriesFromTracks(first, cal, flowprior.TrackOptions{}, len(frames), PriorWindowFrames); err == nil {
+				opt.Prior = s
+			}
+		}
+		if opt.MeasureCommonMode && len(frames) > 0 {
+			cm, err := flowprior.CommonModeFromTracks(first, cal, len(frames))
+			if err != nil {
+				return nil, Stats{}, err
+			}
+			for f := range cm {
+				if f < len(opt.CommonMode) {
+					cm[f].DXPx += opt.CommonMode[f].DXPx
+					cm[f].DYPx += opt.CommonMode[f].DYPx
+				}
+			}
+			opt.CommonMode = cm
 		}
 	}
-	return linkAll(frames, cal, opt)
+	pts, st, err := linkAll(frames, cal, opt)
+	st.CommonMode = opt.CommonMode
+	return pts, st, err
 }
 
 // linkAll runs one Linker over all frames.
