@@ -25,6 +25,9 @@ type Renderer struct {
 	prog  experiment.Program
 	pop   []member
 	img   []float64 // photons of the frame being drawn
+	bg    []float64 // the background for camera shift bgAt, when bgOK
+	bgAt  [2]float64
+	bgOK  bool
 	vig   []float64 // vignetting factor per pixel, nil without vignetting
 	buf   []byte
 	drawn []Tracer
@@ -123,6 +126,18 @@ func (r *Renderer) Render(frame int, dst *gocv.Mat) error {
 // beyond them, their edges and reflection lines, for a camera shifted by
 // (jx, jy) px.
 func (r *Renderer) drawBackground(jx, jy float64) {
+	if !r.bgOK || r.bgAt != [2]float64{jx, jy} {
+		if r.bg == nil {
+			r.bg = make([]float64, len(r.img))
+		}
+		r.fillBackground(r.bg, jx, jy)
+		r.bgAt, r.bgOK = [2]float64{jx, jy}, true
+	}
+	copy(r.img, r.bg)
+}
+
+// fillBackground draws the background into img for a camera shift (jx, jy).
+func (r *Renderer) fillBackground(img []float64, jx, jy float64) {
 	s, g := &r.s, r.g
 	w, h := s.WidthPx, s.HeightPx
 	gapB, plateB := s.BackgroundPhotons, s.Walls.PlatePhotons
@@ -131,7 +146,7 @@ func (r *Renderer) drawBackground(jx, jy float64) {
 	// Stationary wall's point under the gap centre, shifted by the jitter.
 	sx, sy := g.cx-g.gapPx/2*g.nx+jx, g.cy-g.gapPx/2*g.ny+jy
 	for j := range h {
-		row := r.img[j*w : (j+1)*w]
+		row := img[j*w : (j+1)*w]
 		dy := float64(j) - sy
 		for i := range row {
 			// Heights above the stationary wall and below the moving one, px.
@@ -145,10 +160,10 @@ func (r *Renderer) drawBackground(jx, jy float64) {
 				row[i] = plateB
 				continue
 			}
-			c := edgeCoverage(ds, es) + edgeCoverage(dm, es) - 1
-			v := plateB + (gapB-plateB)*c
+			d := min(ds, dm) // the near wall: the other's edge is 1, its line 0
+			v := plateB + (gapB-plateB)*edgeCoverage(d, es)
 			if refl != 0 {
-				v += refl * (lineWeight(ds, rs) + lineWeight(dm, rs))
+				v += refl * lineWeight(d, rs)
 			}
 			row[i] = v
 		}

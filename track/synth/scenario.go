@@ -108,6 +108,9 @@ const (
 	// wrapSlackPx pads the tracers' wrap-around strip beyond the spot box and
 	// the tilt, so that a wrap is never visible.
 	wrapSlackPx = 2.0
+	// minGapDiameters is the narrowest gap rendered, in tracer diameters: the
+	// walls' edges are then drawn independently of each other.
+	minGapDiameters = 4
 	// maxTiltDeg bounds the tilt: the analysis expects walls close to the
 	// image rows.
 	maxTiltDeg = 20.0
@@ -245,6 +248,9 @@ func (s *Scenario) Validate() error {
 	if err := s.Cessation.Validate(s.GapUM()); err != nil {
 		return e("%v", err)
 	}
+	if s.GapPx() < minGapDiameters*s.DiameterPx {
+		return e("the gap of %.1f px is narrower than %d tracer diameters", s.GapPx(), minGapDiameters)
+	}
 	if c := s.centreYPx(); s.GapPx() >= float64(s.HeightPx) || c-s.GapPx()/2 < 0 || c+s.GapPx()/2 > float64(s.HeightPx-1) {
 		return e("the gap of %.1f px centred on row %.1f does not fit into %d rows", s.GapPx(), c, s.HeightPx)
 	}
@@ -318,8 +324,8 @@ func (s *Scenario) Calibration() *calib.Calibration {
 			// Solve cx + u*ex + h*nx = x for u.
 			h := yPx - g.gapPx/2
 			u := (x - g.cx - h*g.nx) / g.ex
-			px, py := g.toImage(u, yPx)
-			l[i] = [2]float64{px, py}
+			_, py := g.toImage(u, yPx)
+			l[i] = [2]float64{x, py} // x exactly, not x plus rounding
 		}
 		return l
 	}
