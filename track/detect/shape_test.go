@@ -1,0 +1,110 @@
+package detect
+
+import (
+	"math"
+	"math/rand/v2"
+	"sort"
+	"testing"
+
+	"gocv.io/x/gocv"
+)
+
+// TestShapeNoise measures size and eccentricity of round spots at several
+// SNRs: the size is unbiased (sqrt(2) times the pixel-integrated sd), and at
+// the SNR from which the eccentricity limit applies, round spots stay well
+// under it.
+func TestShapeNoise(t *testing.T) {
+	const sigmaPx = 1.25
+	sc := scene{w: 168, h: 168, bgPhotons: 100, readNoise: 3, bitDepth: 16, gain: 16}
+	bg := sc.background(t)
+	defer bg.Close()
+	d, err := NewDetector(Options{DiameterPx: 4 * sigmaPx, Polarity: PolarityBright, MinSNR: 3, MaxEccentricity: 1, MaxSizePx: 100})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer d.Close()
+	// A pixel-integrated Gaussian of sd s has variance s^2 + 1/12 per axis.
+	wantSize := math.Sqrt(2 * (sigmaPx*sigmaPx + 1.0/12))
+	t.Logf("%5s %6s %22s %26s", "SNR", "n", "eccentricity 50/99/99.9%", "size px 0.1/50/99.9%")
+	for _, snr := range []float64{5, 10, 30} {
+		rng := rand.New(rand.NewPCG(2, uint64(snr)))
+		var ecc, size []float64
+		for f := 0; f < 20; f++ {
+			spots := gridSpots(sc.w, sc.h, 20, 14, sigmaPx, sc.photonsFor(snr, sigmaPx), rng)
+			img := sc.render(t, spots, rng)
+			dets, err := d.Frame(img, bg, f, nil)
+			img.Close()
+			if err != nil {
+				t.Fatal(err)
+			}
+			for _, de := range dets {
+				ecc = append(ecc, de.Eccentricity)
+				size = append(size, de.SizePx)
+			}
+		}
+		sort.Float64s(ecc)
+		sort.Float64s(size)
+		q := func(v []float64, p float64) float64 { return v[int(p*float64(len(v)-1))] }
+		t.Logf("%5.0f %6d %8.3f %6.3f %6.3f %8.3f %6.3f %6.3f", snr, len(ecc), q(ecc, .5), q(ecc, .99), q(ecc, .999), q(size, .001), q(size, .5), q(size, .999))
+		if m := q(size, .5); math.Abs(m-wantSize) > 0.03*wantSize {
+			t.Errorf("SNR %g: median size %.3f px, want %.3f px within 3%%", snr, m, wantSize)
+		}
+		if snr >= shapeMinSNR && q(ecc, .999) > DefaultMaxEccentricity {
+			t.Errorf("SNR %g: 99.9%% of round spots have eccentricity up to %.3f, above the default limit %g", snr, q(ecc, .999), DefaultMaxEccentricity)
+		}
+		if q(size, .999) > DefaultMaxSizeRatio*wantSize {
+			t.Errorf("SNR %g: 99.9%% of round spots have size up to %.3f px, above the default limit %.3f px", snr, q(size, .999), DefaultMaxSizeRatio*wantSize)
+		}
+	}
+}
+
+// TestRejection shows each rejection rule at work on a bright frame: a blob
+// too large, one too elongated, and two overlapping spots, beside a normal
+// spot that stays.
+func TestRejection(t *testing.T) {
+	const sigmaPx = 1.25
+	sc := scene{w: 120, h: 60, bgPhotons: 20, readNoise: 2, bitDepth: 8, gain: 1}
+	ph := sc.photonsFor(40, sigmaPx)
+	normal := spot{20.3, 30.6, sigmaPx, ph}
+	large := spot{45, 30, 3 * sigmaPx, 9 * ph}
+	// Two spots 2.4 px apart (one maximum below 2 sd) read as one elongated blob.
+	elong := []spot{{68.8, 30, sigmaPx, ph}, {71.2, 30, sigmaPx, ph}}
+	// Two spots 4 px apart: separate maxima closer than the separation.
+	pair := []spot{{92, 28, sigmaPx, ph}, {95, 31, sigmaPx, ph * 0.8}}
+	spots := append([]spot{normal, large}, append(elong, pair...)...)
+	rng := rand.New(rand.NewPCG(3, 3))
+	img := sc.render(t, spots, rng)
+	defer img.Close()
+	bg := sc.background(t)
+	defer bg.Close()
+	for _, tc := range []struct {
+		name string
+		opt  Options
+		want int // detections expected, the normal spot first
+	}{
+		{"all rules", Options{}, 1},
+		{"no size limit", Options{MaxSizePx: 100}, 2},
+		{"no shape limits", Options{MaxSizePx: 100, MaxEccentricity: 1}, 3},
+		{"no limits", Options{MaxSizePx: 100, MaxEccentricity: 1, OverlapRatio: 1e9}, 4},
+	} {
+		opt := tc.opt
+		opt.DiameterPx, opt.Polarity = 4*sigmaPx, PolarityBright
+		d, err := NewDetector(opt)
+		if err != nil {
+			t.Fatal(err)
+		}
+		dets, err := d.Frame(img, bg, 0, nil)
+		d.Close()
+		if err != nil {
+			t.Fatal(err)
+		}
+		if len(dets) != tc.want {
+			t.Errorf("%s: %d detections, want %d: %+v", tc.name, len(dets), tc.want, dets)
+			continue
+		}
+		if m := match([]spot{normal}, dets, 0.2); m[0] < 0 {
+			t.Errorf("%s: the normal spot at (%.1f, %.1f) is missing: %+v", tc.name, normal.x, normal.y, dets)
+		}
+	}
+	_ = gocv.MatTypeCV8U
+}
