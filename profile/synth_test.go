@@ -76,11 +76,3 @@ func analyze(t testing.TB, s *synth.Scenario, seed uint64) *Result {
 	}
 	return r
 }
-
-func TestHomogeneousOneSeed(t *testing.T) {
-	s := plates(1, 0.25, 1.0, 0)
-	r := analyze(t, s, 1)
-	sp := r.ShearPhases[0]
-	t.Logf("noise %.3f um, lag max %d, bulk %.4f (nominal %.4f) slips %.3f %.3f, verdict %s", r.NoiseUM, r.Lag.MaxLag,
-		sp.BulkRatePerS, sp.NominalRatePerS, sp.SlipStationaryUMPerS, sp.SlipMovingUMPerS, sp.Verdict)
-}

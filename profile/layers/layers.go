@@ -56,9 +56,14 @@ type Bin struct {
 	// YUM is the mean height of the layer's samples (NaN when empty): the
 	// place to plot the value, which need not be the layer's centre.
 	YUM float64
-	// Value is the robust mean and Err its bootstrap standard error, in the
-	// unit of Obs.Value; both NaN when the layer has too few samples.
+	// Value is the robust mean at YUM and Err its bootstrap standard error,
+	// in the unit of Obs.Value; both NaN when the layer has too few
+	// samples. The estimate is taken after removing the layer's own
+	// least-squares trend in height, Slope (unit of Value per um), so that
+	// the spread of heights inside the layer neither biases it nor
+	// inflates its error.
 	Value, Err float64
+	Slope      float64
 	N, Groups  int // samples and distinct tracks
 }
 
@@ -129,6 +134,25 @@ func (e *estimator) bin(obs []Obs, o Options, rng *rand.Rand) Bin {
 	}
 	b.YUM = ySum / float64(len(obs))
 	b.Groups = len(e.start)
+	// Remove the layer's own linear trend in y, so that the value belongs
+	// to YUM and its error does not count the spread of heights within
+	// the layer as noise.
+	var syy, syv, sv float64
+	for _, ob := range obs {
+		sv += ob.Value
+	}
+	mv := sv / float64(len(obs))
+	for _, ob := range obs {
+		dy := ob.YUM - b.YUM
+		syy += dy * dy
+		syv += dy * (ob.Value - mv)
+	}
+	if syy > 0 {
+		b.Slope = syv / syy
+		for i, ob := range obs {
+			e.vals[i] -= b.Slope * (ob.YUM - b.YUM)
+		}
+	}
 	if b.N < max(1, o.MinSamples) || b.Groups < max(1, o.MinGroups) {
 		return b
 	}
