@@ -487,3 +487,21 @@ func (s *Scenario) positions(g frameGeom, pop []member, prog experiment.Program,
 	}
 	return out
 }
+
+// Resize changes the image size to widthPx x heightPx and keeps the picture:
+// the gap keeps its share of the image height (the scale in um/px changes
+// with the height), the gap's centre line its relative row, and the number
+// of tracers follows the image area so that their density stays the same.
+func (s *Scenario) Resize(widthPx, heightPx int) {
+	if widthPx <= 0 || heightPx <= 0 || s.WidthPx <= 0 || s.HeightPx <= 0 {
+		s.WidthPx, s.HeightPx = widthPx, heightPx // Validate reports it
+		return
+	}
+	k := float64(heightPx) / float64(s.HeightPx)
+	centre := s.centreYPx()
+	area := float64(widthPx*heightPx) / float64(s.WidthPx*s.HeightPx)
+	s.UMPerPx /= k
+	s.GapCentreYPx = (centre+0.5)*k - 0.5
+	s.Tracers = int(math.Round(float64(s.Tracers) * area))
+	s.WidthPx, s.HeightPx = widthPx, heightPx
+}

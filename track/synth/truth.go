@@ -32,8 +32,10 @@ import (
 //     merged), or one band over the gap; wall_slip is true when either slip
 //     is not zero.
 //
-// After the stop: recovered_strain and max_displacement_um are the values
-// reached at the last frame, onset_after_stop_s the Cessation's onset.
+// Times: the recording lasts Frames/FPS, where the last phase ends;
+// observed_s is that end minus the stop. After the stop, recovered_strain and
+// max_displacement_um are the values reached at the last frame's time
+// ((Frames-1)/FPS), onset_after_stop_s the Cessation's onset.
 type Truth struct {
 	Scenario    string           `json:"scenario"`
 	Description string           `json:"description"`
@@ -169,8 +171,8 @@ func (s *Scenario) afterStopTruth() *summary.AfterStop {
 		return nil
 	}
 	h := s.GapUM()
-	obs := s.lastFrameS() - stop
-	a := &summary.AfterStop{StopS: stop, ObservedS: obs, NoiseFloorUM: summary.Null,
+	obs := s.lastFrameS() - stop // the displacement is seen up to the last frame
+	a := &summary.AfterStop{StopS: stop, ObservedS: s.DurationS() - stop, NoiseFloorUM: summary.Null,
 		MaxDisplacementUM: 0, RecoveredStrain: 0, Verdict: summary.Quiescent,
 		PlaneUM: summary.Null, OnsetAfterStopS: summary.Null}
 	c := s.Cessation

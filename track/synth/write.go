@@ -39,6 +39,8 @@ type Output struct {
 	Format string
 	// BitDepth is 8 or 16 (still frames only); 0 keeps the scenario's.
 	BitDepth int
+	// Progress, when not nil, is called after each frame written.
+	Progress func(done, total int)
 }
 
 // media returns the path, relative to the output folder, of the video or
@@ -78,7 +80,7 @@ func (s *Scenario) Write(dir string, out Output) (*Truth, error) {
 		sc.BitDepth = out.BitDepth
 	}
 	if fourcc != "" && sc.bitDepth() != 8 {
-		return nil, fmt.Errorf("synth: a %s video holds 8-bit frames; use png or tiff for bit depth %d", out.Format, sc.bitDepth())
+		return nil, fmt.Errorf("synth: %s video holds only 8-bit frames; use png or tiff for bit depth %d", out.Format, sc.bitDepth())
 	}
 	r, err := NewRenderer(&sc)
 	if err != nil {
@@ -89,9 +91,9 @@ func (s *Scenario) Write(dir string, out Output) (*Truth, error) {
 	}
 	media := filepath.Join(dir, name)
 	if fourcc != "" {
-		err = r.writeVideo(media, fourcc)
+		err = r.writeVideo(media, fourcc, out.Progress)
 	} else {
-		err = r.writeFrames(media, out.Format)
+		err = r.writeFrames(media, out.Format, out.Progress)
 	}
 	if err != nil {
 		return nil, err
@@ -122,7 +124,7 @@ func (s *Scenario) Write(dir string, out Output) (*Truth, error) {
 	return t, nil
 }
 
-func (r *Renderer) writeVideo(path, fourcc string) error {
+func (r *Renderer) writeVideo(path, fourcc string, progress func(done, total int)) error {
 	s := &r.s
 	w, err := gocv.VideoWriterFile(path, fourcc, s.FPS, s.WidthPx, s.HeightPx, false)
 	if err != nil {
@@ -141,6 +143,9 @@ func (r *Renderer) writeVideo(path, fourcc string) error {
 		if err := w.Write(m); err != nil {
 			return fmt.Errorf("synth: writing frame %d to %s: %w", f, path, err)
 		}
+		if progress != nil {
+			progress(f+1, s.Frames)
+		}
 	}
 	return w.Close()
 }
@@ -150,7 +155,7 @@ func FrameName(frame int, format string) string {
 	return fmt.Sprintf("frame_%05d.%s", frame, format)
 }
 
-func (r *Renderer) writeFrames(dir, format string) error {
+func (r *Renderer) writeFrames(dir, format string, progress func(done, total int)) error {
 	if err := os.MkdirAll(dir, 0o755); err != nil {
 		return err
 	}
@@ -163,6 +168,9 @@ func (r *Renderer) writeFrames(dir, format string) error {
 		p := filepath.Join(dir, FrameName(f, format))
 		if !gocv.IMWrite(p, m) {
 			return fmt.Errorf("synth: OpenCV could not write %s", p)
+		}
+		if progress != nil {
+			progress(f+1, r.s.Frames)
 		}
 	}
 	return nil
