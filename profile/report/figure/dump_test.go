@@ -1,9 +1,12 @@
-package figure
+package figure_test
 
 import (
 	"os"
 	"path/filepath"
 	"testing"
+
+	. "gaptrace/profile/report/figure"
+	"gaptrace/profile/report/internal/scenario"
 )
 
 func TestDump(t *testing.T) {
@@ -11,16 +14,16 @@ func TestDump(t *testing.T) {
 	if dir == "" {
 		t.Skip("FIGDUMP not set")
 	}
-	frame, tracks := demoFrame()
+	frame, tracks := scenario.Frame()
 	defer frame.Close()
 	figs := map[string]func() (*Figure, error){
-		"profile":   func() (*Figure, error) { return ProfilePlot(demoProfile()) },
-		"spacetime": func() (*Figure, error) { return SpaceTimePlot(demoSpaceTime()) },
-		"slip":      func() (*Figure, error) { return SlipPlot(demoSlip()) },
-		"afterstop": func() (*Figure, error) { return AfterStopPlot(demoAfterStop()) },
-		"detection": func() (*Figure, error) { return DetectionPlot(demoDetection()) },
+		"profile":   func() (*Figure, error) { return ProfilePlot(scenario.Profile()) },
+		"spacetime": func() (*Figure, error) { return SpaceTimePlot(scenario.SpaceTime()) },
+		"slip":      func() (*Figure, error) { return SlipPlot(scenario.Slip()) },
+		"afterstop": func() (*Figure, error) { return AfterStopPlot(scenario.AfterStop()) },
+		"detection": func() (*Figure, error) { return DetectionPlot(scenario.Detection()) },
 		"overlay": func() (*Figure, error) {
-			return OverlayPlot(&Overlay{Frame: frame, Calibration: demoCalibration(), Tracks: tracks})
+			return OverlayPlot(&Overlay{Frame: frame, Calibration: scenario.Calibration(), Tracks: tracks})
 		},
 	}
 	for name, f := range figs {

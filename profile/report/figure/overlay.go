@@ -46,7 +46,26 @@ const (
 	axisTicks = 4
 	// tickLenPx is the length of its ticks.
 	tickLenPx = 6
+	// arrowHeadPx is the length of the arrow heads of the gap axes.
+	arrowHeadPx = 8
 )
+
+// arrow draws a line from a to b with a head of length headPx at b.
+func arrow(img *gocv.Mat, a, b image.Point, c color.RGBA, thick, headPx int) {
+	gocv.Line(img, a, b, c, thick)
+	dx, dy := float64(b.X-a.X), float64(b.Y-a.Y)
+	n := math.Hypot(dx, dy)
+	if n == 0 {
+		return
+	}
+	dx, dy = dx/n, dy/n
+	const halfAngle = math.Pi / 7 // about 26 degrees either side of the shaft
+	for _, s := range []float64{-1, 1} {
+		cs, sn := math.Cos(halfAngle), s*math.Sin(halfAngle)
+		hx, hy := -(dx*cs - dy*sn), -(dx*sn + dy*cs)
+		gocv.Line(img, b, image.Pt(b.X+int(math.Round(hx*float64(headPx))), b.Y+int(math.Round(hy*float64(headPx)))), c, thick)
+	}
+}
 
 // trackColours are the Okabe & Ito colours left after the walls' sky blue and
 // orange, in an order that alternates light and dark on a grey frame.
@@ -156,10 +175,11 @@ func DrawOverlay(o *Overlay) (gocv.Mat, error) {
 	oPx, oPy := cal.ToImage(ox, 0)
 	xAxisUM := 0.15 * float64(w) * cal.UMPerPx
 	xe, ye := cal.ToImage(ox+xAxisUM, 0)
-	gocv.ArrowedLine(&out, to(oPx, oPy), to(xe, ye), white, thick)
+	arrow(&out, to(oPx, oPy), to(xe, ye), white, thick, arrowHeadPx*k)
 	text("x", to(xe, ye).Add(image.Pt(4*k, -4*k)), white)
 	tx, ty := cal.ToImage(ox, cal.GapUM)
-	gocv.ArrowedLine(&out, to(oPx, oPy), to(tx, ty), white, thick)
+	arrow(&out, to(oPx, oPy), to(tx, ty), white, thick, arrowHeadPx*k)
+	text("y", to(tx, ty).Add(image.Pt(-14*k, -2*k)), white)
 	for i := 0; i <= axisTicks; i++ {
 		yUM := cal.GapUM * float64(i) / axisTicks
 		ax, ay := cal.ToImage(ox, yUM)
@@ -167,7 +187,7 @@ func DrawOverlay(o *Overlay) (gocv.Mat, error) {
 		gocv.Line(&out, to(ax, ay), to(bx, by), white, thick)
 		lab := strconv.FormatFloat(yUM, 'g', 4, 64)
 		if i == axisTicks {
-			lab += " um = y"
+			lab += " um"
 		}
 		text(lab, to(ax, ay).Add(image.Pt(5*k, 4*k)), white)
 	}
@@ -244,7 +264,11 @@ func (flippedTicks) Ticks(lo, hi float64) []plot.Tick {
 	ts := plot.DefaultTicks{}.Ticks(lo, hi)
 	for i := range ts {
 		if ts[i].Label != "" {
-			ts[i].Label = strconv.FormatFloat(-ts[i].Value, 'g', -1, 64)
+			v := -ts[i].Value
+			if v == 0 {
+				v = 0 // not "-0"
+			}
+			ts[i].Label = strconv.FormatFloat(v, 'g', -1, 64)
 		}
 	}
 	return ts

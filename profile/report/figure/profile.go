@@ -120,6 +120,7 @@ func ProfilePlot(pp *PhaseProfile) (*Figure, error) {
 		}
 		for i := range l.TextStyle {
 			l.TextStyle[i].Font.Size = vg.Points(legendPt)
+			l.TextStyle[i].Font.Variant = sansVariant
 			l.TextStyle[i].XAlign = -0.5
 		}
 		p.Add(l)

@@ -64,12 +64,7 @@ const (
 func newPlot(xLabel, yLabel string) *plot.Plot {
 	p := plot.New()
 	p.X.Label.Text, p.Y.Label.Text = xLabel, yLabel
-	for _, ts := range []*font.Font{&p.X.Label.TextStyle.Font, &p.Y.Label.TextStyle.Font, &p.Title.TextStyle.Font} {
-		ts.Size = vg.Points(labelPt)
-	}
-	p.X.Tick.Label.Font.Size = vg.Points(tickPt)
-	p.Y.Tick.Label.Font.Size = vg.Points(tickPt)
-	p.Legend.TextStyle.Font.Size = vg.Points(legendPt)
+	setFonts(p)
 	p.Legend.ThumbnailWidth = vg.Points(16)
 	p.X.Padding, p.Y.Padding = vg.Points(2), vg.Points(2)
 	p.Legend.Padding = vg.Points(1)
@@ -79,6 +74,21 @@ func newPlot(xLabel, yLabel string) *plot.Plot {
 	g.Vertical.Width, g.Horizontal.Width = vg.Points(0.4), vg.Points(0.4)
 	p.Add(g)
 	return p
+}
+
+// sansVariant is the Liberation variant of all figure text: a sans-serif
+// face reads better than the default serif at 7 to 8 pt.
+const sansVariant = "Sans"
+
+// setFonts gives every text of p the report's face and sizes.
+func setFonts(p *plot.Plot) {
+	for _, f := range []*font.Font{&p.X.Label.TextStyle.Font, &p.Y.Label.TextStyle.Font, &p.Title.TextStyle.Font} {
+		f.Size, f.Variant = vg.Points(labelPt), sansVariant
+	}
+	for _, f := range []*font.Font{&p.X.Tick.Label.Font, &p.Y.Tick.Label.Font} {
+		f.Size, f.Variant = vg.Points(tickPt), sansVariant
+	}
+	p.Legend.TextStyle.Font.Size, p.Legend.TextStyle.Font.Variant = vg.Points(legendPt), sansVariant
 }
 
 // render draws with paint on a canvas of the given size and returns the PNG

@@ -2,12 +2,12 @@ package figure
 
 import (
 	"fmt"
+	"image"
 	"image/color"
 	"math"
 
 	"gonum.org/v1/plot"
 	"gonum.org/v1/plot/plotter"
-	"gonum.org/v1/plot/vg"
 	"gonum.org/v1/plot/vg/draw"
 )
 
@@ -19,6 +19,14 @@ const (
 	LocalVelocity Quantity = iota // velocity along the flow, um/s
 	LocalRate                     // local shear rate dv/dy, 1/s
 )
+
+// Noun names q in words, without its unit.
+func (q Quantity) Noun() string {
+	if q == LocalRate {
+		return "local shear rate"
+	}
+	return "local velocity"
+}
 
 // String returns the axis label of q with its unit.
 func (q Quantity) String() string {
@@ -99,11 +107,45 @@ func evenlySpaced(xs []float64) bool {
 	return true
 }
 
+// Minimum size of the cell image, px: cells are drawn as blocks of whole
+// pixels, so that resampling to the page blurs only their edges.
+const (
+	cellImageMinWPx = 1200
+	cellImageMinHPx = 500
+)
+
+// cellImage paints the map's cells as blocks of pixels, time to the right
+// and height up.
+func cellImage(s *SpaceTime, ramp *Ramp) *image.RGBA {
+	nt, ny := len(s.TS), len(s.YUM)
+	sx, sy := (cellImageMinWPx+nt-1)/nt, (cellImageMinHPx+ny-1)/ny
+	img := image.NewRGBA(image.Rect(0, 0, nt*sx, ny*sy))
+	for i, row := range s.Values {
+		for j, v := range row {
+			c := color.RGBA(noData)
+			if finite(v) {
+				cc, err := ramp.At(v)
+				if err == nil {
+					c = cc.(color.RGBA)
+				}
+			}
+			top := (ny - 1 - j) * sy
+			for y := top; y < top+sy; y++ {
+				off := img.PixOffset(i*sx, y)
+				for x := 0; x < sx; x++ {
+					copy(img.Pix[off+4*x:], []uint8{c.R, c.G, c.B, c.A})
+				}
+			}
+		}
+	}
+	return img
+}
+
 // rampColours is the number of palette steps of the heat map.
 const rampColours = 256
 
 // noData is the colour of unknown cells: white, lighter than every ramp colour.
-var noData = color.White
+var noData = color.RGBA{255, 255, 255, 255}
 
 // colourBarCM is the width given to the colour bar and its label, cm.
 const colourBarCM = 2.3
@@ -123,15 +165,20 @@ func SpaceTimePlot(s *SpaceTime) (*Figure, error) {
 		hi = lo + 1
 	}
 	ramp := NewRamp(lo, hi)
-	hm := plotter.NewHeatMap(g, ramp.Palette(rampColours))
-	hm.Min, hm.Max, hm.NaN = lo, hi, noData
-	hm.Rasterized = g.regular()
-
 	p := newPlot("time t (s)", "height y (µm)")
-	p.Add(hm)
-	t0, t1 := s.TS[0]-(s.TS[1]-s.TS[0])/2, s.TS[len(s.TS)-1]+(s.TS[len(s.TS)-1]-s.TS[len(s.TS)-2])/2
+	nt, ny := len(s.TS), len(s.YUM)
+	t0, t1 := s.TS[0]-(s.TS[1]-s.TS[0])/2, s.TS[nt-1]+(s.TS[nt-1]-s.TS[nt-2])/2
+	y0, y1 := s.YUM[0]-(s.YUM[1]-s.YUM[0])/2, s.YUM[ny-1]+(s.YUM[ny-1]-s.YUM[ny-2])/2
+	if g.regular() {
+		// One image with sharp cell edges; gonum's own raster mode smooths them.
+		p.Add(plotter.NewImage(cellImage(s, ramp), t0, y0, t1, y1))
+	} else {
+		hm := plotter.NewHeatMap(g, ramp.Palette(rampColours))
+		hm.Min, hm.Max, hm.NaN = lo, hi, noData
+		p.Add(hm)
+	}
 	p.X.Min, p.X.Max = t0, t1
-	p.Y.Min, p.Y.Max = 0, s.GapUM
+	p.Y.Min, p.Y.Max = math.Min(0, y0), math.Max(s.GapUM, y1)
 	for _, tb := range s.PhaseBoundariesS {
 		if tb <= t0 || tb >= t1 {
 			continue
@@ -150,8 +197,7 @@ func SpaceTimePlot(s *SpaceTime) (*Figure, error) {
 	bar.Add(cb)
 	bar.HideX()
 	bar.Y.Label.Text = s.Quantity.String()
-	bar.Y.Label.TextStyle.Font.Size = vg.Points(labelPt)
-	bar.Y.Tick.Label.Font.Size = vg.Points(tickPt)
+	setFonts(bar)
 	bar.Y.Padding = 0
 
 	return render(DoubleColumnCM, 6.5, func(dc draw.Canvas) {

@@ -1,0 +1,193 @@
+package report
+
+import (
+	"fmt"
+	"strconv"
+
+	"gaptrace/profile/summary"
+)
+
+// view is what the page template shows, every number already in words.
+type view struct {
+	Name, Tool, YAML string
+	Input            [][2]string
+	Calibration      [][2]string
+	Tracking         [][2]string
+	Findings         []finding
+	Phases           [][]string
+	ShearHead        []string
+	Shear            [][]string
+	Bands            [][]string
+	AfterStop        [][2]string
+	Figures          []numberedFigure
+	NotShown         []string
+	Warnings         []string
+	Cautions         []string
+}
+
+type finding struct {
+	Headline string
+	Lines    []string
+	Plain    bool // homogeneous or quiescent: nothing to flag
+}
+
+type numberedFigure struct {
+	shownFigure
+	Number int
+}
+
+// generalCautions are the limits of the measurement and the safety notes
+// every report carries.
+var generalCautions = []string{
+	"The camera sees one plane near the free edge of the sample. The meniscus, edge effects and edge fracture " +
+		"can make the flow there differ from the flow inside the gap; a profile measured at the edge is not " +
+		"proof of the flow in the bulk of the sample.",
+	"Tracers that leave the focal plane, and motion out of the image plane (secondary flow, sample " +
+		"expulsion), are not measured; they show only as shorter tracks and missing cells.",
+	"The uncertainties are statistical (the scatter of tracer displacements and of whole tracks); errors of " +
+		"the scale, of the wall positions and of the frame timing come on top.",
+	"Laser light sheets and illuminators can injure the eye: follow the laser class of the source, use the " +
+		"eyewear and enclosures it requires, and never look into the beam or its reflections off the tools.",
+	"Rheometer tools rotate with force and the samples may be hot: keep hands, hair and cameras clear of moving " +
+		"parts, and handle heated tools and samples with protection.",
+	"Local rules, the instrument maker's instructions and licensed practice prevail over anything in this report.",
+}
+
+func newView(d *Data, figs []shownFigure, notShown []string) *view {
+	s := d.Summary
+	v := &view{
+		Name:     d.name(),
+		Tool:     s.Tool.Name + " " + s.Tool.Version,
+		YAML:     d.ExperimentYAML,
+		NotShown: notShown,
+		Warnings: s.Warnings,
+		Cautions: append(append([]string{}, d.Cautions...), generalCautions...),
+	}
+	in := s.Input
+	v.Input = [][2]string{
+		{"input", orUnknown(in.Path)},
+		{"frames", strconv.Itoa(in.Frames)},
+		{"frame rate", formatValue(in.FPS, "frames/s")},
+		{"image size", fmt.Sprintf("%d × %d px", in.WidthPx, in.HeightPx)},
+	}
+	if c := s.Calibration; c != nil {
+		v.Calibration = [][2]string{
+			{"scale", formatValue(c.UMPerPx, "µm/px") + " (from the " + scaleSource(c.ScaleSource) + ")"},
+			{"gap", formatValue(c.GapUM, unitLen) + " (" + formatValue(c.GapPx, "px") + " between the walls)"},
+			{"tilt of the walls", formatValue(c.TiltDeg, "°")},
+			{"walls", orUnknown(c.WallSource)},
+			{"stationary wall", linePx(c.StationaryWallPx)},
+			{"moving wall", linePx(c.MovingWallPx)},
+		}
+	}
+	v.Tracking = [][2]string{
+		{"detections", strconv.Itoa(s.Tracking.Detections)},
+		{"tracks", strconv.Itoa(s.Tracking.Tracks)},
+		{"median track length", strconv.Itoa(s.Tracking.MedianTrackFrames) + " frames"},
+	}
+	for i := range s.ShearPhases {
+		sp := &s.ShearPhases[i]
+		h, ls := phaseFindings(i, sp)
+		v.Findings = append(v.Findings, finding{h, ls, sp.Verdict == summary.Homogeneous})
+	}
+	if a := s.AfterStop; a != nil {
+		h, ls := afterStopFindings(a)
+		v.Findings = append(v.Findings, finding{h, ls, a.Verdict == summary.Quiescent})
+	}
+	for _, p := range s.Phases {
+		v.Phases = append(v.Phases, []string{phaseKind(p.Kind), formatTime(p.StartS), formatTime(p.EndS), p.Source})
+	}
+	v.ShearHead = []string{"phase", "time", "analysed", "wall speed (µm/s)", "nominal rate (1/s)", "bulk rate (1/s)",
+		"slip, stationary wall (µm/s)", "slip, moving wall (µm/s)", "slip length, stationary / moving (µm)",
+		"slip share of the motion", "verdict"}
+	for i, sp := range s.ShearPhases {
+		v.Shear = append(v.Shear, []string{
+			strconv.Itoa(i + 1), formatSpan(sp.StartS, sp.EndS), formatSpan(sp.WindowS[0], sp.WindowS[1]),
+			formatValue(num(sp.WallSpeedUMPerS), ""), formatValue(num(sp.NominalRatePerS), ""),
+			formatPM(num(sp.BulkRatePerS), num(sp.BulkRateErrPerS), ""),
+			formatPM(num(sp.SlipStationaryUMPerS), num(sp.SlipStationaryErrUMPerS), ""),
+			formatPM(num(sp.SlipMovingUMPerS), num(sp.SlipMovingErrUMPerS), ""),
+			formatValue(num(sp.SlipLengthStationaryUM), "") + " / " + formatValue(num(sp.SlipLengthMovingUM), ""),
+			formatPercent(num(sp.SlipFraction), num(sp.SlipFractionErr)),
+			verdictWords(sp.Verdict),
+		})
+		for j, b := range sp.Bands {
+			v.Bands = append(v.Bands, []string{strconv.Itoa(i + 1), strconv.Itoa(j + 1),
+				formatValue(num(b.FromUM), ""), formatPM(num(b.ToUM), num(b.ToErrUM), ""),
+				formatPM(num(b.RatePerS), num(b.RateErrPerS), "")})
+		}
+	}
+	if a := s.AfterStop; a != nil {
+		mode := "none"
+		if a.Mode != nil {
+			mode = map[string]string{summary.ModeWall: "slip at a wall", summary.ModeBulk: "failure plane in the sample"}[*a.Mode]
+			if mode == "" {
+				mode = *a.Mode
+			}
+		}
+		v.AfterStop = [][2]string{
+			{"stop", formatTime(a.StopS)},
+			{"observed for", formatTime(a.ObservedS)},
+			{"verdict", a.Verdict},
+			{"kind of motion", mode},
+			{"failure plane height", formatValue(num(a.PlaneUM), unitLen)},
+			{"onset after the stop", formatTime(num(a.OnsetAfterStopS))},
+			{"largest displacement", formatValue(num(a.MaxDisplacementUM), unitLen)},
+			{"noise floor", formatValue(num(a.NoiseFloorUM), unitLen)},
+			{"recovered strain", formatValue(num(a.RecoveredStrain), "")},
+		}
+	}
+	for i, f := range figs {
+		v.Figures = append(v.Figures, numberedFigure{f, i + 1})
+	}
+	return v
+}
+
+func orUnknown(s string) string {
+	if s == "" {
+		return Unknown
+	}
+	return s
+}
+
+func linePx(l [2][2]float64) string {
+	return fmt.Sprintf("(%.1f, %.1f) to (%.1f, %.1f) px", l[0][0], l[0][1], l[1][0], l[1][1])
+}
+
+func scaleSource(s string) string {
+	switch s {
+	case "experiment":
+		return "experiment file"
+	case "gap":
+		return "gap over the wall distance in pixels"
+	case "target":
+		return "calibration target"
+	}
+	return orUnknown(s) + " source"
+}
+
+func phaseKind(k string) string {
+	switch k {
+	case summary.Rest:
+		return "rest"
+	case summary.Shear:
+		return "shear"
+	case summary.AfterStopKind:
+		return "after the stop"
+	}
+	return k
+}
+
+func verdictWords(v string) string {
+	switch v {
+	case summary.Homogeneous:
+		return "homogeneous"
+	case summary.WallSlip:
+		return "wall slip"
+	case summary.Banded:
+		return "shear bands"
+	case summary.WallSlipBanded:
+		return "wall slip and shear bands"
+	}
+	return orUnknown(v)
+}

@@ -1,0 +1,173 @@
+package report
+
+import (
+	"bytes"
+	"encoding/base64"
+	"fmt"
+	"html/template"
+	"os"
+	"path/filepath"
+
+	"gaptrace/profile/report/figure"
+	"gaptrace/profile/summary"
+)
+
+// FileName is the name of the report page in the output folder.
+const FileName = "report.html"
+
+// Figure file stems; each is written as stem.png and stem.svg.
+const (
+	profileStem   = "figure_profile_" // + shear phase number
+	spaceTimeStem = "figure_space_time"
+	slipStem      = "figure_slip"
+	afterStopStem = "figure_after_stop"
+	frameStem     = "figure_frame"
+	detectionStem = "figure_detection"
+)
+
+// shownFigure is a rendered figure with its place in the report.
+type shownFigure struct {
+	Stem    string
+	Title   string
+	Caption string
+	Wide    bool // across both columns
+	fig     *figure.Figure
+}
+
+// DataURI is the PNG as a data: URI for the page.
+func (f shownFigure) DataURI() template.URL {
+	// A data URI of our own PNG bytes: safe by construction.
+	return template.URL("data:image/png;base64," + base64.StdEncoding.EncodeToString(f.fig.PNG))
+}
+
+// Write renders the figures of d and the report page into dir, which must
+// exist: each figure as PNG and SVG, then report.html with the figures
+// embedded. Every file is written under a temporary name and renamed when
+// complete. It returns the names of the files written, relative to dir,
+// report.html last.
+func Write(dir string, d *Data) ([]string, error) {
+	if err := d.check(); err != nil {
+		return nil, err
+	}
+	if st, err := os.Stat(dir); err != nil {
+		return nil, fmt.Errorf("report: output folder: %w", err)
+	} else if !st.IsDir() {
+		return nil, fmt.Errorf("report: output %q is not a folder", dir)
+	}
+	figs, notShown, err := renderFigures(d)
+	if err != nil {
+		return nil, err
+	}
+	var names []string
+	for _, f := range figs {
+		for _, part := range []struct {
+			ext string
+			b   []byte
+		}{{".png", f.fig.PNG}, {".svg", f.fig.SVG}} {
+			name := f.Stem + part.ext
+			if err := summary.WriteFileAtomic(filepath.Join(dir, name), part.b); err != nil {
+				return names, fmt.Errorf("report: %w", err)
+			}
+			names = append(names, name)
+		}
+	}
+	page, err := renderPage(d, figs, notShown)
+	if err != nil {
+		return names, err
+	}
+	if err := summary.WriteFileAtomic(filepath.Join(dir, FileName), page); err != nil {
+		return names, fmt.Errorf("report: %w", err)
+	}
+	return append(names, FileName), nil
+}
+
+// renderFigures draws every figure d has data for, numbered in report
+// order, and lists the figures left out for want of data.
+func renderFigures(d *Data) (figs []shownFigure, notShown []string, err error) {
+	s := d.Summary
+	add := func(stem, title, caption string, wide bool, draw func() (*figure.Figure, error)) error {
+		f, err := draw()
+		if err != nil {
+			return fmt.Errorf("report: %s: %w", title, err)
+		}
+		figs = append(figs, shownFigure{Stem: stem, Title: title, Caption: caption, Wide: wide, fig: f})
+		return nil
+	}
+	for i := range s.ShearPhases {
+		title := fmt.Sprintf("Velocity profile, shear phase %d", i+1)
+		if i >= len(d.Profiles) || d.Profiles[i] == nil {
+			notShown = append(notShown, title)
+			continue
+		}
+		sp, pp := &s.ShearPhases[i], d.Profiles[i]
+		caption := fmt.Sprintf("Steady velocity across the gap in shear phase %d, averaged over %s: velocity v over the "+
+			"wall speed V = %s against the height y over the gap H = %s (y = 0 at the stationary wall). Points: mean "+
+			"of each gap bin, bars one standard error; dashed line: the fitted profile (slip at each wall plus a "+
+			"uniform rate in each band); dotted line: the profile without slip; thick lines: the walls.",
+			i+1, formatSpan(sp.WindowS[0], sp.WindowS[1]), formatValue(pp.WallSpeedUMPerS, unitSpeed), formatValue(pp.GapUM, unitLen))
+		if len(pp.Bands) > 1 {
+			caption += " Shading: the shear bands, each labelled with its local rate."
+		}
+		if err := add(fmt.Sprintf("%s%d", profileStem, i+1), title, caption, false,
+			func() (*figure.Figure, error) { return figure.ProfilePlot(pp) }); err != nil {
+			return nil, nil, err
+		}
+	}
+	type optional struct {
+		have        bool
+		stem, title string
+		caption     func() string
+		wide        bool
+		draw        func() (*figure.Figure, error)
+	}
+	for _, o := range []optional{
+		{d.SpaceTime != nil, spaceTimeStem, "Space-time map", func() string {
+			return fmt.Sprintf("The %s across the gap through the whole run, from the stationary wall (y = 0) to the "+
+				"moving wall; each cell is one time window and gap bin, white cells had no tracers. Dashed lines: "+
+				"changes of the imposed motion.", d.SpaceTime.Quantity.Noun())
+		}, true, func() (*figure.Figure, error) { return figure.SpaceTimePlot(d.SpaceTime) }},
+		{d.Slip != nil && len(d.Slip.Points) > 0, slipStem, "Wall slip and bulk rate", func() string {
+			return "Top: slip velocity at the stationary wall (fluid speed there) and at the moving wall (wall speed " +
+				"minus fluid speed there) in each time window, bars one standard error. Bottom: shear rate of the bulk " +
+				"and the nominal rate of the imposed motion. Dashed lines: changes of the imposed motion."
+		}, false, func() (*figure.Figure, error) { return figure.SlipPlot(d.Slip) }},
+		{d.AfterStop != nil && len(d.AfterStop.Profiles) > 0, afterStopStem, "Displacement after the stop", func() string {
+			c := "Displacement along the flow since cessation against the height in the gap, at several times after " +
+				"the stop (legend), bars one standard error; lines: the fitted model of elastic recovery (a uniform " +
+				"strain) plus a jump; grey strip: the noise floor."
+			if known(d.AfterStop.PlaneUM) {
+				c += fmt.Sprintf(" Dash-dotted line: the failure plane at %s.", formatValue(d.AfterStop.PlaneUM, unitLen))
+			}
+			return c
+		}, false, func() (*figure.Figure, error) { return figure.AfterStopPlot(d.AfterStop) }},
+		{d.Overlay != nil, frameStem, "Frame with walls, gap axes and tracks", func() string {
+			return fmt.Sprintf("The frame at %s with the walls found by the calibration, the gap axes (x along the "+
+				"flow, y across the gap, ticks in µm), a scale bar, and the tracks of %s drawn over it (dot: the "+
+				"latest position).", formatTime(d.OverlayFrameS), formatSpan(d.OverlayWindowS[0], d.OverlayWindowS[1]))
+		}, true, func() (*figure.Figure, error) { return figure.OverlayPlot(d.Overlay) }},
+		{d.Detection != nil, detectionStem, "Detection diagnostics", func() string {
+			return fmt.Sprintf("Left: signal-to-noise ratio of the %d detections (dashed: the acceptance threshold). "+
+				"Right: the fractional part of the tracer centres in x and y, share of detections per bin; a flat "+
+				"histogram (dotted) means no pull towards whole pixels (pixel locking).", len(d.Detection.SNR))
+		}, true, func() (*figure.Figure, error) { return figure.DetectionPlot(d.Detection) }},
+	} {
+		if !o.have {
+			notShown = append(notShown, o.title)
+			continue
+		}
+		if err := add(o.stem, o.title, o.caption(), o.wide, o.draw); err != nil {
+			return nil, nil, err
+		}
+	}
+	return figs, notShown, nil
+}
+
+// renderPage renders report.html for d with the given rendered figures.
+func renderPage(d *Data, figs []shownFigure, notShown []string) ([]byte, error) {
+	v := newView(d, figs, notShown)
+	var b bytes.Buffer
+	if err := pageTemplate.Execute(&b, v); err != nil {
+		return nil, fmt.Errorf("report: page: %w", err)
+	}
+	return b.Bytes(), nil
+}
