@@ -147,6 +147,10 @@ const maxHistCells = 1 << 20
 // which holds the spread of two noisy localizations and a pixel of jitter.
 const peakHalfWidth = 4
 
+// centroidRounds is the number of mean-shift steps of histPeak; the window
+// moves by under a bin after two.
+const centroidRounds = 4
+
 // histPeak finds the peak of a displacement histogram, smoothed over three
 // bins, and refines it by the background-subtracted centroid of the window
 // around it. It returns the displacement, the number of pairs above the
@@ -175,15 +179,28 @@ func histPeak(h []float64, half int, resPx float64) (alongPx float64, n int, ok 
 	if best-3*bg < peakSigmas*math.Sqrt(3*bg+1) {
 		return 0, 0, false
 	}
+	// Mean shift: recentre the window on its centroid until it settles, so
+	// that a peak broadened by the shear across the bin is not cut on one
+	// side.
+	c := float64(bi)
 	var sw, swx float64
-	for i := max(bi-peakHalfWidth, 0); i <= min(bi+peakHalfWidth, len(h)-1); i++ {
-		w := h[i] - bg
-		if w <= 0 {
-			continue
+	for it := 0; it < centroidRounds; it++ {
+		sw, swx = 0, 0
+		lo, hi := int(math.Round(c))-peakHalfWidth, int(math.Round(c))+peakHalfWidth
+		for i := max(lo, 0); i <= min(hi, len(h)-1); i++ {
+			w := h[i] - bg
+			if w <= 0 {
+				continue
+			}
+			sw += w
+			swx += w * float64(i)
 		}
-		sw += w
-		swx += w * float64(i-half)
+		if sw == 0 {
+			return 0, 0, false
+		}
+		c = swx / sw
 	}
+	swx = (c - float64(half)) * sw
 	return swx / sw * resPx, int(math.Round(sw)), true
 }
 

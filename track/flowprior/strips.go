@@ -22,6 +22,15 @@ type StripOptions struct {
 	// MinResponse is the smallest phase-correlation peak accepted as a
 	// measurement. Zero means DefaultMinResponse.
 	MinResponse float64
+	// MaxStepPx rejects a strip shift longer than this, px. Zero means no
+	// bound beyond the strip's own size.
+	MaxStepPx float64
+	// BackgroundPx is the sd of the Gaussian blur whose result is
+	// subtracted from each frame before correlating, px, so that the
+	// illumination and the static background (which do not move) do not pull
+	// the shift towards zero. Zero means DefaultBackgroundPx; negative means
+	// none.
+	BackgroundPx float64
 }
 
 // Defaults of StripOptions.
@@ -30,11 +39,20 @@ const (
 	// in most frames, short enough that the shear across one strip is a
 	// small part of the profile (common practice).
 	DefaultStripPx = 16
-	// DefaultMinResponse rejects the correlation of a strip without tracers,
-	// whose peak is the noise floor of the normalized cross-power spectrum
-	// (well under 0.05 for a strip of a few thousand pixels; common
-	// practice).
-	DefaultMinResponse = 0.05
+	// DefaultMinResponse rejects the correlation of a strip whose peak does
+	// not stand out: a strip with tracers gives a response of 0.6 to 1.1 on
+	// the scenarios of package synth, a strip whose peak is a chance
+	// alignment of noise or of a lone tracer 0.05 to 0.25 (measured there,
+	// not a general rule).
+	DefaultMinResponse = 0.3
+	// DefaultBackgroundPx is a few tracer diameters of 5 px: the blur keeps
+	// the illumination and removes the tracers (common practice for a
+	// background estimate).
+	DefaultBackgroundPx = 8.0
+	// minKnownFraction is the fraction of frame pairs a strip must have
+	// correlated in to be known; fewer, and its median is a few chance
+	// peaks.
+	minKnownFraction = 0.25
 )
 
 // wallMarginPx keeps strips this far from the walls, beyond their tilt, so
@@ -59,6 +77,7 @@ type StripEstimator struct {
 	yUM    []float64
 	win    gocv.Mat
 	fa, fb gocv.Mat
+	bg     gocv.Mat
 	dx, dy [][]float64 // per pair, per strip; NaN when rejected
 	closed bool
 }
@@ -79,6 +98,12 @@ func NewStripEstimator(cal *calib.Calibration, widthPx, heightPx int, opt StripO
 	}
 	if opt.MinResponse == 0 {
 		opt.MinResponse = DefaultMinResponse
+	}
+	if opt.BackgroundPx == 0 {
+		opt.BackgroundPx = DefaultBackgroundPx
+	}
+	if opt.MaxStepPx < 0 || math.IsNaN(opt.MaxStepPx) {
+		return nil, fmt.Errorf("flowprior: MaxStepPx must not be negative, got %g px", opt.MaxStepPx)
 	}
 	if opt.StripPx < 4 || opt.StripPx > heightPx || opt.StrideRows < 1 {
 		return nil, fmt.Errorf("flowprior: strip of %d rows every %d rows does not fit a frame %d rows high", opt.StripPx, opt.StrideRows, heightPx)
@@ -115,7 +140,7 @@ func NewStripEstimator(cal *calib.Calibration, widthPx, heightPx int, opt StripO
 		return nil, err
 	}
 	e.win = win
-	e.fa, e.fb = gocv.NewMat(), gocv.NewMat()
+	e.fa, e.fb, e.bg = gocv.NewMat(), gocv.NewMat(), gocv.NewMat()
 	return e, nil
 }
 
@@ -152,8 +177,8 @@ func (e *StripEstimator) Add(prev, next gocv.Mat) error {
 			return fmt.Errorf("flowprior: frame is %dx%d with %d channels, want %dx%d grey", m.Cols(), m.Rows(), m.Channels(), e.w, e.h)
 		}
 	}
-	prev.ConvertTo(&e.fa, gocv.MatTypeCV32F)
-	next.ConvertTo(&e.fb, gocv.MatTypeCV32F)
+	e.prepare(prev, &e.fa)
+	e.prepare(next, &e.fb)
 	dx := make([]float64, len(e.tops))
 	dy := make([]float64, len(e.tops))
 	for s, t := range e.tops {
@@ -162,7 +187,8 @@ func (e *StripEstimator) Add(prev, next gocv.Mat) error {
 		sh, resp := gocv.PhaseCorrelate(a, b, e.win)
 		a.Close()
 		b.Close()
-		if resp < e.opt.MinResponse || math.IsNaN(resp) {
+		tooFar := e.opt.MaxStepPx > 0 && math.Hypot(float64(sh.X), float64(sh.Y)) > e.opt.MaxStepPx
+		if resp < e.opt.MinResponse || math.IsNaN(resp) || tooFar {
 			dx[s], dy[s] = math.NaN(), math.NaN()
 			continue
 		}
@@ -173,6 +199,16 @@ func (e *StripEstimator) Add(prev, next gocv.Mat) error {
 	return nil
 }
 
+// prepare converts a frame to float and subtracts its blurred background.
+func (e *StripEstimator) prepare(src gocv.Mat, dst *gocv.Mat) {
+	src.ConvertTo(dst, gocv.MatTypeCV32F)
+	if e.opt.BackgroundPx < 0 {
+		return
+	}
+	gocv.GaussianBlur(*dst, &e.bg, image.Point{}, e.opt.BackgroundPx, e.opt.BackgroundPx, gocv.BorderReflect101)
+	gocv.Subtract(*dst, e.bg, dst)
+}
+
 // polishRounds is the number of median-polish sweeps; the fit settles in two
 // or three (Tukey, 1977).
 const polishRounds = 4
@@ -180,7 +216,7 @@ const polishRounds = 4
 // Result combines the measurements into a Profile, one bin per strip, and
 // the common-mode offsets of frames 0..Pairs() relative to frame 0, px.
 // The common mode is the part of the motion shared by all strips that changes
-// from pair to pair; its median over pairs is zero, so a steady drift stays in
+// from pair to pair; its linear trend is removed, so a steady drift stays in
 // the profile.
 func (e *StripEstimator) Result() (*Profile, []Shift, error) {
 	np, ns := len(e.dx), len(e.tops)
@@ -205,16 +241,27 @@ func (e *StripEstimator) Result() (*Profile, []Shift, error) {
 		}
 		p.N[s] = len(res)
 		_, p.SpreadPx[s] = medianSpread(res)
-		if len(res) == 0 {
+		if float64(len(res)) < minKnownFraction*float64(np) {
+			p.N[s] = 0
+		}
+		if p.N[s] == 0 {
 			p.DXPx[s], p.DYPx[s] = 0, 0
 		}
 	}
 	if p.Known() == 0 {
 		return nil, nil, fmt.Errorf("flowprior: no strip correlated above response %g in %d frame pairs", e.opt.MinResponse, np)
 	}
-	cm := make([]Shift, np+1)
+	// Offsets: the running sum of the pairs' shifts, without its linear
+	// trend (a steady drift looks like flow and stays in the profile).
+	ox, oy := make([]float64, np+1), make([]float64, np+1)
 	for q := 0; q < np; q++ {
-		cm[q+1] = Shift{cm[q].DXPx + jx[q], cm[q].DYPx + jy[q]}
+		ox[q+1], oy[q+1] = ox[q]+jx[q], oy[q]+jy[q]
+	}
+	detrend(ox)
+	detrend(oy)
+	cm := make([]Shift, np+1)
+	for f := range cm {
+		cm[f] = Shift{ox[f] - ox[0], oy[f] - oy[0]}
 	}
 	return p, cm, nil
 }
@@ -274,5 +321,6 @@ func (e *StripEstimator) Close() error {
 	e.win.Close()
 	e.fa.Close()
 	e.fb.Close()
+	e.bg.Close()
 	return nil
 }
