@@ -252,5 +252,5 @@ func (c Cessation) Displacement(yUM, gapUM, tAfterS float64) float64 {
 	if anchoredAbove {
 		return g * (gapUM - yUM)
 	}
-	return -g * yUM
+	return 0 - g*yUM // +0, not -0, at the stationary wall
 }

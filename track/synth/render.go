@@ -39,6 +39,7 @@ func NewRenderer(s *Scenario) (*Renderer, error) {
 		return nil, err
 	}
 	r := &Renderer{s: *s, g: s.geom(), prog: s.Program()}
+	r.s.r = nil
 	r.s.Motion = append([]experiment.Segment(nil), s.Motion...)
 	r.s.Profile.Bands = append([]Band(nil), s.Profile.Bands...)
 	r.pop = s.population(r.g)

@@ -203,3 +203,48 @@ func BenchmarkRender640x480x500(b *testing.B) {
 	}
 	b.ReportMetric(float64(b.N)/b.Elapsed().Seconds(), "frames/s")
 }
+
+// TestVignetting checks the fall-off: the corner pixel, on a plate, is at
+// PlatePhotons x (1 - Vignetting), the centre of the plate rows untouched
+// in the middle column.
+func TestVignetting(t *testing.T) {
+	s := mustBuiltin(t, "homogeneous", 1)
+	s.Tracers = 0
+	r, err := NewRenderer(s)
+	if err != nil {
+		t.Fatal(err)
+	}
+	img := r.Expected(0)
+	w, h := s.WidthPx, s.HeightPx
+	for _, p := range [][2]int{{0, 0}, {w - 1, 0}, {0, h - 1}, {w - 1, h - 1}} {
+		if got, want := img[p[1]*w+p[0]], s.Walls.PlatePhotons*(1-s.Vignetting); math.Abs(got-want) > 1e-9 {
+			t.Errorf("corner %v: %g photons, want %g", p, got, want)
+		}
+	}
+	mid := h/2*w + (w-1)/2 // next to the image centre, in the gap
+	want := s.BackgroundPhotons * s.vignettingAt(float64((w-1)/2), float64(h/2))
+	if got := img[mid]; math.Abs(got-want) > 1e-9 || want < s.BackgroundPhotons*0.999 {
+		t.Errorf("centre: %g photons, want %g", got, want)
+	}
+}
+
+// BenchmarkRenderJitter640x480x500 is BenchmarkRender640x480x500 with camera
+// jitter, which redraws the walls every frame.
+func BenchmarkRenderJitter640x480x500(b *testing.B) {
+	s := mustBuiltin(b, "banded2", 1)
+	s.Tracers = 500
+	s.JitterPx = 0.3
+	r, err := NewRenderer(s)
+	if err != nil {
+		b.Fatal(err)
+	}
+	m := gocv.NewMat()
+	defer m.Close()
+	b.ResetTimer()
+	for i := 0; b.Loop(); i++ {
+		if err := r.Render(i%s.Frames, &m); err != nil {
+			b.Fatal(err)
+		}
+	}
+	b.ReportMetric(float64(b.N)/b.Elapsed().Seconds(), "frames/s")
+}

@@ -273,3 +273,97 @@ func TestJitterAndDrop(t *testing.T) {
 		t.Errorf("kept %.4f of the tracers with drop fraction 0.2, want 0.8 within %.4f", frac, tol)
 	}
 }
+
+// TestStepAndCouetteDisplacement checks two more flows against formulas
+// written out here: a step strain of 0.5 moves the layer at y by 0.5 y
+// between plates; a Couette cell moves it by the concentric-cylinder
+// profile (geometry.Reference, Bird, Stewart & Lightfoot 2002, ex. 3.6-3)
+// times the wall speed and the time sheared.
+func TestStepAndCouetteDisplacement(t *testing.T) {
+	step := mustBuiltin(t, "step-quiescent", 2)
+	cou := mustBuiltin(t, "couette", 2)
+	vc := cou.Geometry.WallSpeed(1)
+	for _, c := range []struct {
+		s      *Scenario
+		f0, f1 int
+		want   func(yUM float64) float64
+	}{
+		{step, 40, 120, func(y float64) float64 { return 0.5 * y }}, // 0.2 s to 0.6 s spans the step
+		{cou, 60, 110, func(y float64) float64 { return cou.Geometry.Reference(y, vc) * 0.5 }},
+	} {
+		periodUM := c.s.geom().periodPx * c.s.UMPerPx
+		a, b := byID(c.s.Positions(c.f0)), byID(c.s.Positions(c.f1))
+		n := 0
+		for id, p := range a {
+			q, ok := b[id]
+			if !ok {
+				continue
+			}
+			d := q.XUM - p.XUM - c.want(p.YUM)
+			d -= periodUM * math.Round(d/periodUM)
+			if math.Abs(d) > 1e-6 {
+				t.Fatalf("%s: tracer %d at y = %.1f um moved %.4f um, want %.4f", c.s.Name, id, p.YUM, q.XUM-p.XUM, c.want(p.YUM))
+			}
+			n++
+		}
+		if n < c.s.Tracers/2 {
+			t.Errorf("%s: only %d tracers compared", c.s.Name, n)
+		}
+	}
+}
+
+// TestPopulation checks the drawn tracers' statistics against the
+// scenario: the out-of-focus fraction (binomial sd), and the in-focus
+// photons' mean and relative sd (log-normal with mean Photons; the sd of
+// the sample mean is sd/sqrt(n), of the sample sd about sd/sqrt(2n)).
+func TestPopulation(t *testing.T) {
+	s := mustBuiltin(t, "homogeneous", 6)
+	s.Tracers = 20000
+	s.BrightnessSpread = 0.3
+	pop := s.population(s.geom())
+	var oof int
+	var in []float64
+	for _, m := range pop {
+		if !m.inFocus {
+			oof++
+			if m.sigmaPx != s.SigmaPx()*defaultOutOfFocusBlur {
+				t.Fatalf("out-of-focus sigma %g", m.sigmaPx)
+			}
+			continue
+		}
+		in = append(in, m.photons)
+	}
+	n := float64(len(pop))
+	if frac, tol := float64(oof)/n, 5*math.Sqrt(0.1*0.9/n); math.Abs(frac-0.1) > tol {
+		t.Errorf("out-of-focus fraction %.4f, want 0.1 within %.4f", frac, tol)
+	}
+	var mean, v float64
+	for _, p := range in {
+		mean += p
+	}
+	mean /= float64(len(in))
+	for _, p := range in {
+		v += (p - mean) * (p - mean)
+	}
+	sd := math.Sqrt(v/float64(len(in)-1)) / mean
+	// Log-normal: relative sd sqrt(exp(s^2) - 1) for log-sd s (from memory).
+	wantSD := math.Sqrt(math.Exp(0.09) - 1)
+	if tol := 5 * wantSD / math.Sqrt(float64(len(in))); math.Abs(mean/s.Photons-1) > tol {
+		t.Errorf("mean photons %.1f, want %g within %.1f%%", mean, s.Photons, 100*tol)
+	}
+	if tol := 5 * wantSD / math.Sqrt(2*float64(len(in))) * 2; math.Abs(sd-wantSD) > tol {
+		t.Errorf("relative sd of photons %.4f, want %.4f within %.4f", sd, wantSD, tol)
+	}
+}
+
+func TestResize(t *testing.T) {
+	s := mustBuiltin(t, "homogeneous", 1)
+	gapShare := s.GapPx() / float64(s.HeightPx)
+	s.Resize(1280, 960)
+	if err := s.Validate(); err != nil {
+		t.Fatal(err)
+	}
+	if got := s.GapPx() / float64(s.HeightPx); math.Abs(got-gapShare) > 1e-12 || s.UMPerPx != 1 || s.Tracers != 1600 {
+		t.Errorf("after Resize: gap share %g (want %g), %g um/px, %d tracers", got, gapShare, s.UMPerPx, s.Tracers)
+	}
+}
