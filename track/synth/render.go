@@ -86,6 +86,11 @@ func (r *Renderer) Expected(frame int) []float64 {
 	return r.img
 }
 
+// Drawn returns the tracers drawn into the last frame: those of Positions
+// plus the ones just outside the image whose spots reach into it. The slice
+// is overwritten by the next frame.
+func (r *Renderer) Drawn() []Tracer { return r.drawn }
+
 // Photons draws the noisy photon image of a frame: Expected plus shot and
 // read noise drawn from the frame's own random stream. The slice is the
 // renderer's buffer, overwritten by the next call.

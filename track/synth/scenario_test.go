@@ -92,9 +92,14 @@ func byID(ts []Tracer) map[int]Tracer {
 // the flow written out independently here: v = V * v/V(y) during shear,
 // with V = nominal rate x gap between plates.
 func TestPositionsFollowFlow(t *testing.T) {
-	for _, name := range []string{"homogeneous", "slip", "banded2", "banded3"} {
+	for _, name := range []string{"homogeneous", "slip", "banded2", "banded3", "banded3-reversed"} {
 		t.Run(name, func(t *testing.T) {
-			s := mustBuiltin(t, name, 5)
+			s := mustBuiltin(t, strings.TrimSuffix(name, "-reversed"), 5)
+			if strings.HasSuffix(name, "-reversed") {
+				// Moving wall at the bottom travelling to -x in the image: gap
+				// x still points the way the moving wall goes.
+				s.MovingSide, s.FlowSign, s.TiltDeg = "bottom", -1, -2
+			}
 			h := s.GapUM()
 			vWall := 1.0 * h // every one of these shears at a nominal 1/s
 			periodUM := s.geom().periodPx * s.UMPerPx

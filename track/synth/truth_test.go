@@ -136,3 +136,20 @@ func TestTruthValues(t *testing.T) {
 		t.Errorf("couette scenario has geometry %q", s.Geometry.Kind)
 	}
 }
+
+// TestTruthAtRest checks the truth of a recording without motion: one rest
+// phase, no shear phase, no after-stop part, and tracers that stay put.
+func TestTruthAtRest(t *testing.T) {
+	s := mustBuiltin(t, "homogeneous", 1)
+	s.Motion = nil
+	sum := s.Truth().Summary
+	if len(sum.Phases) != 1 || sum.Phases[0].Kind != summary.Rest || len(sum.ShearPhases) != 0 || sum.AfterStop != nil {
+		t.Errorf("at rest: phases %+v, %d shear phases, after stop %+v", sum.Phases, len(sum.ShearPhases), sum.AfterStop)
+	}
+	a, b := byID(s.Positions(0)), byID(s.Positions(s.Frames-1))
+	for id, p := range a {
+		if q, ok := b[id]; ok && (q.XPx != p.XPx || q.YPx != p.YPx) {
+			t.Fatalf("tracer %d moved at rest from (%g, %g) to (%g, %g)", id, p.XPx, p.YPx, q.XPx, q.YPx)
+		}
+	}
+}
