@@ -142,14 +142,19 @@ func FromDetections(frames [][]Point, cal *calib.Calibration, opt HistOptions) (
 // maxHistCells bounds the displacement histogram's memory (8 MB).
 const maxHistCells = 1 << 20
 
-// peakHalfWidth is the half-width, in histogram bins, of the window around
-// the peak whose centroid refines it: with quarter-pixel bins it spans ±1 px,
-// which holds the spread of two noisy localizations and a pixel of jitter.
+// peakHalfWidth is the half-width, in histogram bins, of the window kept
+// out of the background estimate around the peak (±1 px at quarter-pixel
+// bins: the spread of two noisy localizations and a pixel of jitter).
 const peakHalfWidth = 4
 
-// centroidRounds is the number of mean-shift steps of histPeak; the window
-// moves by under a bin after two.
-const centroidRounds = 4
+// peakEdgeFraction is where the peak ends: where the counts over the
+// background fall below this fraction of the peak's. A fifth keeps the
+// shoulders of a peak broadened by shear and drops the background's noise.
+const peakEdgeFraction = 0.2
+
+// peakPadBins widens the peak's extent by this many bins on each side for
+// the centroid, so that its tails below the edge count too.
+const peakPadBins = 2
 
 // histPeak finds the peak of a displacement histogram, smoothed over three
 // bins, and refines it by the background-subtracted centroid of the window
@@ -179,28 +184,30 @@ func histPeak(h []float64, half int, resPx float64) (alongPx float64, n int, ok 
 	if best-3*bg < peakSigmas*math.Sqrt(3*bg+1) {
 		return 0, 0, false
 	}
-	// Mean shift: recentre the window on its centroid until it settles, so
-	// that a peak broadened by the shear across the bin is not cut on one
-	// side.
-	c := float64(bi)
-	var sw, swx float64
-	for it := 0; it < centroidRounds; it++ {
-		sw, swx = 0, 0
-		lo, hi := int(math.Round(c))-peakHalfWidth, int(math.Round(c))+peakHalfWidth
-		for i := max(lo, 0); i <= min(hi, len(h)-1); i++ {
-			w := h[i] - bg
-			if w <= 0 {
-				continue
-			}
-			sw += w
-			swx += w * float64(i)
-		}
-		if sw == 0 {
-			return 0, 0, false
-		}
-		c = swx / sw
+	// The peak's extent: from its top outwards while the counts stay above
+	// a fraction of its height over the background (allowing single-bin
+	// dips), so that a peak broadened by the shear across a coarse gap bin
+	// is taken whole, then its background-subtracted centroid.
+	top := h[bi] - bg
+	lim := peakEdgeFraction * top
+	lo, hi := bi, bi
+	for lo > 0 && (h[lo-1]-bg > lim || (lo > 1 && h[lo-2]-bg > lim)) {
+		lo--
 	}
-	swx = (c - float64(half)) * sw
+	for hi < len(h)-1 && (h[hi+1]-bg > lim || (hi < len(h)-2 && h[hi+2]-bg > lim)) {
+		hi++
+	}
+	lo, hi = max(lo-peakPadBins, 0), min(hi+peakPadBins, len(h)-1)
+	var sw, swx float64
+	for i := lo; i <= hi; i++ {
+		if w := h[i] - bg; w > 0 {
+			sw += w
+			swx += w * float64(i-half)
+		}
+	}
+	if sw == 0 {
+		return 0, 0, false
+	}
 	return swx / sw * resPx, int(math.Round(sw)), true
 }
 

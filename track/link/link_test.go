@@ -50,6 +50,11 @@ type sample struct {
 // shear returns the named built-in scenario with the moving wall travelling
 // ratio times the mean tracer spacing per frame, throughout the recording.
 func shear(t testing.TB, name string, ratio float64, frames int, drop float64, seed int64) *synth.Scenario {
+	return shearN(t, name, ratio, frames, drop, seed, 0)
+}
+
+// shearN is shear with tracers tracers in the image (0: the scenario's).
+func shearN(t testing.TB, name string, ratio float64, frames int, drop float64, seed int64, tracers int) *synth.Scenario {
 	t.Helper()
 	s, err := synth.Builtin(name, seed)
 	if err != nil {
@@ -57,6 +62,9 @@ func shear(t testing.TB, name string, ratio float64, frames int, drop float64, s
 	}
 	s.Frames = frames
 	s.DropFraction = drop
+	if tracers > 0 {
+		s.Tracers = tracers
+	}
 	n := len(s.Positions(0))
 	spacing := math.Sqrt(float64(s.WidthPx) * s.GapPx() / float64(n))
 	v := ratio * spacing * s.UMPerPx * s.FPS
@@ -253,6 +261,27 @@ func TestLinkAccuracyTable(t *testing.T) {
 		}
 		if lk.fracWrong() > maxWrong {
 			t.Errorf("ratio %.1f: %.4f of output links wrong, more than %.2f", ratio, lk.fracWrong(), maxWrong)
+		}
+	}
+}
+
+// TestLinkDense repeats rows 0.5 and 0.8 of the table at 1000 tracers in the
+// image (mean spacing 16 px instead of 25 px).
+func TestLinkDense(t *testing.T) {
+	aims := map[float64]float64{0.5: 0.99, 0.8: 0.95} // issue 5
+	for i, ratio := range []float64{0.5, 0.8} {
+		sm := detect(t, shearN(t, "homogeneous", ratio, 30, tableDrop, int64(600+i), 1000), uint64(60+i))
+		opt := sm.options()
+		nn := sm.score(nearest(sm.frames, opt.MaxStepPx))
+		pts, st, err := Link(sm.frames, sm.cal, opt)
+		if err != nil {
+			t.Fatal(err)
+		}
+		lk := sm.score(pts)
+		t.Logf("1000 tracers, ratio %.1f (spacing %.1f px): NN %.4f ok %.4f wrong; link %.4f ok %.4f wrong of %d (search %.2f px, largest sub-problem %d pairs)",
+			ratio, sm.spacing, nn.fracCorrect(), nn.fracWrong(), lk.fracCorrect(), lk.fracWrong(), lk.trueLinks, st.SearchPx, st.Largest)
+		if lk.fracCorrect() < aims[ratio] {
+			t.Errorf("ratio %.1f: %.4f of links correct, aim %.2f", ratio, lk.fracCorrect(), aims[ratio])
 		}
 	}
 }
