@@ -74,6 +74,8 @@ type Wall struct {
 	// ResidualPx is the robust spread (1.4826 x MAD) of the inlier points
 	// about the line.
 	ResidualPx float64
+	// Reflection reports a thin reflection line found on the wall.
+	Reflection bool
 }
 
 // Result is the outcome of Find.
@@ -181,21 +183,23 @@ func FindPixels(pix []float32, w, h int, opt Options) (*Result, error) {
 		return nil, fmt.Errorf("walls: image %dx%d px is too small to find walls in (need %d strips of %d px and a height of %d px)",
 			w, h, minStrips, opt.StripPx, 2*contrastArmPx+int(opt.MinGapPx))
 	}
-	cands, strongest := edgeCandidates(pix, w, h, opt.StripPx, opt.MinContrastLevels)
+	cands, strongest, profs := edgeCandidates(pix, w, h, opt.StripPx, opt.MinContrastLevels)
 	if len(cands) == 0 {
 		return nil, fmt.Errorf("walls not found: strongest horizontal edge %.1f grey levels, need %g", strongest, opt.MinContrastLevels)
-	}
-	if opt.Undistort != nil {
-		for i := range cands {
-			cands[i].xPx, cands[i].yPx = opt.Undistort(cands[i].xPx, cands[i].yPx)
-		}
 	}
 	lines := consensusLines(cands, nStrip)
 	if len(lines) == 0 {
 		return nil, fmt.Errorf("walls not found: edges up to %.1f grey levels but none straight along %d%% of the image width",
 			strongest, int(minStripFrac*100))
 	}
-	return pickWalls(lines, w, h, opt.MinGapPx)
+	r, err := pickWalls(lines, w, h, opt.MinGapPx)
+	if err != nil {
+		return nil, err
+	}
+	if err := refineWalls(r, profs, opt); err != nil {
+		return nil, err
+	}
+	return r, nil
 }
 
 // greyPixels returns img's pixels as float32 in 8-bit grey levels.
@@ -256,9 +260,17 @@ func levelUnit16(maxV float64) float64 {
 	return math.Exp2(bits - 8)
 }
 
-// edgeCandidates returns the strong edge points of every strip and the
-// strongest edge contrast seen anywhere, in 8-bit levels.
-func edgeCandidates(pix []float32, w, h, stripPx int, minContrast float64) ([]candidate, float64) {
+// stripProfile is the column-averaged intensity of one strip, 8-bit levels
+// per row, and the strip's centre column.
+type stripProfile struct {
+	xPx float64
+	v   []float64
+}
+
+// edgeCandidates returns the strong edge points of every strip, the
+// strongest edge contrast seen anywhere (8-bit levels) and the strip
+// profiles.
+func edgeCandidates(pix []float32, w, h, stripPx int, minContrast float64) ([]candidate, float64, []stripProfile) {
 	nStrip := w / stripPx
 	off := (w - nStrip*stripPx) / 2
 	prof := make([]float64, h)
@@ -267,6 +279,7 @@ func edgeCandidates(pix []float32, w, h, stripPx int, minContrast float64) ([]ca
 	kern := gaussKernel(smoothSigmaPx)
 	var cands []candidate
 	var strongest float64
+	profs := make([]stripProfile, nStrip)
 	type peak struct {
 		y, c, g float64
 	}
@@ -281,6 +294,7 @@ func edgeCandidates(pix []float32, w, h, stripPx int, minContrast float64) ([]ca
 			}
 			prof[y] = sum / float64(stripPx)
 		}
+		profs[s] = stripProfile{xPx: float64(x0) + float64(stripPx-1)/2, v: append([]float64(nil), prof...)}
 		convolve(sm, prof, kern)
 		for y := 1; y < h-1; y++ {
 			grad[y] = (sm[y+1] - sm[y-1]) / 2
@@ -310,7 +324,7 @@ func edgeCandidates(pix []float32, w, h, stripPx int, minContrast float64) ([]ca
 			cands = append(cands, candidate{strip: s, xPx: xc, yPx: p.y, contrast: p.c})
 		}
 	}
-	return cands, strongest
+	return cands, strongest, profs
 }
 
 // subPixel returns the offset in (-0.5, 0.5] of a peak from its middle
@@ -562,7 +576,10 @@ func median(v []float64) float64 {
 	return (s[n/2-1] + s[n/2]) / 2
 }
 
-// pickWalls chooses the two walls among the lines, strongest first.
+// pickWalls groups the strong lines into walls (lines closer than the
+// least gap belong to the same wall: the flanks of a reflection line, a
+// double edge) and chooses the two strongest parallel walls. Their lines
+// are coarse; refineWalls places them.
 func pickWalls(lines []fitted, w, h int, minGapPx float64) (*Result, error) {
 	xc := float64(w-1) / 2
 	var strong []fitted
@@ -571,50 +588,79 @@ func pickWalls(lines []fitted, w, h int, minGapPx float64) (*Result, error) {
 			strong = append(strong, l)
 		}
 	}
-	sep := func(a, b fitted) float64 {
-		th := math.Atan((a.Slope + b.Slope) / 2)
-		return math.Abs(a.YAt(xc)-b.YAt(xc)) * math.Cos(th)
+	sort.Slice(strong, func(i, j int) bool { return strong[i].YAt(xc) < strong[j].YAt(xc) })
+	type group struct {
+		members []fitted
+		support float64
 	}
-	parallel := func(a, b fitted) bool {
-		return math.Abs(a.AngleDeg()-b.AngleDeg()) <= MaxWallAngleDiffDeg
+	var groups []group
+	for _, l := range strong {
+		if n := len(groups); n > 0 {
+			g := &groups[n-1]
+			last := g.members[len(g.members)-1]
+			if l.YAt(xc)-last.YAt(xc) < minGapPx && math.Abs(l.AngleDeg()-last.AngleDeg()) <= MaxWallAngleDiffDeg {
+				g.members = append(g.members, l)
+				g.support += l.support
+				continue
+			}
+		}
+		groups = append(groups, group{members: []fitted{l}, support: l.support})
+	}
+	// The coarse wall of a group: the support-weighted mean line.
+	coarse := func(g group) Wall {
+		var y0, sl, c float64
+		var wl Wall
+		for _, m := range g.members {
+			y0 += m.support * m.Y0
+			sl += m.support * m.Slope
+			c = math.Max(c, math.Abs(m.ContrastLevels))
+			wl.Strips = max(wl.Strips, m.Strips)
+		}
+		wl.Line = Line{Y0: y0 / g.support, Slope: sl / g.support}
+		wl.ContrastLevels = c
+		return wl
 	}
 	bi, bj, best := -1, -1, 0.0
-	narrow := math.Inf(1)
-	for i := range strong {
-		for j := i + 1; j < len(strong); j++ {
-			a, b := strong[i], strong[j]
-			if !parallel(a, b) {
+	for i := range groups {
+		for j := i + 1; j < len(groups); j++ {
+			a, b := coarse(groups[i]), coarse(groups[j])
+			if math.Abs(a.AngleDeg()-b.AngleDeg()) > MaxWallAngleDiffDeg {
 				continue
 			}
-			d := sep(a, b)
-			if d < mergePx {
-				continue
-			}
-			if d < minGapPx {
-				narrow = math.Min(narrow, d)
-				continue
-			}
-			if s := a.support + b.support; s > best {
+			if s := groups[i].support + groups[j].support; s > best {
 				bi, bj, best = i, j, s
 			}
 		}
 	}
 	if bi < 0 {
-		if !math.IsInf(narrow, 1) {
-			return nil, fmt.Errorf("walls: gap of %.1f px between the edges at y=%.1f and y=%.1f is implausible, need at least %g px",
-				narrow, strong[0].YAt(xc), strong[1].YAt(xc), minGapPx)
+		g := groups[0]
+		for _, gg := range groups {
+			if gg.support > g.support {
+				g = gg
+			}
+		}
+		m := g.members
+		if len(m) >= 2 {
+			top, bot := m[0], m[len(m)-1]
+			if d := bot.YAt(xc) - top.YAt(xc); d >= mergePx && top.ContrastLevels*bot.ContrastLevels < 0 {
+				return nil, fmt.Errorf("walls: gap of %.1f px between the edges at y=%.1f and y=%.1f is implausible, need at least %g px",
+					d, top.YAt(xc), bot.YAt(xc), minGapPx)
+			}
 		}
 		return nil, fmt.Errorf("walls not found: only one wall-like edge, at y=%.1f px (%.1f grey levels); the other wall is missing or outside the %dx%d image",
-			lines[0].YAt(xc), math.Abs(lines[0].ContrastLevels), w, h)
+			m[0].YAt(xc), math.Abs(m[0].ContrastLevels), w, h)
 	}
-	top, bot := strong[bi], strong[bj]
-	if top.YAt(xc) > bot.YAt(xc) {
-		top, bot = bot, top
-	}
-	r := &Result{Top: top.Wall, Bottom: bot.Wall, WidthPx: w, HeightPx: h}
-	r.GapPx = sep(top, bot)
-	r.TiltDeg = (top.AngleDeg() + bot.AngleDeg()) / 2
+	r := &Result{Top: coarse(groups[bi]), Bottom: coarse(groups[bj]), WidthPx: w, HeightPx: h}
+	r.update()
 	return r, nil
+}
+
+// update sets the gap and tilt from the wall lines.
+func (r *Result) update() {
+	xc := float64(r.WidthPx-1) / 2
+	th := math.Atan((r.Top.Slope + r.Bottom.Slope) / 2)
+	r.GapPx = (r.Bottom.YAt(xc) - r.Top.YAt(xc)) * math.Cos(th)
+	r.TiltDeg = (r.Top.AngleDeg() + r.Bottom.AngleDeg()) / 2
 }
 
 // CheckInside reports an error when line l leaves the image of w x h pixels

@@ -53,7 +53,7 @@ func (g gapImage) render() []float32 {
 			in := phi(dt/blur) * phi(db/blur)
 			v := g.plate + (g.gap-g.plate)*in
 			if g.reflect != 0 {
-				v += g.reflect * (math.Exp(-sq(dt-g.reflectAt)/2) + math.Exp(-sq(db-g.reflectAt)/2))
+				v += g.reflect * (math.Exp(-sq(dt-g.reflectAt)/(2*reflSigma*reflSigma)) + math.Exp(-sq(db-g.reflectAt)/(2*reflSigma*reflSigma)))
 			}
 			for _, b := range blobs {
 				if d2 := sq(fx-b.x) + sq(fy-b.y); d2 < 25 {
@@ -71,6 +71,9 @@ func (g gapImage) render() []float32 {
 }
 
 func sq(x float64) float64 { return x * x }
+
+// reflSigma is the sd of the test reflection lines, px.
+const reflSigma = 0.7
 
 // Tolerances of the detection tests, from the acceptance list of issue 4.
 const (
@@ -109,9 +112,10 @@ func TestFindSimple(t *testing.T) {
 		{"tilt +3", func(g *gapImage) { g.tiltDeg = 3 }},
 		{"tilt -3", func(g *gapImage) { g.tiltDeg = -3; g.topY, g.botY = 60.7, 220.2 }},
 		{"tilt -1.3 dark", func(g *gapImage) { g.tiltDeg = -1.3; g.plate, g.gap = 30, 170; g.topY, g.botY = 50.1, 210.6 }},
-		{"reflection inside", func(g *gapImage) { g.reflect = 50; g.reflectAt = 5; g.tiltDeg = 0.7 }},
-		{"reflection on plate", func(g *gapImage) { g.reflect = -80; g.reflectAt = -5; g.tiltDeg = -0.4 }},
-		{"reflection dark plate", func(g *gapImage) { g.plate, g.gap = 20, 150; g.reflect = 90; g.reflectAt = -5; g.tiltDeg = 2.9 }},
+		{"bright reflection on the wall", func(g *gapImage) { g.reflect = 100; g.tiltDeg = 0.7 }},
+		{"dark reflection on the wall", func(g *gapImage) { g.reflect = -80; g.tiltDeg = -0.4 }},
+		{"reflection, dark plate", func(g *gapImage) { g.plate, g.gap = 20, 150; g.reflect = 90; g.tiltDeg = 2.9 }},
+		{"reflection 10 px inside", func(g *gapImage) { g.reflect = 60; g.reflectAt = 10; g.tiltDeg = 1.5 }},
 		{"stuck particles", func(g *gapImage) { g.stuck = 6; g.tiltDeg = 1.1 }},
 		{"scratch", func(g *gapImage) { g.scratch = true }},
 		{"noisy", func(g *gapImage) { g.noise = 12; g.tiltDeg = 2.2 }},
@@ -126,6 +130,7 @@ func TestFindSimple(t *testing.T) {
 			if err != nil {
 				t.Fatal(err)
 			}
+			t.Logf("reflection found: top %v, bottom %v", r.Top.Reflection, r.Bottom.Reflection)
 			checkWalls(t, g, r)
 		})
 	}

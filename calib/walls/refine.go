@@ -1,0 +1,358 @@
+package walls
+
+import (
+	"fmt"
+	"math"
+	"sort"
+)
+
+// Wall profile model. Across a wall, at signed distance u = y - y0 from the
+// wall line (positive downwards), a strip profile is taken to be
+//
+//	p(y) = a + b Phi(u / se) + c exp(-u^2 / (2 sl^2))
+//
+// a step from one side's level to the other's blurred by the optics (se),
+// plus a thin reflection line of either sign lying on the wall (sl). The
+// wall is y0: the step's midpoint, which is also the reflection's centre.
+// For a given y0, se and sl the levels a, b, c follow by linear least
+// squares; y0 is found per strip by a grid and golden-section search, and
+// se, sl once per wall on a subset of strips.
+//
+// A shift of a step adds a term shaped like its derivative, a Gaussian,
+// which the reflection term can absorb: without a reflection the full model
+// cannot place the wall. So the reflection term is used only when the
+// profile has one (it halves the residual and its height is a good part of
+// the step's): then the reflection's odd-symmetric flanks fix y0. Otherwise
+// the wall is the centre of the step alone (c = 0).
+const (
+	refineHalfPx    = 6    // rows on each side of the coarse wall that the model sees
+	searchHalfPx    = 2.5  // y0 is searched this far from the coarse wall
+	searchStepPx    = 0.2  // grid step of the y0 search before golden-section refinement
+	goldenIter      = 25   // golden-section steps: the bracket shrinks to 1e-6 px
+	sigmaMinPx      = 0.2  // blur and line widths tried for the wall model, px
+	sigmaMaxPx      = 2.05 //
+	sigmaStepPx     = 0.1  //
+	sigmaStrips     = 5    // strips used to choose the model's widths
+	sigmaCandidates = 3    // grid cells refined on every strip
+	sigmaRounds     = 2    // rounds of width refinement off the grid
+	sigmaGoldenIter = 10   // golden-section steps per width: 0.2 px shrinks to 2e-3 px
+	sigmaFloorPx    = 0.1  // narrower than this a wall profile is not resolved
+	minRefineFrac   = 0.5  // at least this fraction of the strips must fit the model
+	// A reflection is on the wall when the model with it leaves at most
+	// lineGain of the step-only residual and its height is at least
+	// lineMinFrac of the step's.
+	lineGain = 0.5
+	// trimFrac of the strips with the largest residuals are left out when
+	// the widths are chosen.
+	trimFrac    = 0.2
+	lineMinFrac = 0.2
+)
+
+// wallModel evaluates the model's basis on a window of rows.
+type wallModel struct {
+	se, sl float64
+	line   bool      // with the reflection term
+	rows   []float64 // y of each sample
+	vals   []float64 // profile values
+}
+
+// fit returns the least-squares levels and the residual sum of squares for
+// a wall at y0.
+func (m *wallModel) fit(y0 float64) (a, b, c, sse float64) {
+	// Normal equations of the 3-term linear model.
+	var s [3][3]float64
+	var r [3]float64
+	k := 1 / (math.Sqrt2 * m.se)
+	lineOn := 0.0
+	if m.line {
+		lineOn = 1
+	} else {
+		s[2][2] = 1 // c = 0
+	}
+	for i, y := range m.rows {
+		u := y - y0
+		f := [3]float64{1, 0.5 * math.Erfc(-u*k), lineOn * math.Exp(-u*u/(2*m.sl*m.sl))}
+		for p := 0; p < 3; p++ {
+			for q := 0; q < 3; q++ {
+				s[p][q] += f[p] * f[q]
+			}
+			r[p] += f[p] * m.vals[i]
+		}
+	}
+	x, ok := solve3(s, r)
+	if !ok {
+		return 0, 0, 0, math.Inf(1)
+	}
+	// At the least-squares solution the residual is v.v - x.r.
+	var vv float64
+	for _, v := range m.vals {
+		vv += v * v
+	}
+	sse = math.Max(vv-(x[0]*r[0]+x[1]*r[1]+x[2]*r[2]), 0)
+	return x[0], x[1], x[2], sse
+}
+
+// locate finds the y0 near yc with the least residual.
+func (m *wallModel) locate(yc float64) (y0, b, c, sse float64) {
+	best, bestSSE := yc, math.Inf(1)
+	for d := -searchHalfPx; d <= searchHalfPx+1e-9; d += searchStepPx {
+		if _, _, _, e := m.fit(yc + d); e < bestSSE {
+			best, bestSSE = yc+d, e
+		}
+	}
+	lo, hi := best-searchStepPx, best+searchStepPx
+	g := (math.Sqrt(5) - 1) / 2
+	c, d := hi-g*(hi-lo), lo+g*(hi-lo)
+	_, _, _, fc := m.fit(c)
+	_, _, _, fd := m.fit(d)
+	for i := 0; i < goldenIter; i++ {
+		if fc < fd {
+			hi, d, fd = d, c, fc
+			c = hi - g*(hi-lo)
+			_, _, _, fc = m.fit(c)
+		} else {
+			lo, c, fc = c, d, fd
+			d = lo + g*(hi-lo)
+			_, _, _, fd = m.fit(d)
+		}
+	}
+	y0 = (lo + hi) / 2
+	_, b, c, sse = m.fit(y0)
+	return y0, b, c, sse
+}
+
+// solve3 solves the 3x3 system s x = r by Gaussian elimination with partial
+// pivoting.
+func solve3(s [3][3]float64, r [3]float64) ([3]float64, bool) {
+	const tiny = 1e-12
+	for col := 0; col < 3; col++ {
+		p := col
+		for i := col + 1; i < 3; i++ {
+			if math.Abs(s[i][col]) > math.Abs(s[p][col]) {
+				p = i
+			}
+		}
+		if math.Abs(s[p][col]) < tiny {
+			return [3]float64{}, false
+		}
+		s[col], s[p] = s[p], s[col]
+		r[col], r[p] = r[p], r[col]
+		for i := col + 1; i < 3; i++ {
+			f := s[i][col] / s[col][col]
+			for j := col; j < 3; j++ {
+				s[i][j] -= f * s[col][j]
+			}
+			r[i] -= f * r[col]
+		}
+	}
+	var x [3]float64
+	for i := 2; i >= 0; i-- {
+		v := r[i]
+		for j := i + 1; j < 3; j++ {
+			v -= s[i][j] * x[j]
+		}
+		x[i] = v / s[i][i]
+	}
+	return x, true
+}
+
+// window fills the model's samples from a strip profile around yc; it
+// reports false when the window leaves the image.
+func (m *wallModel) window(p stripProfile, yc float64) bool {
+	lo, hi := int(math.Floor(yc))-refineHalfPx, int(math.Ceil(yc))+refineHalfPx
+	if lo < 0 || hi >= len(p.v) {
+		return false
+	}
+	m.rows, m.vals = m.rows[:0], m.vals[:0]
+	for y := lo; y <= hi; y++ {
+		m.rows = append(m.rows, float64(y))
+		m.vals = append(m.vals, p.v[y])
+	}
+	return true
+}
+
+// refineWalls places both walls of r by fitting the wall model in every
+// strip, then a robust line through the strips' wall points.
+func refineWalls(r *Result, profs []stripProfile, opt Options) error {
+	for _, wl := range []struct {
+		name string
+		w    *Wall
+	}{{"top", &r.Top}, {"bottom", &r.Bottom}} {
+		if err := refineWall(wl.w, profs, opt); err != nil {
+			return fmt.Errorf("walls: %s wall: %w", wl.name, err)
+		}
+	}
+	if r.Top.YAt(float64(r.WidthPx-1)/2) > r.Bottom.YAt(float64(r.WidthPx-1)/2) {
+		r.Top, r.Bottom = r.Bottom, r.Top
+	}
+	r.update()
+	if r.GapPx < opt.MinGapPx {
+		return fmt.Errorf("walls: gap of %.1f px between the walls at y=%.1f and y=%.1f is implausible, need at least %g px",
+			r.GapPx, r.Top.YAt(float64(r.WidthPx-1)/2), r.Bottom.YAt(float64(r.WidthPx-1)/2), opt.MinGapPx)
+	}
+	return nil
+}
+
+// chooseModel picks the model's widths, and whether it has the reflection
+// term, on a spread subset of the strips.
+func chooseModel(w *Wall, profs []stripProfile) *wallModel {
+	m := &wallModel{}
+	step := max(1, len(profs)/sigmaStrips)
+	total := func() (sse, lineFrac float64) {
+		return m.total(w, profs, step)
+	}
+	all := func() float64 {
+		e, _ := m.total(w, profs, 1)
+		return e
+	}
+	stepSE, stepSSE := 1.0, math.Inf(1)
+	for se := sigmaMinPx; se <= sigmaMaxPx; se += sigmaStepPx {
+		m.se = se
+		if e, _ := total(); e < stepSSE {
+			stepSE, stepSSE = se, e
+		}
+	}
+	m.line = true
+	// Keep the best few grid cells of the subset, refine each on every strip
+	// and take the best: the residual has several basins.
+	type cell struct{ se, sl, sse, fr float64 }
+	var cells []cell
+	for se := sigmaMinPx; se <= sigmaMaxPx; se += sigmaStepPx {
+		for sl := sigmaMinPx; sl <= sigmaMaxPx; sl += sigmaStepPx {
+			m.se, m.sl = se, sl
+			e, fr := total()
+			cells = append(cells, cell{se, sl, e, fr})
+		}
+	}
+	sort.Slice(cells, func(i, j int) bool { return cells[i].sse < cells[j].sse })
+	if c := cells[0]; c.sse <= lineGain*stepSSE && c.fr >= lineMinFrac {
+		best, bestSSE := c, math.Inf(1)
+		for _, c := range cells[:min(sigmaCandidates, len(cells))] {
+			m.se, m.sl = c.se, c.sl
+			for round := 0; round < sigmaRounds; round++ {
+				m.se = goldenMin(m.se-sigmaStepPx, m.se+sigmaStepPx, func(v float64) float64 { m.se = v; return all() })
+				m.sl = goldenMin(m.sl-sigmaStepPx, m.sl+sigmaStepPx, func(v float64) float64 { m.sl = v; return all() })
+			}
+			if e := all(); e < bestSSE {
+				best, bestSSE = cell{m.se, m.sl, e, 0}, e
+			}
+		}
+		m.se, m.sl = best.se, best.sl
+		return m
+	}
+	m.line = false
+	m.se = goldenMin(stepSE-sigmaStepPx, stepSE+sigmaStepPx, func(v float64) float64 { m.se = v; return all() })
+	return m
+}
+
+// total returns the model's residual summed over every step-th strip and
+// the median height of the reflection relative to the step.
+func (m *wallModel) total(w *Wall, profs []stripProfile, step int) (sse, lineFrac float64) {
+	var fr, es []float64
+	for i := 0; i < len(profs); i += step {
+		yc := w.YAt(profs[i].xPx)
+		if !m.window(profs[i], yc) {
+			continue
+		}
+		_, b, c, e := m.locate(yc)
+		es = append(es, e)
+		fr = append(fr, math.Abs(c)/math.Max(math.Abs(b), 1e-9))
+	}
+	// Trim the worst strips: a scratch or a stuck particle there must not
+	// choose the model's widths.
+	sort.Float64s(es)
+	for _, e := range es[:len(es)-int(trimFrac*float64(len(es)))] {
+		sse += e
+	}
+	return sse, median(fr)
+}
+
+// goldenMin returns the minimiser of f on [lo, hi] (clamped to positive
+// widths) by golden-section search.
+func goldenMin(lo, hi float64, f func(float64) float64) float64 {
+	lo = math.Max(lo, sigmaFloorPx)
+	g := (math.Sqrt(5) - 1) / 2
+	c, d := hi-g*(hi-lo), lo+g*(hi-lo)
+	fc, fd := f(c), f(d)
+	for i := 0; i < sigmaGoldenIter; i++ {
+		if fc < fd {
+			hi, d, fd = d, c, fc
+			c = hi - g*(hi-lo)
+			fc = f(c)
+		} else {
+			lo, c, fc = c, d, fd
+			d = lo + g*(hi-lo)
+			fd = f(d)
+		}
+	}
+	return (lo + hi) / 2
+}
+
+func refineWall(w *Wall, profs []stripProfile, opt Options) error {
+	m := chooseModel(w, profs)
+	var xs, ys, bs []float64
+	for _, p := range profs {
+		yc := w.YAt(p.xPx)
+		if !m.window(p, yc) {
+			continue
+		}
+		y0, b, _, _ := m.locate(yc)
+		x := p.xPx
+		if opt.Undistort != nil {
+			x, y0 = opt.Undistort(x, y0)
+		}
+		xs, ys, bs = append(xs, x), append(ys, y0), append(bs, b)
+	}
+	if float64(len(xs)) < minRefineFrac*float64(len(profs)) || len(xs) < 2 {
+		return fmt.Errorf("the wall model fits only %d of %d strips (the wall runs out of the image?)", len(xs), len(profs))
+	}
+	l, sigma, wt := robustLine(xs, ys)
+	w.Line = l
+	w.ResidualPx = sigma
+	w.Strips = len(xs)
+	w.Inliers = 0
+	w.Reflection = m.line
+	var kept []float64
+	for i := range wt {
+		if wt[i] > 0 {
+			w.Inliers++
+			kept = append(kept, bs[i])
+		}
+	}
+	w.ContrastLevels = median(kept)
+	return nil
+}
+
+// robustLine fits y = a + b x by iteratively reweighted least squares with
+// Tukey's biweight and returns the line, the robust residual scale and the
+// final weights (0 for rejected points).
+func robustLine(x, y []float64) (Line, float64, []float64) {
+	n := len(x)
+	wt := make([]float64, n)
+	res := make([]float64, n)
+	for i := range wt {
+		wt[i] = 1
+	}
+	var l Line
+	sigma := minSigmaPx
+	for it := 0; it < irlsIter; it++ {
+		nl, ok := weightedLine(x, y, wt)
+		if !ok {
+			break
+		}
+		l = nl
+		for i := range x {
+			res[i] = math.Abs(y[i] - l.YAt(x[i]))
+		}
+		sigma = math.Max(1.4826*median(res), minSigmaPx)
+		for i := range wt {
+			u := res[i] / (tukeyC * sigma)
+			if u < 1 {
+				wt[i] = (1 - u*u) * (1 - u*u)
+			} else {
+				wt[i] = 0
+			}
+		}
+	}
+	return l, sigma, wt
+}

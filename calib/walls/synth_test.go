@@ -1,0 +1,118 @@
+package walls_test
+
+import (
+	"fmt"
+	"io"
+	"math"
+	"testing"
+
+	"gocv.io/x/gocv"
+
+	"gaptrace/calib/walls"
+	"gaptrace/track/frames"
+	"gaptrace/track/synth"
+)
+
+// synthSource streams a synth scenario's frames as a frames.Source.
+type synthSource struct {
+	s     *synth.Scenario
+	next  int
+	step  int
+	limit int
+}
+
+func (r *synthSource) Info() frames.Info {
+	bd := r.s.BitDepth
+	if bd == 0 {
+		bd = 8
+	}
+	return frames.Info{Frames: r.s.Frames, FPS: r.s.FPS, WidthPx: r.s.WidthPx, HeightPx: r.s.HeightPx, BitDepth: bd}
+}
+
+func (r *synthSource) Next(dst *gocv.Mat) (int, error) {
+	if r.next >= r.limit {
+		return 0, io.EOF
+	}
+	i := r.next
+	r.next += r.step
+	return i, r.s.Render(i, dst)
+}
+
+func (r *synthSource) Close() error { return nil }
+
+// medianOf returns the temporal median of n frames spread over the scenario.
+func medianOf(t testing.TB, s *synth.Scenario, n int) gocv.Mat {
+	t.Helper()
+	src := &synthSource{s: s, step: max(1, s.Frames/n), limit: s.Frames}
+	m, err := frames.Median(src, n)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return m
+}
+
+// Acceptance limits of issue 4 for detected walls on rendered videos.
+const (
+	synthLineTolPx  = 0.3
+	synthTiltTolDeg = 0.05
+)
+
+// TestFindOnSynth checks the walls against the renderer's truth
+// (track/synth) over tilts from -3 to +3 degrees, both polarities, 8 and 16
+// bit, noise and camera jitter.
+func TestFindOnSynth(t *testing.T) {
+	type variant struct {
+		scenario string
+		tiltDeg  float64
+		moving   string
+		jitterPx float64
+	}
+	var cases []variant
+	for _, tilt := range []float64{-3, -1.7, 0, 0.6, 2.2, 3} {
+		cases = append(cases, variant{"homogeneous", tilt, "top", 0.2})
+	}
+	for _, tilt := range []float64{-3, -0.9, 1.4, 3} {
+		cases = append(cases, variant{"dark", tilt, "bottom", 0.3}, variant{"dark", tilt, "bottom", 0})
+	}
+	var worstLine, worstTilt float64
+	for i, c := range cases {
+		t.Run(fmt.Sprintf("%s/tilt%+.1f", c.scenario, c.tiltDeg), func(t *testing.T) {
+			s, err := synth.Builtin(c.scenario, int64(100+i))
+			if err != nil {
+				t.Fatal(err)
+			}
+			s.TiltDeg, s.MovingSide, s.JitterPx = c.tiltDeg, c.moving, c.jitterPx
+			s.Frames = 60
+			med := medianOf(t, s, 30)
+			defer med.Close()
+			r, err := walls.Find(med, walls.Options{})
+			if err != nil {
+				t.Fatal(err)
+			}
+			truth := s.Calibration()
+			top, bot := truth.StationaryWallPx, truth.MovingWallPx
+			if top[0][1] > bot[0][1] {
+				top, bot = bot, top
+			}
+			for k, want := range []struct {
+				got walls.Line
+				l   [2][2]float64
+			}{{r.Top.Line, top}, {r.Bottom.Line, bot}} {
+				for _, p := range want.l {
+					d := want.got.YAt(p[0]) - p[1]
+					worstLine = math.Max(worstLine, math.Abs(d))
+					if math.Abs(d) > synthLineTolPx {
+						t.Errorf("wall %d at x=%g: y off by %.3f px", k, p[0], d)
+					}
+				}
+			}
+			if d := r.TiltDeg - c.tiltDeg; math.Abs(d) > synthTiltTolDeg {
+				t.Errorf("tilt %.4f deg, want %g", r.TiltDeg, c.tiltDeg)
+			}
+			worstTilt = math.Max(worstTilt, math.Abs(r.TiltDeg-c.tiltDeg))
+			t.Logf("jitter %g: walls off by %+.3f, %+.3f px at x=0, gap %.3f px (truth %.3f), tilt %.4f, reflection %v/%v", c.jitterPx,
+				r.Top.YAt(0)-top[0][1], r.Bottom.YAt(0)-bot[0][1], r.GapPx, truth.GapPx, r.TiltDeg, r.Top.Reflection, r.Bottom.Reflection)
+		})
+	}
+	t.Logf("worst wall error %.3f px (limit %g), worst tilt error %.4f deg (limit %g)", worstLine, synthLineTolPx, worstTilt, synthTiltTolDeg)
+}
