@@ -29,6 +29,12 @@ func TestBuiltinCatalogue(t *testing.T) {
 		if s.Name != n.Name || s.Description != n.Description {
 			t.Errorf("Builtin(%q) is named %q", n.Name, s.Name)
 		}
+		// A spot is reliably found above a peak SNR of about 5 (common
+		// practice); the built-ins stay well clear of it.
+		if snr := s.PeakSNR(); snr < 8 {
+			t.Errorf("%s: peak SNR %.1f, want at least 8", n.Name, snr)
+		}
+		t.Logf("%s: peak SNR %.1f", n.Name, s.PeakSNR())
 		if got := len(s.Positions(0)); got < s.Tracers*3/4 || got > s.Tracers*5/4 {
 			t.Errorf("%s: %d tracers in the first frame, want about %d", n.Name, got, s.Tracers)
 		}

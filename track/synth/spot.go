@@ -134,18 +134,30 @@ func toBytes(buf []byte, img []float64, w, h int, bitDepth int, gain float64) ([
 	case 8:
 		buf = grow(buf, w*h)
 		for i, v := range img {
-			buf[i] = uint8(clamp(math.Round(gain*v), 0, 255))
+			buf[i] = uint8(quantize(gain*v, 255))
 		}
 		return buf, gocv.MatTypeCV8U, nil
 	case 16:
 		buf = grow(buf, 2*w*h)
 		for i, v := range img {
-			q := uint16(clamp(math.Round(gain*v), 0, 65535))
+			q := uint16(quantize(gain*v, 65535))
 			buf[2*i], buf[2*i+1] = byte(q), byte(q>>8) // little-endian, as on every gocv platform
 		}
 		return buf, gocv.MatTypeCV16U, nil
 	}
 	return nil, 0, fmt.Errorf("synth: bit depth %d is not 8 or 16", bitDepth)
+}
+
+// quantize rounds v to the nearest integer in [0, top], halves away from
+// zero as math.Round does (for v >= 0 that is floor(v + 0.5)).
+func quantize(v, top float64) uint {
+	switch {
+	case !(v > 0): // also NaN
+		return 0
+	case v >= top:
+		return uint(top)
+	}
+	return uint(v + 0.5)
 }
 
 func grow(b []byte, n int) []byte {
