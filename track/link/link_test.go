@@ -230,7 +230,7 @@ func nearest(frames [][]Detection, maxStepPx float64) []tracks.Point {
 // as much again as the wall's displacement per frame (what the experiment
 // file's motion program tells), plus a few px for noise and jitter.
 func (sm *sample) options() Options {
-	return Options{FPS: sm.s.FPS, MaxStepPx: 1.5*sm.wallPx + 3, GapFrames: DefaultGapFrames}
+	return Options{FPS: sm.s.FPS, MaxStepPx: MaxStepFor(sm.wallPx*sm.s.UMPerPx*sm.s.FPS, sm.s.FPS, sm.s.UMPerPx), GapFrames: DefaultGapFrames}
 }
 
 // TestLinkAccuracyTable is the linking table: the fraction of correct links

@@ -1,6 +1,8 @@
 package link
 
 import (
+	"math"
+
 	"gaptrace/calib"
 	"gaptrace/track/flowprior"
 	"gaptrace/track/tracks"
@@ -86,4 +88,22 @@ func linkAll(frames [][]Detection, cal *calib.Calibration, opt Options) ([]track
 	}
 	rest, st := l.Close()
 	return append(out, rest...), st, nil
+}
+
+// Settings of MaxStepFor.
+const (
+	// stepMargin is how much faster than the wall a tracer may appear to
+	// move: elastic recoil after a stop and the localization noise of two
+	// detections, as a fraction of the wall's own step.
+	stepMargin = 1.5
+	// stepSlackPx adds a few pixels for camera jitter and for slow flows,
+	// whose step alone would make the search too tight.
+	stepSlackPx = 3.0
+)
+
+// MaxStepFor returns a MaxStepPx for a recording whose fastest wall travels
+// at wallSpeedUMPerS: half as much again as the wall's step per frame, plus
+// a few pixels.
+func MaxStepFor(wallSpeedUMPerS, fps, umPerPx float64) float64 {
+	return stepMargin*math.Abs(wallSpeedUMPerS)/fps/umPerPx + stepSlackPx
 }
