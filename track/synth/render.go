@@ -29,7 +29,6 @@ type Renderer struct {
 	bgAt  [2]float64
 	bgOK  bool
 	vig   []float64 // vignetting factor per pixel, nil without vignetting
-	buf   []byte
 	drawn []Tracer
 }
 
@@ -109,11 +108,9 @@ func (r *Renderer) Render(frame int, dst *gocv.Mat) error {
 		return fmt.Errorf("synth: frame %d is negative", frame)
 	}
 	s := &r.s
-	var err error
-	var mt gocv.MatType
-	r.buf, mt, err = toBytes(r.buf, r.Photons(frame), s.WidthPx, s.HeightPx, s.bitDepth(), s.gain())
-	if err != nil {
-		return err
+	mt := gocv.MatTypeCV8U
+	if s.bitDepth() == 16 {
+		mt = gocv.MatTypeCV16U
 	}
 	if dst.Ptr() == nil || dst.Empty() || dst.Rows() != s.HeightPx || dst.Cols() != s.WidthPx ||
 		dst.Type() != mt || !dst.IsContinuous() {
@@ -124,8 +121,9 @@ func (r *Renderer) Render(frame int, dst *gocv.Mat) error {
 	if err != nil {
 		return fmt.Errorf("synth: %w", err)
 	}
-	copy(data, r.buf)
-	return nil
+	// Quantize straight into the Mat's memory, which has exactly the size.
+	_, _, err = toBytes(data, r.Photons(frame), s.WidthPx, s.HeightPx, s.bitDepth(), s.gain())
+	return err
 }
 
 // drawBackground fills img with the sample between the walls, the plates
