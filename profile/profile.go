@@ -160,6 +160,16 @@ func Analyze(pts []tracks.Point, e *experiment.Experiment, c *calib.Calibration,
 	}
 	r := &Result{NoiseUM: sigma, FrameIntervalS: dt, Warnings: []string{}}
 	prog := e.Program()
+	// Cut mislinks and wrap-arounds out of the tracks, allowing for a wall
+	// that starts or stops between two frames.
+	maxChange, lastStop := 0.0, math.Inf(-1)
+	for _, st := range prog {
+		if st.WallSpeedUMPerS != 0 {
+			maxChange = math.Max(maxChange, math.Abs(st.WallSpeedUMPerS)*dt)
+			lastStop = st.EndS
+		}
+	}
+	ts = velocity.Split(ts, sigma, maxChange, lastStop+dt/2)
 	r.Phases = Phases(prog, t0, t1)
 	if len(prog) == 0 {
 		r.Warnings = append(r.Warnings, "the experiment file has no motion program, so no shear phase is analysed")

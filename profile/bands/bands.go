@@ -102,12 +102,13 @@ func valueAt(u, v0 float64, rates, bounds []float64) float64 {
 func clamp(x, lo, hi float64) float64 { return math.Max(lo, math.Min(hi, x)) }
 
 // gridSteps is the number of candidate boundary positions across the
-// domain in the coarse search: a boundary found to 1/100 of the gap is then
-// refined by a local search.
-const gridSteps = 100
+// domain in the coarse search: a boundary found to 1/50 of the gap (half
+// the narrowest band of the default criteria) is then refined by a local
+// search.
+const gridSteps = 50
 
-// refineRounds of halving the step refine the boundaries from 1/100 to
-// about 1/25600 of the gap, far below their statistical error.
+// refineRounds of halving the step refine the boundaries from 1/50 to
+// about 1/12800 of the gap, far below their statistical error.
 const refineRounds = 8
 
 // Fit fits a k-band model (k = 1, 2 or 3) to pts on [0, h] with every band

@@ -115,6 +115,8 @@ type estimator struct {
 	vals, wts, scratch []float64
 	start              []int // per group, first index in vals
 	mult               []float64
+	psi, dpsi          []float64 // per group, sums of psi and psi'
+
 }
 
 func (e *estimator) bin(obs []Obs, o Options, rng *rand.Rand) Bin {
@@ -164,6 +166,30 @@ func (e *estimator) bin(obs []Obs, o Options, rng *rand.Rand) Bin {
 	}
 	scale := madToSigma * e.weightedMAD()
 	b.Value = e.huber(scale, e.weightedMedian(e.vals))
+	// Fast bootstrap of the M-estimate (Salibian-Barrera & Zamar 2002,
+	// Ann. Statist. 30:556): each replicate takes one Newton step from the
+	// full-sample estimate, mu* = mu + sum psi(r) / sum psi'(r) over the
+	// resampled tracks, so per-track sums of psi and psi' are all it needs.
+	e.psi, e.dpsi = resize(e.psi, ng), resize(e.dpsi, ng)
+	c := HuberK * scale
+	for g := range ng {
+		var p, d float64
+		for i := e.start[g]; i < e.start[g+1]; i++ {
+			r := e.vals[i] - b.Value
+			switch {
+			case !(scale > 0):
+				d++
+			case r > c:
+				p += c
+			case r < -c:
+				p -= c
+			default:
+				p += r
+				d++
+			}
+		}
+		e.psi[g], e.dpsi[g] = p, d
+	}
 	e.mult = resize(e.mult, ng)
 	var s, s2 float64
 	for range o.Replicates {
@@ -171,12 +197,15 @@ func (e *estimator) bin(obs []Obs, o Options, rng *rand.Rand) Bin {
 		for range ng {
 			e.mult[rng.IntN(ng)]++
 		}
-		for g := range ng {
-			for i := e.start[g]; i < e.start[g+1]; i++ {
-				e.wts[i] = e.mult[g]
-			}
+		var p, d float64
+		for g, m := range e.mult {
+			p += m * e.psi[g]
+			d += m * e.dpsi[g]
 		}
-		v := e.huber(scale, b.Value)
+		v := b.Value
+		if d > 0 {
+			v += p / d
+		}
 		s += v
 		s2 += v * v
 	}

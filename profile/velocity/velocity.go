@@ -102,8 +102,20 @@ func NoiseUM(ts []Track) (float64, error) {
 	if len(d2) == 0 {
 		return 0, errors.New("velocity: no track has three consecutive frames, so the localization noise is unknown")
 	}
+	if k := len(d2) / maxNoiseSamples; k > 1 {
+		// An even subsample: the scale is then good to about 0.3%.
+		n := 0
+		for i := 0; i < len(d2); i += k {
+			d2[n] = d2[i]
+			n++
+		}
+		d2 = d2[:n]
+	}
 	return madToSigma * mad(d2) / math.Sqrt(6), nil
 }
+
+// maxNoiseSamples second differences are enough for the noise's scale.
+const maxNoiseSamples = 100000
 
 // LagRule chooses the lag, in frames, over which one velocity sample is
 // taken. For a tracer moving at speed |v| with localization noise sigma per
@@ -168,6 +180,9 @@ func MaxLagInLayer(ts []Track, sigmaUM, layerUM, t0S, t1S float64) int {
 		var s float64
 		n := 0
 		for _, t := range ts {
+			if n >= maxLagPairs {
+				break
+			}
 			p := t.Points
 			j := 0
 			for i := range p {
@@ -195,8 +210,12 @@ func MaxLagInLayer(ts []Track, sigmaUM, layerUM, t0S, t1S float64) int {
 	return best
 }
 
-// minPairs is the fewest point pairs for a mean square excursion.
-const minPairs = 30
+// minPairs is the fewest point pairs for a mean square excursion, and
+// maxLagPairs enough for it to about 1%.
+const (
+	minPairs    = 30
+	maxLagPairs = 20000
+)
 
 // Sample is one velocity measurement: a tracer's displacement over Lag
 // frames over the elapsed time, placed at the step's midpoint.
@@ -273,4 +292,55 @@ func mad(v []float64) float64 {
 		d[i] = math.Abs(x - m)
 	}
 	return median(d)
+}
+
+// JumpSigmas is how many standard deviations of the noise of a
+// frame-to-frame step a step may stray from its track's typical step before
+// the track is cut there: a larger stray is a mislink or a tracer that
+// wrapped around the field, not motion (common practice).
+const JumpSigmas = 8
+
+// Split cuts tracks where a frame-to-frame step departs from the track's
+// median step (per frame) by more than maxChangeUM, the largest change of a
+// step that the motion can explain (the moving wall's travel per frame,
+// for a wall that starts or stops), plus JumpSigmas times the noise of a
+// step, sqrt(2) sigmaUM. Only steps ending at or before untilS are cut (the
+// recoil after a stop may be a sudden jump of its own). Pieces after a cut
+// get new ids above every existing one; pieces of one point are dropped.
+func Split(ts []Track, sigmaUM, maxChangeUM, untilS float64) []Track {
+	next := 0
+	for _, t := range ts {
+		next = max(next, t.ID+1)
+	}
+	var out []Track
+	var sx, sy []float64
+	for _, t := range ts {
+		p := t.Points
+		if len(p) < 3 {
+			out = append(out, t)
+			continue
+		}
+		sx, sy = sx[:0], sy[:0]
+		for i := 1; i < len(p); i++ {
+			df := float64(p[i].Frame - p[i-1].Frame)
+			sx = append(sx, (p[i].XUM-p[i-1].XUM)/df)
+			sy = append(sy, (p[i].YUM-p[i-1].YUM)/df)
+		}
+		mx, my := median(sx), median(sy)
+		lim := maxChangeUM + JumpSigmas*math.Sqrt2*sigmaUM
+		id, from := t.ID, 0
+		for i := 1; i < len(p); i++ {
+			if p[i].TS <= untilS && math.Hypot(sx[i-1]-mx, sy[i-1]-my) > lim {
+				if i-from > 1 {
+					out = append(out, Track{ID: id, Points: p[from:i]})
+				}
+				id, from = next, i
+				next++
+			}
+		}
+		if len(p)-from > 1 {
+			out = append(out, Track{ID: id, Points: p[from:]})
+		}
+	}
+	return out
 }

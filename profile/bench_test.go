@@ -1,0 +1,24 @@
+package profile
+
+import (
+	"testing"
+
+	"gaptrace/track/synth"
+)
+
+// BenchmarkAnalyze measures Analyze on synth's demo scenario (400 tracers,
+// 400 frames), tracks observed as in the acceptance checks.
+func BenchmarkAnalyze(b *testing.B) {
+	s, err := synth.Builtin("demo", 1)
+	if err != nil {
+		b.Fatal(err)
+	}
+	pts := observe(s, 1)
+	e, c := s.Experiment(), s.Calibration()
+	b.ResetTimer()
+	for range b.N {
+		if _, err := Analyze(pts, e, c, Options{Seed: 1}); err != nil {
+			b.Fatal(err)
+		}
+	}
+}
