@@ -1,12 +1,14 @@
 package link
 
 import (
+	"fmt"
 	"math"
 	"math/rand/v2"
 	"sort"
 	"testing"
 
 	"gaptrace/calib"
+	"gaptrace/calib/experiment"
 	"gaptrace/track/synth"
 	"gaptrace/track/tracks"
 )
@@ -193,27 +195,53 @@ func TestLinkCommonMode(t *testing.T) {
 	}
 }
 
-// TestLinkBuiltinProgram links the homogeneous scenario as it is built in:
-// rest, shear, then rest after the stop, so the prior must follow the start
-// and the stop.
-func TestLinkBuiltinProgram(t *testing.T) {
-	s, err := synth.Builtin("homogeneous", 500)
-	if err != nil {
-		t.Fatal(err)
+// TestLinkBuiltins links every built-in scenario of package synth as it is
+// (rest, shear, cessation; slip, bands, a Couette cell, jitter, failure
+// planes after a step strain), then the homogeneous one with an abrupt
+// start and stop at up to 0.8 of the mean spacing per frame, where every
+// tracer must change its speed at once.
+func TestLinkBuiltins(t *testing.T) {
+	// minCorrect, maxWrong: the built-ins move at a ratio of 0.13 to 0.16,
+	// where the table finds all links; a few are lost at the start and stop.
+	const minCorrect, maxWrong = 0.99, 0.01
+	check := func(label string, s *synth.Scenario, wallUMPerS float64) {
+		b := detect(t, s, 50)
+		opt := Options{FPS: s.FPS, MaxStepPx: MaxStepFor(wallUMPerS, s.FPS, s.UMPerPx), GapFrames: DefaultGapFrames,
+			MeasureCommonMode: s.JitterPx > 0}
+		pts, st, err := Link(b.frames, b.cal, opt)
+		if err != nil {
+			t.Fatal(err)
+		}
+		sc := b.score(pts)
+		ratio := wallUMPerS / s.FPS / s.UMPerPx / b.spacing
+		t.Logf("%-22s ratio %.2f: %.4f correct, %.4f wrong, %d tracks", label, ratio, sc.fracCorrect(), sc.fracWrong(), st.Tracks)
+		if sc.fracCorrect() < minCorrect || sc.fracWrong() > maxWrong {
+			t.Errorf("%s: %.4f correct, %.4f wrong; want at least %.2f and at most %.2f", label, sc.fracCorrect(), sc.fracWrong(), minCorrect, maxWrong)
+		}
 	}
-	b := detect(t, s, 50)
-	opt := Options{FPS: b.s.FPS, MaxStepPx: 1.5*b.wallPx + 3, GapFrames: DefaultGapFrames}
-	pts, st, err := Link(b.frames, b.cal, opt)
-	if err != nil {
-		t.Fatal(err)
+	for _, n := range synth.List() {
+		s, err := synth.Builtin(n.Name, 3)
+		if err != nil {
+			t.Fatal(err)
+		}
+		v := 0.0
+		for _, st := range s.Program() {
+			v = math.Max(v, math.Abs(st.WallSpeedUMPerS))
+		}
+		check(n.Name, s, v)
 	}
-	sc := b.score(pts)
-	t.Logf("built-in program: %d tracks, %.4f correct, %.4f wrong", st.Tracks, sc.fracCorrect(), sc.fracWrong())
-	// minCorrect: the wall travels 4 px per frame, a ratio of 0.16, where
-	// the table shows all links found; a few are lost at the start and stop.
-	const minCorrect = 0.99
-	if sc.fracCorrect() < minCorrect {
-		t.Errorf("%.4f of links correct, want at least %.2f", sc.fracCorrect(), minCorrect)
+	for _, ratio := range []float64{0.5, 0.8} {
+		s, err := synth.Builtin("homogeneous", 4)
+		if err != nil {
+			t.Fatal(err)
+		}
+		spacing := math.Sqrt(float64(s.WidthPx) * s.GapPx() / float64(len(s.Positions(0))))
+		v := ratio * spacing * s.UMPerPx * s.FPS
+		s.Motion = []experiment.Segment{{StartS: 0.5, EndS: 2.0, WallSpeedUMPerS: &v}}
+		if err := s.Validate(); err != nil {
+			t.Fatal(err)
+		}
+		check(fmt.Sprintf("start/stop at %.1f", ratio), s, v)
 	}
 }
 
