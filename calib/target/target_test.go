@@ -1,73 +1,21 @@
 package target
 
 import (
-	"image"
 	"math"
 	"math/rand"
 	"strings"
 	"testing"
 
 	"gocv.io/x/gocv"
+
+	"gaptrace/calib/internal/testtarget"
 )
 
-// board is a checkerboard test target seen through a lens: inner corners
-// cols x rows, squares of squarePx (undistorted pixels) with the first inner
-// corner at (x0, y0), imaged through lens. Each pixel is the exact box
-// filter of the pattern along the board's axes at the pixel's undistorted
-// position (the small change of scale the lens makes inside one pixel is
-// neglected), so edges carry no quantisation of a supersampling grid.
-type board struct {
-	w, h       int
-	cols, rows int
-	squarePx   float64
-	x0, y0     float64
-	lens       Lens
-	noise      float64
-	psfPx      float64 // Gaussian blur of the optics, sigma in px
-	seed       int64
-}
-
-// Grey levels of the test board.
-const (
-	boardDark  = 30
-	boardLight = 220
-)
-
-// triangle is the integral of the square wave (-1)^floor(t) from 0 to u.
-func triangle(u float64) float64 { return 1 - math.Abs(math.Mod(u, 2)-1) }
-
-// boxAxis returns, for a pixel of width w board units centred at board
-// coordinate u, the box-filtered indicator of [0, n] and the box-filtered
-// square wave inside it.
-func boxAxis(u, w, n float64) (in, wave float64) {
-	a, b := math.Max(u-w/2, 0), math.Min(u+w/2, n)
-	if b <= a {
-		return 0, 0
-	}
-	return (b - a) / w, (triangle(b) - triangle(a)) / w
-}
-
-func (b board) render(t *testing.T) gocv.Mat {
+func renderBoard(t *testing.T, b testtarget.Board) gocv.Mat {
 	t.Helper()
-	r := rand.New(rand.NewSource(b.seed))
-	pix := make([]byte, b.w*b.h)
-	wb := 1 / b.squarePx
-	for y := 0; y < b.h; y++ {
-		for x := 0; x < b.w; x++ {
-			ux, uy := b.lens.Undistort(float64(x), float64(y))
-			inU, fu := boxAxis((ux-b.x0)/b.squarePx+1, wb, float64(b.cols+1))
-			inV, fv := boxAxis((uy-b.y0)/b.squarePx+1, wb, float64(b.rows+1))
-			dark := (inU*inV + fu*fv) / 2
-			v := boardLight + (boardDark-boardLight)*dark + b.noise*r.NormFloat64()
-			pix[y*b.w+x] = uint8(math.Max(0, math.Min(255, math.Round(v))))
-		}
-	}
-	m, err := gocv.NewMatFromBytes(b.h, b.w, gocv.MatTypeCV8U, pix)
+	m, err := b.Render()
 	if err != nil {
 		t.Fatal(err)
-	}
-	if b.psfPx > 0 {
-		gocv.GaussianBlur(m, &m, image.Pt(0, 0), b.psfPx, b.psfPx, gocv.BorderReplicate)
 	}
 	return m
 }
@@ -92,31 +40,31 @@ func TestCheckerboardDistortion(t *testing.T) {
 		t.Run(c.name, func(t *testing.T) {
 			// A made-up macro lens: focal length 900 px on a 480x360 sensor,
 			// so the corners reach r = 0.3 in normalised units.
-			b := board{w: 480, h: 360, cols: 9, rows: 6, squarePx: 40, x0: 80, y0: 80,
-				lens: Lens{Fx: 900, Fy: 900, Cx: 239.5, Cy: 179.5, K: [5]float64{c.k1, c.k2, 0, 0, 0}}, noise: c.noise, psfPx: 1, seed: int64(i)}
-			m := b.render(t)
+			lens := Lens{Fx: 900, Fy: 900, Cx: 239.5, Cy: 179.5, K: [5]float64{c.k1, c.k2, 0, 0, 0}}
+			b := testtarget.Board{W: 480, H: 360, Cols: 9, Rows: 6, SquarePx: 40, X0: 80, Y0: 80,
+				Undistort: lens.Undistort, Noise: c.noise, PSFPx: 1, Seed: int64(i)}
+			m := renderBoard(t, b)
 			defer m.Close()
-			got, err := Checkerboard(m, b.cols, b.rows, 250)
+			got, err := Checkerboard(m, b.Cols, b.Rows, 250)
 			if err != nil {
 				t.Fatal(err)
 			}
-			if d := got.SquarePx/b.squarePx - 1; math.Abs(d) > squareTolFrac {
-				t.Errorf("square %.4f px, want %g (%.3f%%)", got.SquarePx, b.squarePx, 100*d)
+			if d := got.SquarePx/b.SquarePx - 1; math.Abs(d) > squareTolFrac {
+				t.Errorf("square %.4f px, want %g (%.3f%%)", got.SquarePx, b.SquarePx, 100*d)
 			}
-			if d := got.UMPerPx/(250/b.squarePx) - 1; math.Abs(d) > squareTolFrac {
-				t.Errorf("um_per_px %.5f, want %.5f", got.UMPerPx, 250/b.squarePx)
+			if d := got.UMPerPx/(250/b.SquarePx) - 1; math.Abs(d) > squareTolFrac {
+				t.Errorf("um_per_px %.5f, want %.5f", got.UMPerPx, 250/b.SquarePx)
 			}
 			var worst, ss float64
 			for k, p := range got.Corners {
-				wx := b.x0 + float64(k%b.cols)*b.squarePx
-				wy := b.y0 + float64(k/b.cols)*b.squarePx
+				wx, wy := b.Corner(k)
 				ux, uy := got.Lens.Undistort(p[0], p[1])
 				d := math.Hypot(ux-wx, uy-wy)
 				worst = math.Max(worst, d)
 				ss += d * d
 			}
 			t.Logf("square %.4f px (truth %g), undistorted corners RMS %.3f px, worst %.3f px, reprojection %.3f px, k=%v",
-				got.SquarePx, b.squarePx, math.Sqrt(ss/float64(len(got.Corners))), worst, got.ReprojectionPx, got.Lens.K)
+				got.SquarePx, b.SquarePx, math.Sqrt(ss/float64(len(got.Corners))), worst, got.ReprojectionPx, got.Lens.K)
 			if worst > undistTolPx {
 				t.Errorf("undistorted corner off by %.3f px, want within %g", worst, undistTolPx)
 			}
@@ -125,8 +73,8 @@ func TestCheckerboardDistortion(t *testing.T) {
 }
 
 func TestCheckerboardNotFound(t *testing.T) {
-	b := board{w: 320, h: 240, cols: 9, rows: 6, squarePx: 20, x0: 60, y0: 60, lens: Lens{Fx: 500, Fy: 500, Cx: 160, Cy: 120}}
-	m := b.render(t)
+	b := testtarget.Board{W: 320, H: 240, Cols: 9, Rows: 6, SquarePx: 20, X0: 60, Y0: 60, PSFPx: 1}
+	m := renderBoard(t, b)
 	defer m.Close()
 	// Ask for more corners than the board has.
 	_, err := Checkerboard(m, 11, 8, 250)
