@@ -84,6 +84,13 @@ const (
 	// so that of two otherwise equal candidates the track with the shorter
 	// gap wins.
 	GapPenalty = 0.2
+	// AltPenalty is added to the cost of a track continuing not as its own
+	// motion predicts but as the flow prior or a standstill does (the start
+	// or stop of shear): such a link must fit well to beat a new track.
+	AltPenalty = 0.3
+	// altApart is how far, in search radii, an alternative prediction must
+	// lie from the track's own to be searched separately.
+	altApart = 0.5
 	// PriorWeightSteps weighs the flow prior against a track's own motion
 	// as if the prior were this many measured steps.
 	PriorWeightSteps = 2
@@ -290,25 +297,25 @@ func (l *Linker) finish(t *track) {
 }
 
 // predict returns a track's expected displacement per frame and whether it
-// has any motion estimate.
-func (l *Linker) predict(t *track) (vx, vy float64, ok bool) {
+// has any motion estimate, and, for a track with its own motion, the flow
+// prior's displacement at its height (pok false when none or not needed).
+func (l *Linker) predict(t *track) (vx, vy float64, ok bool, px, py float64, pok bool) {
 	n := t.newest()
-	px, py, pok := 0.0, 0.0, false
 	if l.opt.Prior != nil {
 		_, yUM := l.cal.ToGap(t.hx[n], t.hy[n])
 		px, py, pok = l.opt.Prior.Step(t.last, yUM)
 	}
 	if t.nh < 2 {
-		return px, py, pok
+		return px, py, pok, 0, 0, false
 	}
 	o := t.oldest()
 	steps := float64(t.hf[n] - t.hf[o])
 	ox, oy := (t.hx[n]-t.hx[o])/steps, (t.hy[n]-t.hy[o])/steps
 	if !pok {
-		return ox, oy, true
+		return ox, oy, true, 0, 0, false
 	}
 	w := steps / (steps + PriorWeightSteps)
-	return w*ox + (1-w)*px, w*oy + (1-w)*py, true
+	return w*ox + (1-w)*px, w*oy + (1-w)*py, true, px, py, true
 }
 
 // candidates lists the candidate pairs of active tracks and the frame's
@@ -325,7 +332,7 @@ func (l *Linker) candidates(frame int) {
 	l.g.build(l.p, cell)
 	for ti, t := range l.active {
 		k := frame - t.last
-		vx, vy, ok := l.predict(t)
+		vx, vy, ok, px, py, pok := l.predict(t)
 		n := t.newest()
 		lx, ly := t.hx[n], t.hy[n]
 		var r float64
@@ -334,22 +341,57 @@ func (l *Linker) candidates(frame int) {
 		} else {
 			r = l.opt.MaxStepPx * float64(k)
 		}
-		maxStep := l.opt.MaxStepPx * float64(k)
-		qx, qy := lx+vx*float64(k), ly+vy*float64(k)
-		r2 := r * r
+		first := len(l.edges)
 		penalty := GapPenalty * float64(k-1)
-		l.g.near(qx, qy, r, func(j int) {
-			p := l.p[j]
-			if dx, dy := p.XPx-lx, p.YPx-ly; dx*dx+dy*dy > maxStep*maxStep {
+		l.near(ti, lx, ly, vx, vy, k, r, penalty, first)
+		if !ok || l.searchPx == 0 || t.nh < 2 {
+			continue
+		}
+		// A track with its own motion may also continue as the flow or
+		// the sample stops or starts: around the prior's and the
+		// motionless prediction, at a price.
+		for _, alt := range [2][3]float64{{px, py, b2f(pok)}, {0, 0, 1}} {
+			if alt[2] == 0 || math.Hypot(alt[0]-vx, alt[1]-vy)*float64(k) < r*altApart {
+				continue
+			}
+			l.near(ti, lx, ly, alt[0], alt[1], k, r, penalty+AltPenalty, first)
+		}
+	}
+}
+
+// near adds the candidate pairs of track ti, last at (lx, ly), with the
+// detections within r of its position predicted k frames ahead at (vx, vy)
+// per frame, at cost (d/r)^2 + extra. Pairs already listed from index first
+// on keep their cheaper cost.
+func (l *Linker) near(ti int, lx, ly, vx, vy float64, k int, r, extra float64, first int) {
+	maxStep := l.opt.MaxStepPx * float64(k)
+	qx, qy := lx+vx*float64(k), ly+vy*float64(k)
+	r2 := r * r
+	l.g.near(qx, qy, r, func(j int) {
+		p := l.p[j]
+		if dx, dy := p.XPx-lx, p.YPx-ly; dx*dx+dy*dy > maxStep*maxStep {
+			return
+		}
+		dx, dy := p.XPx-qx, p.YPx-qy
+		c := (dx*dx+dy*dy)/r2 + extra - 1
+		if c >= 0 {
+			return
+		}
+		for e := first; e < len(l.edges); e++ {
+			if l.edges[e].d == int32(j) {
+				l.edges[e].cost = math.Min(l.edges[e].cost, c)
 				return
 			}
-			dx, dy := p.XPx-qx, p.YPx-qy
-			c := (dx*dx+dy*dy)/r2 + penalty
-			if c < 1 {
-				l.edges = append(l.edges, edge{int32(ti), int32(j), c - 1})
-			}
-		})
+		}
+		l.edges = append(l.edges, edge{int32(ti), int32(j), c})
+	})
+}
+
+func b2f(b bool) float64 {
+	if b {
+		return 1
 	}
+	return 0
 }
 
 // resolve picks the pairs of a minimum-cost assignment on each connected
