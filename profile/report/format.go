@@ -12,7 +12,8 @@ import (
 // Unknown is how the report prints a number that was not determined.
 const Unknown = "not determined"
 
-// errorDecimals returns the number of decimals to which an uncertainty e > 0
+// errorDecimals returns the number of decimals (negative: tens, hundreds)
+// to which an uncertainty e > 0
 // and its value are rounded, by the rule of the Particle Data Group (Review
 // of Particle Physics, introduction, "Rounding"; from memory): take the
 // three leading digits of e; from 100 to 354 keep two significant digits,
@@ -23,13 +24,20 @@ func errorDecimals(e float64) int {
 	if lead >= 1000 { // e rounded up into the next decade
 		n, lead = n+1, 100
 	}
-	switch {
-	case lead <= 354:
-		return max(0, 1-n)
-	case lead <= 949:
-		return max(0, -n)
+	if lead <= 354 {
+		return 1 - n
 	}
-	return max(0, -n) // 950..999: e is 10^(n+1) shown with two digits
+	return -n // one digit; or 950..999, where e is 10^(n+1) shown with two digits
+}
+
+// fixed prints v rounded to d decimals; a negative d rounds to tens,
+// hundreds, and so on.
+func fixed(v float64, d int) string {
+	if d < 0 {
+		p := math.Pow(10, float64(-d))
+		return strconv.FormatFloat(math.Round(v/p)*p, 'f', 0, 64)
+	}
+	return strconv.FormatFloat(v, 'f', d, 64)
 }
 
 // valueDigits is the number of significant digits of a value printed
@@ -68,11 +76,11 @@ func formatPM(v, e float64, unit string) string {
 		return formatValue(v, unit)
 	}
 	d := errorDecimals(e)
-	vs := strconv.FormatFloat(v, 'f', d, 64)
+	vs := fixed(v, d)
 	if strings.Trim(vs, "-0.") == "" {
 		vs = strings.TrimPrefix(vs, "-") // no "-0.0"
 	}
-	return withUnit(vs+" ± "+strconv.FormatFloat(e, 'f', d, 64), unit)
+	return withUnit(vs+" ± "+fixed(e, d), unit)
 }
 
 func withUnit(s, unit string) string {

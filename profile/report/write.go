@@ -7,6 +7,8 @@ import (
 	"html/template"
 	"os"
 	"path/filepath"
+	"runtime"
+	"sync"
 
 	"gaptrace/profile/report/figure"
 	"gaptrace/profile/summary"
@@ -85,13 +87,11 @@ func Write(dir string, d *Data) ([]string, error) {
 // order, and lists the figures left out for want of data.
 func renderFigures(d *Data) (figs []shownFigure, notShown []string, err error) {
 	s := d.Summary
-	add := func(stem, title, caption string, wide bool, draw func() (*figure.Figure, error)) error {
-		f, err := draw()
-		if err != nil {
-			return fmt.Errorf("report: %s: %w", title, err)
-		}
-		figs = append(figs, shownFigure{Stem: stem, Title: title, Caption: caption, Wide: wide, fig: f})
-		return nil
+	// The figures are queued here and drawn side by side below.
+	var draws []func() (*figure.Figure, error)
+	add := func(stem, title, caption string, wide bool, draw func() (*figure.Figure, error)) {
+		figs = append(figs, shownFigure{Stem: stem, Title: title, Caption: caption, Wide: wide})
+		draws = append(draws, draw)
 	}
 	for i := range s.ShearPhases {
 		title := fmt.Sprintf("Velocity profile, shear phase %d", i+1)
@@ -108,10 +108,8 @@ func renderFigures(d *Data) (figs []shownFigure, notShown []string, err error) {
 		if len(pp.Bands) > 1 {
 			caption += " Shading: the shear bands, each labelled with its local rate."
 		}
-		if err := add(fmt.Sprintf("%s%d", profileStem, i+1), title, caption, false,
-			func() (*figure.Figure, error) { return figure.ProfilePlot(pp) }); err != nil {
-			return nil, nil, err
-		}
+		add(fmt.Sprintf("%s%d", profileStem, i+1), title, caption, false,
+			func() (*figure.Figure, error) { return figure.ProfilePlot(pp) })
 	}
 	type optional struct {
 		have        bool
@@ -155,8 +153,22 @@ func renderFigures(d *Data) (figs []shownFigure, notShown []string, err error) {
 			notShown = append(notShown, o.title)
 			continue
 		}
-		if err := add(o.stem, o.title, o.caption(), o.wide, o.draw); err != nil {
-			return nil, nil, err
+		add(o.stem, o.title, o.caption(), o.wide, o.draw)
+	}
+	errs := make([]error, len(figs))
+	var wg sync.WaitGroup
+	sem := make(chan struct{}, runtime.GOMAXPROCS(0))
+	for i := range figs {
+		wg.Go(func() {
+			sem <- struct{}{}
+			defer func() { <-sem }()
+			figs[i].fig, errs[i] = draws[i]()
+		})
+	}
+	wg.Wait()
+	for i, err := range errs {
+		if err != nil {
+			return nil, nil, fmt.Errorf("report: %s: %w", figs[i].Title, err)
 		}
 	}
 	return figs, notShown, nil

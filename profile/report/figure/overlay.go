@@ -100,13 +100,14 @@ func upscale(w int) int {
 	return max(1, min(overlayMaxUpscale, int(math.Round(float64(overlayTargetPx)/float64(w)))))
 }
 
-// DrawOverlay returns a BGR copy of the frame, enlarged by an integer factor
-// (see Upscale), with the walls, the gap axes (x along the flow, y across
+// DrawOverlay returns a BGR copy of the frame, enlarged by a whole factor
+// (to about 1280 px wide, at most 4-fold) so lines and text stay sharp, with the walls, the gap axes (x along the flow, y across
 // the gap, ticks in um), a scale bar and the tracks drawn on it with
-// OpenCV. The caller closes the result.
+// OpenCV. The caller closes the result; on error it is the zero Mat, which
+// needs no closing.
 func DrawOverlay(o *Overlay) (gocv.Mat, error) {
 	if err := o.Check(); err != nil {
-		return gocv.NewMat(), err
+		return gocv.Mat{}, err
 	}
 	w, h := o.Frame.Cols(), o.Frame.Rows()
 	k := upscale(w)

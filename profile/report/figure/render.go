@@ -4,6 +4,7 @@ import (
 	"bytes"
 	"fmt"
 	"image/color"
+	"image/png"
 	"math"
 
 	"gonum.org/v1/plot"
@@ -104,7 +105,10 @@ func render(wCM, hCM float64, paint func(dc draw.Canvas)) (f *Figure, err error)
 	img := vgimg.NewWith(vgimg.UseWH(w, h), vgimg.UseDPI(DPI), vgimg.UseBackgroundColor(color.White))
 	paint(draw.New(img))
 	var pngBuf bytes.Buffer
-	if _, err := (vgimg.PngCanvas{Canvas: img}).WriteTo(&pngBuf); err != nil {
+	// Fastest deflate: the files come out about a third larger than with the
+	// default level and are written several times faster.
+	enc := png.Encoder{CompressionLevel: png.BestSpeed}
+	if err := enc.Encode(&pngBuf, img.Image()); err != nil {
 		return nil, fmt.Errorf("figure: png: %w", err)
 	}
 	svg := vgsvg.NewWith(vgsvg.UseWH(w, h), vgsvg.EmbedFonts(false))
