@@ -3,6 +3,7 @@ package flowprior
 import (
 	"fmt"
 	"math"
+	"sort"
 
 	"gaptrace/calib"
 	"gaptrace/track/tracks"
@@ -228,8 +229,9 @@ const DefaultMinSteps = 10
 // FromTracks estimates the displacement profile from linked tracks: the
 // median, per gap bin, of the one-frame steps of all tracks, taken in gap
 // coordinates (so common-mode motion already removed from XUM, YUM stays
-// removed) and turned back into image pixels. pts must be grouped by track
-// and ordered by frame within a track, as Linker returns them.
+// removed) and turned back into image pixels. pts may come in any order
+// (grouped by track and in frame order, as Linker returns them, saves a
+// sort).
 func FromTracks(pts []tracks.Point, cal *calib.Calibration, opt TrackOptions) (*Profile, error) {
 	ss, err := trackSteps(pts, cal, 0, 1)
 	if err != nil {
@@ -305,9 +307,40 @@ func profileFromSteps(ss []step, cal *calib.Calibration, opt TrackOptions, npts 
 	return p, nil
 }
 
+// byTrack returns pts grouped by track and in frame order within a track:
+// pts itself when it already is, else a sorted copy.
+func byTrack(pts []tracks.Point) []tracks.Point {
+	less := func(a, b *tracks.Point) bool {
+		return a.Track < b.Track || (a.Track == b.Track && a.Frame < b.Frame)
+	}
+	seen := map[int]bool{}
+	ok := true
+	for i := range pts {
+		if i > 0 && pts[i].Track == pts[i-1].Track {
+			if pts[i].Track != tracks.Unlinked && pts[i].Frame <= pts[i-1].Frame {
+				ok = false
+				break
+			}
+			continue
+		}
+		if seen[pts[i].Track] && pts[i].Track != tracks.Unlinked {
+			ok = false
+			break
+		}
+		seen[pts[i].Track] = true
+	}
+	if ok {
+		return pts
+	}
+	c := append([]tracks.Point(nil), pts...)
+	sort.SliceStable(c, func(i, j int) bool { return less(&c[i], &c[j]) })
+	return c
+}
+
 // eachStep calls fn for every pair of consecutive points one frame apart in
 // the same track.
 func eachStep(pts []tracks.Point, fn func(a, b *tracks.Point)) {
+	pts = byTrack(pts)
 	for i := 1; i < len(pts); i++ {
 		a, b := &pts[i-1], &pts[i]
 		if a.Track == tracks.Unlinked || a.Track != b.Track || b.Frame != a.Frame+1 {
@@ -349,6 +382,7 @@ func CommonModeFromTracks(pts []tracks.Point, cal *calib.Calibration, frames int
 	var os []obs
 	type line struct{ ax, bx, ay, by float64 }
 	var pieces []line
+	pts = byTrack(pts)
 	for i := 0; i < len(pts); {
 		j := i
 		for j < len(pts) && pts[j].Track == pts[i].Track {

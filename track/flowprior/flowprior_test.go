@@ -218,6 +218,22 @@ func TestFromTracksAndSeries(t *testing.T) {
 			t.Errorf("frame %d, %.0f um: step (%.3f, %.3f) px ok=%v, want (%.3f, 0)", c.frame, c.yUM, dx, dy, ok, want)
 		}
 	}
+	// The same points in any order give the same series.
+	shuffled := append([]tracks.Point(nil), pts...)
+	rng.Shuffle(len(shuffled), func(i, j int) { shuffled[i], shuffled[j] = shuffled[j], shuffled[i] })
+	s2, err := SeriesFromTracks(shuffled, cal, TrackOptions{}, 40, 20)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, f := range []int{5, 25} {
+		for _, y := range []float64{100, 500} {
+			a, _, _ := s.Step(f, y)
+			b, _, _ := s2.Step(f, y)
+			if a != b {
+				t.Errorf("frame %d, %.0f um: %g px ordered, %g px shuffled", f, y, a, b)
+			}
+		}
+	}
 	if _, err := SeriesFromTracks(nil, cal, TrackOptions{}, 40, 20); err == nil {
 		t.Error("no tracks: no error")
 	}

@@ -217,6 +217,11 @@ func (l *Linker) Add(frame int, dets []Detection) error {
 	if frame < 0 {
 		return fmt.Errorf("link: negative frame %d", frame)
 	}
+	for _, d := range dets {
+		if math.IsNaN(d.XPx) || math.IsNaN(d.YPx) || math.IsInf(d.XPx, 0) || math.IsInf(d.YPx, 0) {
+			return fmt.Errorf("link: frame %d: detection at (%g, %g) px is not a position", frame, d.XPx, d.YPx)
+		}
+	}
 	l.started, l.lastF = true, frame
 	l.stats.Detections += len(dets)
 
@@ -229,18 +234,12 @@ func (l *Linker) Add(frame int, dets []Detection) error {
 	}
 	l.p = l.p[:0]
 	for _, d := range dets {
-		if math.IsNaN(d.XPx) || math.IsNaN(d.YPx) || math.IsInf(d.XPx, 0) || math.IsInf(d.YPx, 0) {
-			return fmt.Errorf("link: frame %d: detection at (%g, %g) px is not a position", frame, d.XPx, d.YPx)
-		}
 		l.p = append(l.p, pos{d.XPx - sh.DXPx, d.YPx - sh.DYPx})
 	}
 	if l.searchPx == 0 && len(l.p) >= minSpacingSample {
 		l.searchPx = math.Min(SearchFraction*medianNN(l.p, &l.g), l.opt.MaxStepPx)
-		l.stats.SearchPx = l.searchPx
 	}
-	if l.searchPx > 0 {
-		l.stats.SearchPx = l.searchPx
-	}
+	l.stats.SearchPx = l.searchPx
 
 	l.curDets = dets
 	l.candidates(frame)
