@@ -43,8 +43,14 @@ func builtin(t *testing.T, name string, seed int64) (*synth.Scenario, *summary.S
 	return s, s.Truth().Summary, analyze(t, s, uint64(seed))
 }
 
+// pullBounds bracket the rms of (estimate - truth) / standard error over
+// 20 seeds: 1 when the errors are right, with a sampling spread of about
+// 1/sqrt(2*20) = 0.16, so 0.5 and 2 catch an error off by a factor of two.
+const pullLow, pullHigh = 0.5, 2.0
+
 func TestHomogeneousSeeds(t *testing.T) {
 	worst := struct{ rate, slipS, slipM float64 }{}
+	var pull [3]float64
 	for seed := range int64(seeds) {
 		s, truth, r := builtin(t, "homogeneous", seed+1)
 		sp, tp := r.ShearPhases[0], truth.ShearPhases[0]
@@ -53,6 +59,11 @@ func TestHomogeneousSeeds(t *testing.T) {
 		ds := math.Abs(float64(sp.SlipStationaryUMPerS-tp.SlipStationaryUMPerS)) / v
 		dm := math.Abs(float64(sp.SlipMovingUMPerS-tp.SlipMovingUMPerS)) / v
 		worst.rate, worst.slipS, worst.slipM = math.Max(worst.rate, dr), math.Max(worst.slipS, ds), math.Max(worst.slipM, dm)
+		for i, p := range []float64{float64((sp.BulkRatePerS - tp.BulkRatePerS) / sp.BulkRateErrPerS),
+			float64((sp.SlipStationaryUMPerS - tp.SlipStationaryUMPerS) / sp.SlipStationaryErrUMPerS),
+			float64((sp.SlipMovingUMPerS - tp.SlipMovingUMPerS) / sp.SlipMovingErrUMPerS)} {
+			pull[i] += p * p / seeds
+		}
 		if dr > bulkRateTol || ds > homogSlipTol || dm > homogSlipTol || sp.Verdict != tp.Verdict || sp.Banded {
 			t.Errorf("seed %d: bulk rate %.4f (truth %.4f), slip errors %.3g, %.3g of V, verdict %s (truth %s), %d bands",
 				seed+1, float64(sp.BulkRatePerS), float64(tp.BulkRatePerS), ds, dm, sp.Verdict, tp.Verdict, len(sp.Bands))
@@ -60,6 +71,13 @@ func TestHomogeneousSeeds(t *testing.T) {
 	}
 	t.Logf("homogeneous, %d seeds: worst bulk rate error %.2g (tol %g), worst slip errors %.2g, %.2g of V (tol %g)",
 		seeds, worst.rate, bulkRateTol, worst.slipS, worst.slipM, homogSlipTol)
+	for i, name := range []string{"bulk rate", "stationary slip", "moving slip"} {
+		rms := math.Sqrt(pull[i])
+		t.Logf("rms pull of the %s: %.2f", name, rms)
+		if rms < pullLow || rms > pullHigh {
+			t.Errorf("rms pull of the %s over %d seeds is %.2f: its standard error is off", name, seeds, rms)
+		}
+	}
 }
 
 func TestSlipBothWalls(t *testing.T) {

@@ -1,0 +1,94 @@
+package cessation
+
+import (
+	"math"
+	"math/rand/v2"
+	"testing"
+)
+
+func TestLogTimes(t *testing.T) {
+	got := LogTimes(0.005, 1.5, 16)
+	if got[0] != 0.005 || math.Abs(got[len(got)-1]-1.5) > 1e-9 {
+		t.Errorf("times run from %g to %g s, want one frame to 1.5 s", got[0], got[len(got)-1])
+	}
+	for i := 1; i < len(got); i++ {
+		if !(got[i] > got[i-1]) {
+			t.Fatalf("times not increasing: %v", got)
+		}
+	}
+	if len(got) < 12 {
+		t.Errorf("only %d distinct frames of 16 times: %v", len(got), got)
+	}
+}
+
+// final returns per-tracer displacements of the standard picture with noise.
+func final(n int, h, noise float64, dx func(y float64) float64, rng *rand.Rand) []TracerDisplacement {
+	var out []TracerDisplacement
+	for i := range n {
+		y := h * rng.Float64()
+		out = append(out, TracerDisplacement{Track: i, YUM: y, DXUM: dx(y) + noise*rng.NormFloat64()})
+	}
+	return out
+}
+
+func TestFitPicture(t *testing.T) {
+	const h, g, noise = 800.0, 0.05, 0.25
+	cases := []struct {
+		name     string
+		dx       func(y float64) float64
+		interior bool
+		plane    float64
+	}{
+		{"still", func(float64) float64 { return 0 }, false, 0},
+		{"plane", func(y float64) float64 {
+			if y >= 0.6*h {
+				return g * (h - y)
+			}
+			return -g * y
+		}, true, 0.6 * h},
+		{"stationary wall", func(y float64) float64 { return g * (h - y) }, false, 0},
+		{"moving wall", func(y float64) float64 { return -g * y }, false, 0},
+	}
+	rng := rand.New(rand.NewPCG(1, 2))
+	for _, c := range cases {
+		for rep := range 10 {
+			p, err := fitPicture(final(400, h, noise, c.dx, rng), h, noise)
+			if err != nil {
+				t.Fatal(err)
+			}
+			if p.Interior != c.interior {
+				t.Fatalf("%s rep %d: interior jump %v (jump %g at %g um)", c.name, rep, p.Interior, p.JumpUM, p.PlaneUM)
+			}
+			if c.interior && math.Abs(p.PlaneUM-c.plane) > 0.01*h {
+				t.Errorf("%s: plane at %.1f um, truth %.1f", c.name, p.PlaneUM, c.plane)
+			}
+			if c.name != "still" && math.Abs(-p.Slope/g-1) > 0.02 {
+				t.Errorf("%s: slope %.5f, truth %.5f", c.name, p.Slope, -g)
+			}
+		}
+	}
+}
+
+func TestVerdict(t *testing.T) {
+	cases := []struct {
+		name   string
+		p      Picture
+		moving bool
+		mode   string
+		wall   string
+	}{
+		{"still", Picture{GapUM: 800, OffsetUM: 0.01, OffsetErrUM: 0.02, Slope: 1e-5, SlopeErr: 5e-5}, false, "", ""},
+		{"slip at the stationary wall", Picture{GapUM: 800, OffsetUM: 24, OffsetErrUM: 0.05, Slope: -0.03, SlopeErr: 1e-4}, true, ModeWall, WallStationary},
+		{"slip at the moving wall", Picture{GapUM: 800, OffsetUM: 0, OffsetErrUM: 0.05, Slope: -0.03, SlopeErr: 1e-4}, true, ModeWall, WallMoving},
+		{"plane", Picture{GapUM: 800, Interior: true, JumpUM: 40, JumpErrUM: 0.1, PlaneUM: 480, Slope: -0.05}, true, ModeBulk, ""},
+		// Significant but below the noise floor of one tracer (0.3 um).
+		{"tiny drift", Picture{GapUM: 800, OffsetUM: 0.2, OffsetErrUM: 0.01}, false, "", ""},
+	}
+	for _, c := range cases {
+		r := &Result{Picture: c.p, NoiseFloorUM: 0.3}
+		r.verdict()
+		if r.Moving != c.moving || r.Mode != c.mode || r.Wall != c.wall {
+			t.Errorf("%s: moving %v, mode %q, wall %q", c.name, r.Moving, r.Mode, r.Wall)
+		}
+	}
+}

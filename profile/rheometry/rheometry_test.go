@@ -1,0 +1,86 @@
+package rheometry
+
+import (
+	"math"
+	"testing"
+
+	"gaptrace/calib/geometry"
+	"gaptrace/profile/layers"
+	"gaptrace/profile/summary"
+)
+
+// bins returns 40 exact layers of v(y) with a 1 um/s error each.
+func bins(h float64, v func(y float64) float64) []layers.Bin {
+	var b []layers.Bin
+	for i := range 40 {
+		y := (float64(i) + 0.5) * h / 40
+		b = append(b, layers.Bin{FromUM: y - h/80, ToUM: y + h/80, YUM: y, Value: v(y), Err: 1, N: 100, Groups: 20})
+	}
+	return b
+}
+
+func TestDecomposeSigns(t *testing.T) {
+	plates := geometry.Geometry{Kind: geometry.Plates, GapUM: 800}
+	cases := []struct {
+		name               string
+		v                  float64 // wall speed
+		v0, vh             float64 // fluid speed at the walls
+		slipS, slipM, frac float64
+		wallSlip           bool
+		verdict            string
+	}{
+		{"no slip", 1200, 0, 1200, 0, 0, 0, false, summary.Homogeneous},
+		{"slip at both", 1200, 180, 900, 180, 300, 0.4, true, summary.WallSlip},
+		// The contract: slips are positive when the fluid lags the wall
+		// that drags it, whichever way the wall moves.
+		{"reversed", -1200, -180, -900, 180, 300, 0.4, true, summary.WallSlip},
+		{"slip below the fraction", 1200, 12, 1200, 12, 0, 0.01, false, summary.Homogeneous},
+	}
+	for _, c := range cases {
+		d, err := Decompose(bins(800, func(y float64) float64 { return c.v0 + (c.vh-c.v0)*y/800 }), plates, c.v, Options{})
+		if err != nil {
+			t.Fatal(err)
+		}
+		near := func(a, b float64) bool { return math.Abs(a-b) < 1e-6*math.Max(1, math.Abs(b)) }
+		if !near(d.SlipStationaryUMPerS, c.slipS) || !near(d.SlipMovingUMPerS, c.slipM) || !near(d.SlipFraction, c.frac) ||
+			d.WallSlip != c.wallSlip || d.Verdict != c.verdict || !near(d.BulkRatePerS, (c.vh-c.v0)/800) {
+			t.Errorf("%s: slips %g, %g, fraction %g, rate %g, wall slip %v, verdict %s", c.name,
+				d.SlipStationaryUMPerS, d.SlipMovingUMPerS, d.SlipFraction, d.BulkRatePerS, d.WallSlip, d.Verdict)
+		}
+		if c.slipS != 0 && !near(d.SlipLengthStationaryUM, c.slipS/math.Abs(d.BulkRatePerS)) {
+			t.Errorf("%s: slip length %g um, want v_s / rate = %g", c.name, d.SlipLengthStationaryUM, c.slipS/math.Abs(d.BulkRatePerS))
+		}
+	}
+}
+
+// The Newtonian concentric-cylinder profile (Bird, Stewart & Lightfoot
+// 2002, Transport Phenomena, example 3.6-3) is one band in the Newtonian
+// coordinate, with either cylinder rotating.
+func TestCouetteCoordinate(t *testing.T) {
+	for _, rot := range []string{geometry.InnerRotates, geometry.OuterRotates} {
+		g := geometry.Geometry{Kind: geometry.Couette, InnerRadiusMM: 5, OuterRadiusMM: 6, Rotating: rot}
+		h := g.Gap()
+		d, err := Decompose(bins(h, func(y float64) float64 { return g.Reference(y, 1000) }), g, 1000, Options{})
+		if err != nil {
+			t.Fatal(err)
+		}
+		if d.Banded || math.Abs(d.SlipStationaryUMPerS) > 1e-6 || math.Abs(d.SlipMovingUMPerS) > 1e-6 || d.Model.Chi2 > 1e-9 {
+			t.Errorf("rotating %s: %d bands, slips %g, %g, chi2 %g", rot, len(d.Bands), d.SlipStationaryUMPerS, d.SlipMovingUMPerS, d.Model.Chi2)
+		}
+		for _, y := range []float64{0, 1, 333, 999.5, h} {
+			if got := yOfU(g, newtonianU(g, y)); math.Abs(got-y) > 1e-6 {
+				t.Errorf("rotating %s: y %g -> u -> y %g", rot, y, got)
+			}
+		}
+	}
+}
+
+func TestDecomposeErrors(t *testing.T) {
+	g := geometry.Geometry{Kind: geometry.Plates, GapUM: 800}
+	if _, err := Decompose(bins(800, func(float64) float64 { return 0 }), g, 0, Options{}); err == nil {
+		t.Error("zero wall speed accepted")
+	}
+	if _, err := Decompose(nil, g, 100, Options{}); err == nil {
+		t.Error("no layers accepted")
+	}
+}

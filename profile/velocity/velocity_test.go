@@ -1,0 +1,109 @@
+package velocity
+
+import (
+	"math"
+	"math/rand/v2"
+	"testing"
+
+	"gaptrace/track/tracks"
+)
+
+// line returns a track moving at vUMPerS along x at height yUM, one point
+// per frame at dtS, with Gaussian noise of sd sigmaUM on both coordinates.
+func line(id, frames int, vUMPerS, yUM, dtS, sigmaUM float64, rng *rand.Rand) Track {
+	t := Track{ID: id}
+	for f := range frames {
+		ts := float64(f) * dtS
+		t.Points = append(t.Points, tracks.Point{Track: id, Frame: f, TS: ts,
+			XUM: vUMPerS*ts + sigmaUM*rng.NormFloat64(), YUM: yUM + sigmaUM*rng.NormFloat64()})
+	}
+	return t
+}
+
+func TestNoiseUM(t *testing.T) {
+	rng := rand.New(rand.NewPCG(1, 2))
+	for _, sigma := range []float64{0.05, 0.2, 1} {
+		var ts []Track
+		for i := range 200 {
+			ts = append(ts, line(i, 50, 300*float64(i%7), 10*float64(i), 0.01, sigma, rng))
+		}
+		got, err := NoiseUM(ts)
+		if err != nil {
+			t.Fatal(err)
+		}
+		// The MAD of 20000 normal values is good to about 1% (Huber 1981,
+		// Robust Statistics, asymptotic efficiency 37%); 5% is ample.
+		if math.Abs(got/sigma-1) > 0.05 {
+			t.Errorf("noise %g um estimated as %g um", sigma, got)
+		}
+	}
+}
+
+func TestLagRule(t *testing.T) {
+	r := LagRule{SNR: 20, MaxLag: 30}
+	cases := []struct {
+		v, sigma, dt float64
+		want         int
+	}{
+		{1000, 0.2, 0.005, 2},  // 20*sqrt2*0.2 = 5.66 um over 5 um/frame
+		{100, 0.2, 0.005, 12},  // 5.66 / 0.5
+		{10, 0.2, 0.005, 30},   // capped at MaxLag
+		{0, 0.2, 0.005, 30},    // at rest: the longest lag
+		{-1000, 0.2, 0.005, 2}, // the sign does not matter
+		{1e6, 0.2, 0.005, 1},   // never below one frame
+		{100, 0, 0.005, 1},     // no noise: one frame
+	}
+	for _, c := range cases {
+		if got := r.Lag(c.v, c.sigma, c.dt); got != c.want {
+			t.Errorf("Lag(%g um/s, %g um, %g s) = %d, want %d", c.v, c.sigma, c.dt, got, c.want)
+		}
+	}
+}
+
+func TestSamples(t *testing.T) {
+	rng := rand.New(rand.NewPCG(3, 4))
+	ts := []Track{line(1, 40, 500, 100, 0.01, 0, rng)}
+	s := Samples(ts, LagRule{SNR: 20, MaxLag: 10}, 0.2, 0.01, 0.1, 0.3)
+	if len(s) == 0 {
+		t.Fatal("no samples")
+	}
+	for _, x := range s {
+		if math.Abs(x.VXUMPerS-500) > 1e-9 || x.YUM != 100 || x.TS < 0.1 || x.TS > 0.3 {
+			t.Fatalf("sample %+v: want v = 500 um/s at y = 100 um inside [0.1, 0.3] s", x)
+		}
+		// Midpoint of the step.
+		if d := math.Abs(x.TS - (math.Round(x.TS/0.005) * 0.005)); d > 1e-9 {
+			t.Fatalf("sample at %g s is not at the midpoint of frames", x.TS)
+		}
+	}
+	if s[0].Lag != 2 { // 20*sqrt2*0.2/(500*0.01) = 1.13 -> 2 frames
+		t.Errorf("lag %d frames, want 2", s[0].Lag)
+	}
+}
+
+func TestSplit(t *testing.T) {
+	rng := rand.New(rand.NewPCG(5, 6))
+	tr := line(7, 60, 1000, 50, 0.005, 0.2, rng)
+	for i := 30; i < 60; i++ {
+		tr.Points[i].XUM -= 1300 // wraps around the field
+	}
+	got := Split([]Track{tr}, 0.2, 5, math.Inf(1))
+	if len(got) != 2 || len(got[0].Points) != 30 || got[1].ID == 7 {
+		t.Fatalf("split into %d pieces, want 2 of 30 points with a new id", len(got))
+	}
+	// Not cut after untilS.
+	if got := Split([]Track{tr}, 0.2, 5, 0.1); len(got) != 1 {
+		t.Errorf("cut after untilS: %d pieces", len(got))
+	}
+}
+
+func TestFrameInterval(t *testing.T) {
+	rng := rand.New(rand.NewPCG(7, 8))
+	dt, err := FrameIntervalS([]Track{line(1, 10, 1, 1, 0.004, 0, rng)})
+	if err != nil || math.Abs(dt-0.004) > 1e-12 {
+		t.Errorf("frame interval %g s, %v; want 0.004 s", dt, err)
+	}
+	if _, err := FrameIntervalS([]Track{{ID: 1, Points: []tracks.Point{{Frame: 0}, {Frame: 2, TS: 1}}}}); err == nil {
+		t.Error("no error without consecutive frames")
+	}
+}
