@@ -15,6 +15,8 @@ import (
 	"fmt"
 	"math"
 	"os"
+
+	"gaptrace/calib/target"
 )
 
 // Line is a wall line in image pixels, through two points.
@@ -39,17 +41,40 @@ type Calibration struct {
 	HeightPx   int    `json:"height_px"`
 	WallSource string `json:"wall_source,omitempty"` // detected | experiment
 	// Distortion, when not nil, is the lens model applied to detections
-	// before the mapping (from a checkerboard target).
+	// before the mapping (from a checkerboard target). The wall lines are
+	// then in undistorted pixels.
 	Distortion *Distortion `json:"distortion,omitempty"`
+	// Warnings are doubts about the calibration, for the summary.
+	Warnings []string `json:"warnings,omitempty"`
 }
 
 // Distortion is a pinhole camera with radial and tangential distortion in
 // OpenCV's convention: camera matrix fx, fy, cx, cy in pixels and
-// coefficients k1, k2, p1, p2, k3.
+// coefficients k1, k2, p1, p2, k3 (see target.Lens for the model).
 type Distortion struct {
-	Fx, Fy, Cx, Cy float64
-	K              [5]float64
+	Fx float64    `json:"fx_px"`
+	Fy float64    `json:"fy_px"`
+	Cx float64    `json:"cx_px"`
+	Cy float64    `json:"cy_px"`
+	K  [5]float64 `json:"k"`
 }
+
+// Undistort maps a measured image position in px to where it would be
+// without lens distortion.
+func (d *Distortion) Undistort(xPx, yPx float64) (float64, float64) {
+	return target.Lens(*d).Undistort(xPx, yPx)
+}
+
+// Distort maps an undistorted position in px to where the lens images it.
+func (d *Distortion) Distort(xPx, yPx float64) (float64, float64) {
+	return target.Lens(*d).Distort(xPx, yPx)
+}
+
+// Wall sources.
+const (
+	WallsDetected   = "detected"
+	WallsExperiment = "experiment"
+)
 
 // Scale sources.
 const (
@@ -82,18 +107,29 @@ func (c *Calibration) frame() (ox, oy, exx, exy, eyx, eyy float64) {
 	return s[0][0], s[0][1], exx, exy, eyx, eyy
 }
 
-// ToGap maps an image position in pixels to gap coordinates in um.
+// ToGap maps an image position in pixels to gap coordinates in um: the
+// lens distortion is removed first when the calibration has one; x_um is
+// measured along the stationary wall from its first point, positive with
+// the flow, y_um perpendicular to it towards the moving wall.
 func (c *Calibration) ToGap(xPx, yPx float64) (xUM, yUM float64) {
+	if c.Distortion != nil {
+		xPx, yPx = c.Distortion.Undistort(xPx, yPx)
+	}
 	ox, oy, exx, exy, eyx, eyy := c.frame()
 	dx, dy := xPx-ox, yPx-oy
 	return (dx*exx + dy*exy) * c.UMPerPx, (dx*eyx + dy*eyy) * c.UMPerPx
 }
 
-// ToImage maps gap coordinates in um back to image pixels.
+// ToImage maps gap coordinates in um back to image pixels (through the
+// lens distortion when the calibration has one), for drawing overlays.
 func (c *Calibration) ToImage(xUM, yUM float64) (xPx, yPx float64) {
 	ox, oy, exx, exy, eyx, eyy := c.frame()
 	u, v := xUM/c.UMPerPx, yUM/c.UMPerPx
-	return ox + u*exx + v*eyx, oy + u*exy + v*eyy
+	xPx, yPx = ox+u*exx+v*eyx, oy+u*exy+v*eyy
+	if c.Distortion != nil {
+		xPx, yPx = c.Distortion.Distort(xPx, yPx)
+	}
+	return xPx, yPx
 }
 
 // Check reports the first field that makes the calibration unusable.
@@ -107,6 +143,10 @@ func (c *Calibration) Check() error {
 		return errors.New("calibration: stationary_wall_px has two equal points")
 	case c.MovingWallPx[0] == c.MovingWallPx[1]:
 		return errors.New("calibration: moving_wall_px has two equal points")
+	case c.FlowSign != 1 && c.FlowSign != -1 && c.FlowSign != 0: // 0: not set, taken as +1
+		return fmt.Errorf("calibration: flow_sign must be 1 or -1, got %g", c.FlowSign)
+	case c.Distortion != nil && !(c.Distortion.Fx > 0 && c.Distortion.Fy > 0):
+		return fmt.Errorf("calibration: distortion focal lengths must be positive, got %g, %g", c.Distortion.Fx, c.Distortion.Fy)
 	}
 	return nil
 }

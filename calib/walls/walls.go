@@ -665,12 +665,12 @@ func (r *Result) update() {
 
 // CheckInside reports an error when line l leaves the image of w x h pixels
 // (by more than half a pixel) anywhere between its first and last column.
-// name says which wall it is in the message.
+// The message starts with name, which says which line it is.
 func CheckInside(name string, l Line, w, h int) error {
 	const edgePx = 0.5 // the image extends half a pixel beyond the outer pixel centres
 	for _, x := range []float64{0, float64(w - 1)} {
 		if y := l.YAt(x); y < -edgePx || y > float64(h-1)+edgePx {
-			return fmt.Errorf("walls: %s wall at y=%.1f px (x=%g) lies outside the %dx%d image", name, y, x, w, h)
+			return fmt.Errorf("%s at y=%.1f px (x=%g) lies outside the %dx%d image", name, y, x, w, h)
 		}
 	}
 	return nil

@@ -201,10 +201,10 @@ func TestFindErrors(t *testing.T) {
 }
 
 func TestCheckInside(t *testing.T) {
-	if err := CheckInside("moving", Line{Y0: -40, Slope: 0.001}, 640, 480); err == nil || !strings.Contains(err.Error(), "outside the 640x480 image") {
+	if err := CheckInside("moving wall", Line{Y0: -40, Slope: 0.001}, 640, 480); err == nil || !strings.Contains(err.Error(), "outside the 640x480 image") {
 		t.Fatalf("got %v", err)
 	}
-	if err := CheckInside("moving", Line{Y0: 40, Slope: 0.001}, 640, 480); err != nil {
+	if err := CheckInside("moving wall", Line{Y0: 40, Slope: 0.001}, 640, 480); err != nil {
 		t.Fatal(err)
 	}
 }

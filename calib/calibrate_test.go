@@ -1,0 +1,266 @@
+package calib_test
+
+import (
+	"fmt"
+	"io"
+	"math"
+	"path/filepath"
+	"strings"
+	"testing"
+
+	"gocv.io/x/gocv"
+
+	"gaptrace/calib"
+	"gaptrace/calib/experiment"
+	"gaptrace/calib/internal/testtarget"
+	"gaptrace/calib/target"
+	"gaptrace/track/frames"
+	"gaptrace/track/synth"
+)
+
+// synthSource streams a synth scenario's frames as a frames.Source.
+type synthSource struct {
+	s          *synth.Scenario
+	next, step int
+}
+
+func (r *synthSource) Info() frames.Info {
+	bd := r.s.BitDepth
+	if bd == 0 {
+		bd = 8
+	}
+	return frames.Info{Frames: r.s.Frames, FPS: r.s.FPS, WidthPx: r.s.WidthPx, HeightPx: r.s.HeightPx, BitDepth: bd}
+}
+
+func (r *synthSource) Next(dst *gocv.Mat) (int, error) {
+	if r.next >= r.s.Frames {
+		return 0, io.EOF
+	}
+	i := r.next
+	r.next += r.step
+	return i, r.s.Render(i, dst)
+}
+
+func (r *synthSource) Close() error { return nil }
+
+func medianOf(t testing.TB, s *synth.Scenario, n int) gocv.Mat {
+	t.Helper()
+	m, err := frames.Median(&synthSource{s: s, step: max(1, s.Frames/n)}, n)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return m
+}
+
+// Acceptance limits of issue 4 on rendered videos.
+const (
+	scaleTolFrac = 0.005 // um_per_px from the gap
+	lineTolPx    = 0.3   // wall lines, and so gap positions of the tracers
+	tiltTolDeg   = 0.05
+)
+
+// TestCalibrateOnSynth calibrates rendered videos (track/synth) with the
+// scale from the gap, across tilts, polarities, both moving sides and both
+// flow directions, and maps the true tracer positions to gap coordinates.
+func TestCalibrateOnSynth(t *testing.T) {
+	type variant struct {
+		scenario string
+		tiltDeg  float64
+		moving   string
+		flow     float64
+	}
+	cases := []variant{
+		{"homogeneous", -3, "top", 1}, {"homogeneous", 3, "bottom", -1}, {"homogeneous", 0.4, "top", -1},
+		{"dark", -2.5, "bottom", 1}, {"dark", 3, "top", 1}, {"couette", 1.1, "top", 1},
+	}
+	var worstScale, worstY float64
+	for i, c := range cases {
+		t.Run(fmt.Sprintf("%s/%+.1f/%s", c.scenario, c.tiltDeg, c.moving), func(t *testing.T) {
+			s, err := synth.Builtin(c.scenario, int64(7+i))
+			if err != nil {
+				t.Fatal(err)
+			}
+			s.TiltDeg, s.MovingSide, s.FlowSign, s.OmitScale = c.tiltDeg, c.moving, c.flow, true
+			s.Frames = 60
+			med := medianOf(t, s, 30)
+			defer med.Close()
+			e := s.Experiment()
+			cal, err := calib.Calibrate(med, e, calib.Options{FlowSign: c.flow})
+			if err != nil {
+				t.Fatal(err)
+			}
+			if cal.ScaleSource != calib.ScaleGap || cal.WallSource != calib.WallsDetected {
+				t.Errorf("scale source %q, wall source %q", cal.ScaleSource, cal.WallSource)
+			}
+			d := cal.UMPerPx/s.UMPerPx - 1
+			worstScale = math.Max(worstScale, math.Abs(d))
+			if math.Abs(d) > scaleTolFrac {
+				t.Errorf("um_per_px %.5f, truth %g (%+.3f%%)", cal.UMPerPx, s.UMPerPx, 100*d)
+			}
+			if dd := cal.TiltDeg - c.tiltDeg; math.Abs(dd) > tiltTolDeg {
+				t.Errorf("tilt %.4f, want %g", cal.TiltDeg, c.tiltDeg)
+			}
+			truth := s.Calibration()
+			for k, pair := range [][2]calib.Line{{cal.StationaryWallPx, truth.StationaryWallPx}, {cal.MovingWallPx, truth.MovingWallPx}} {
+				for j := range 2 {
+					if dy := pair[0][j][1] - pair[1][j][1]; math.Abs(dy) > lineTolPx {
+						t.Errorf("wall %d point %d: y off by %.3f px", k, j, dy)
+					}
+				}
+			}
+			// True tracers of a frame, without the frame's camera shift.
+			frame := 30
+			jx, jy := s.JitterAt(frame)
+			for _, tr := range s.Positions(frame) {
+				x, y := cal.ToGap(tr.XPx-jx, tr.YPx-jy)
+				dy := (y - tr.YUM) / s.UMPerPx
+				worstY = math.Max(worstY, math.Abs(dy))
+				if math.Abs(dy) > lineTolPx+scaleTolFrac*s.GapPx() {
+					t.Fatalf("tracer %d at (%.1f, %.1f) px: y %.2f um, truth %.2f um", tr.ID, tr.XPx, tr.YPx, y, tr.YUM)
+				}
+				if dx := (x - tr.XUM) / s.UMPerPx; math.Abs(dx) > 1+scaleTolFrac*float64(s.WidthPx) {
+					t.Fatalf("tracer %d: x %.2f um, truth %.2f um (flow sign %g)", tr.ID, x, tr.XUM, c.flow)
+				}
+			}
+		})
+	}
+	t.Logf("worst um_per_px error %.3f%% (limit %.1f%%), worst tracer height error %.3f px", 100*worstScale, 100*scaleTolFrac, worstY)
+}
+
+func TestCalibrateManualWalls(t *testing.T) {
+	s, err := synth.Builtin("homogeneous", 3)
+	if err != nil {
+		t.Fatal(err)
+	}
+	s.Frames = 4
+	s.StateWalls = true
+	med := medianOf(t, s, 4)
+	defer med.Close()
+	e := s.Experiment()
+	cal, err := calib.Calibrate(med, e, calib.Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	truth := s.Calibration()
+	if cal.WallSource != calib.WallsExperiment || cal.ScaleSource != calib.ScaleExperiment {
+		t.Errorf("wall source %q, scale source %q", cal.WallSource, cal.ScaleSource)
+	}
+	for j := range 2 {
+		for k := range 2 {
+			if d := cal.MovingWallPx[j][k] - truth.MovingWallPx[j][k]; math.Abs(d) > 1e-9 {
+				t.Errorf("moving wall %v, want %v", cal.MovingWallPx, truth.MovingWallPx)
+			}
+		}
+	}
+	// The moving side follows from the lines when walls.moving is left out.
+	e.Walls.Moving = ""
+	e.Walls.StationaryPx, e.Walls.MovingPx = e.Walls.MovingPx, e.Walls.StationaryPx
+	cal, err = calib.Calibrate(med, e, calib.Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if cal.MovingWallPx[0][1] < cal.StationaryWallPx[0][1] {
+		t.Errorf("swapped lines: moving wall %v should be below %v", cal.MovingWallPx, cal.StationaryWallPx)
+	}
+}
+
+func TestCalibrateErrors(t *testing.T) {
+	s, err := synth.Builtin("homogeneous", 5)
+	if err != nil {
+		t.Fatal(err)
+	}
+	s.Frames = 4
+	med := medianOf(t, s, 4)
+	defer med.Close()
+	blank := gocv.NewMatWithSizeFromScalar(gocv.NewScalar(40, 0, 0, 0), 480, 640, gocv.MatTypeCV8U)
+	defer blank.Close()
+	dir := t.TempDir()
+	blankPath := filepath.Join(dir, "blank.png")
+	if !gocv.IMWrite(blankPath, blank) {
+		t.Fatal("cannot write the blank target")
+	}
+	cases := []struct {
+		name string
+		img  gocv.Mat
+		mod  func(*experiment.Experiment)
+		want string
+	}{
+		{"frame without walls", blank, func(*experiment.Experiment) {}, "walls not found"},
+		{"walls outside the image", med, func(e *experiment.Experiment) {
+			e.Walls.StationaryPx = [][2]float64{{0, 300}, {639, 310}}
+			e.Walls.MovingPx = [][2]float64{{0, 700}, {639, 705}}
+		}, "outside the 640x480 image"},
+		{"wall running out of the image", med, func(e *experiment.Experiment) {
+			e.Walls.StationaryPx = [][2]float64{{0, 300}, {300, 310}}
+			e.Walls.MovingPx = [][2]float64{{0, 10}, {300, 0}}
+		}, "outside the 640x480 image"},
+		{"gap of 3 px", med, func(e *experiment.Experiment) {
+			e.Walls.StationaryPx = [][2]float64{{0, 203}, {639, 203}}
+			e.Walls.MovingPx = [][2]float64{{0, 200}, {639, 200}}
+		}, "gap of 3.0 px"},
+		{"moving side contradicts the lines", med, func(e *experiment.Experiment) {
+			e.Walls.Moving = experiment.Top
+			e.Walls.StationaryPx = [][2]float64{{0, 100}, {639, 100}}
+			e.Walls.MovingPx = [][2]float64{{0, 400}, {639, 400}}
+		}, "walls.moving is \"top\""},
+		{"checkerboard that cannot be found", med, func(e *experiment.Experiment) {
+			e.Camera.UMPerPx = 0
+			e.Camera.Target = &experiment.Target{Image: "blank.png", Kind: experiment.Checkerboard, PitchUM: 100, Corners: [2]int{9, 6}}
+		}, "checkerboard not found"},
+		{"unreadable target", med, func(e *experiment.Experiment) {
+			e.Camera.Target = &experiment.Target{Image: "missing.png", Kind: experiment.Ruler, PitchUM: 100}
+		}, "cannot read"},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			e := s.Experiment()
+			c.mod(e)
+			_, err := calib.Calibrate(c.img, e, calib.Options{BaseDir: dir})
+			if err == nil || !strings.Contains(err.Error(), c.want) {
+				t.Fatalf("got %v, want an error containing %q", err, c.want)
+			}
+			t.Log(err)
+		})
+	}
+}
+
+// TestCalibrateWithCheckerboard takes the scale and the lens from a
+// checkerboard image next to the experiment file.
+func TestCalibrateWithCheckerboard(t *testing.T) {
+	s, err := synth.Builtin("homogeneous", 11)
+	if err != nil {
+		t.Fatal(err)
+	}
+	s.Frames = 4
+	med := medianOf(t, s, 4)
+	defer med.Close()
+	lens := target.Lens{Fx: 1200, Fy: 1200, Cx: 319.5, Cy: 239.5, K: [5]float64{-0.05}}
+	b := testtarget.Board{W: 640, H: 480, Cols: 9, Rows: 6, SquarePx: 50, X0: 120, Y0: 110, Undistort: lens.Undistort, Noise: 2, PSFPx: 1}
+	img, err := b.Render()
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer img.Close()
+	dir := t.TempDir()
+	if !gocv.IMWrite(filepath.Join(dir, "board.png"), img) {
+		t.Fatal("cannot write the target")
+	}
+	e := s.Experiment()
+	e.Camera.UMPerPx = 0
+	// The board's squares are 100 um, so 2 um/px as the scenario.
+	e.Camera.Target = &experiment.Target{Image: "board.png", Kind: experiment.Checkerboard, PitchUM: 100, Corners: [2]int{9, 6}}
+	cal, err := calib.Calibrate(med, e, calib.Options{BaseDir: dir})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if cal.ScaleSource != calib.ScaleTarget || cal.Distortion == nil {
+		t.Fatalf("scale source %q, distortion %v", cal.ScaleSource, cal.Distortion)
+	}
+	if d := cal.UMPerPx/2 - 1; math.Abs(d) > scaleTolFrac {
+		t.Errorf("um_per_px %.5f, want 2 (%+.3f%%)", cal.UMPerPx, 100*d)
+	}
+	// The video was rendered without distortion, so the walls now carry the
+	// (small) correction; the scale agrees with the gap within the warning
+	// limit.
+	t.Logf("um_per_px %.5f from the target, warnings %q", cal.UMPerPx, cal.Warnings)
+}
