@@ -5,6 +5,7 @@ import (
 	"math"
 	"testing"
 
+	"gaptrace/calib/experiment"
 	"gaptrace/profile/bands"
 	"gaptrace/profile/summary"
 	"gaptrace/track/synth"
@@ -275,5 +276,80 @@ func TestSlipAfterCessation(t *testing.T) {
 	r = analyze(t, s, 701)
 	if a := r.AfterStop; a == nil || a.Mode == nil || *a.Mode != summary.ModeWall || r.Cessation.Wall != synth.WallMoving {
 		t.Errorf("slip after cessation at the moving wall: %+v, wall %q", a, r.Cessation.Wall)
+	}
+}
+
+// localStrainTol is the relative error allowed on a layer's strain inside
+// a band (away from its edges, where the local fit straddles two rates).
+const localStrainTol = 0.05
+
+func TestLocalStrain(t *testing.T) {
+	for _, name := range []string{"homogeneous", "banded2"} {
+		s, truth, r := builtin(t, name, 800)
+		sh := r.Shear[0]
+		bands := truth.ShearPhases[0].Bands
+		dur := sh.Step.DurationS()
+		checked := 0
+		for _, p := range sh.LocalStrain {
+			for _, b := range bands {
+				margin := 3 * s.GapUM() / float64(len(sh.Steady.Bins)) // the local fit's half-width and a layer
+				if p.YUM > float64(b.FromUM)+margin && p.YUM < float64(b.ToUM)-margin {
+					want := float64(b.RatePerS) * dur
+					if math.Abs(p.Strain/want-1) > localStrainTol {
+						t.Errorf("%s: strain %.4f at %.0f um, truth %.4f", name, p.Strain, p.YUM, want)
+					}
+					checked++
+				}
+			}
+		}
+		if checked < len(sh.LocalStrain)/2 {
+			t.Errorf("%s: only %d of %d layers checked", name, checked, len(sh.LocalStrain))
+		}
+		t.Logf("%s: nominal strain %.3f, local strain in the bands %v", name, sh.NominalStrain, bandStrains(sh.LocalStrain))
+	}
+}
+
+func bandStrains(p []StrainPoint) []float64 {
+	var o []float64
+	for i := 0; i < len(p); i += 8 {
+		o = append(o, math.Round(p[i].Strain*1000)/1000)
+	}
+	return o
+}
+
+// A made-up two-step program: forward at 1/s, a pause, back at 0.5/s; then
+// the stop. Each step is decomposed with its own wall speed.
+func TestTwoSteps(t *testing.T) {
+	s, err := synth.Builtin("slip", 900)
+	if err != nil {
+		t.Fatal(err)
+	}
+	s.Motion = []experiment.Segment{{StartS: 0.3, EndS: 1.1, RatePerS: f64(1)}, {StartS: 1.3, EndS: 2.3, RatePerS: f64(-0.5)}}
+	s.Frames = 280
+	if err := s.Validate(); err != nil {
+		t.Fatal(err)
+	}
+	truth := s.Truth().Summary
+	r := analyze(t, s, 900)
+	if len(r.ShearPhases) != 2 {
+		t.Fatalf("%d shear phases, want 2; phases %+v", len(r.ShearPhases), r.Phases)
+	}
+	for i, sp := range r.ShearPhases {
+		tp := truth.ShearPhases[i]
+		v := math.Abs(float64(tp.WallSpeedUMPerS))
+		if math.Abs(float64(sp.SlipStationaryUMPerS-tp.SlipStationaryUMPerS))/v > slipTol ||
+			math.Abs(float64(sp.SlipMovingUMPerS-tp.SlipMovingUMPerS))/v > slipTol ||
+			math.Abs(float64(sp.BulkRatePerS/tp.BulkRatePerS)-1) > bulkRateTol || sp.Verdict != tp.Verdict {
+			t.Errorf("step %d: rate %.4f slips %.2f %.2f %s; truth %.4f %.2f %.2f %s", i+1,
+				float64(sp.BulkRatePerS), float64(sp.SlipStationaryUMPerS), float64(sp.SlipMovingUMPerS), sp.Verdict,
+				float64(tp.BulkRatePerS), float64(tp.SlipStationaryUMPerS), float64(tp.SlipMovingUMPerS), tp.Verdict)
+		}
+	}
+	kinds := ""
+	for _, p := range r.Phases {
+		kinds += p.Kind + " "
+	}
+	if kinds != "rest shear rest shear after_stop " {
+		t.Errorf("phases %q", kinds)
 	}
 }

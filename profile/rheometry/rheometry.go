@@ -44,15 +44,18 @@ type Decomposition struct {
 	// Fluid speed extrapolated to each wall line, um/s.
 	FluidStationaryUMPerS, FluidStationaryErrUMPerS float64
 	FluidMovingUMPerS, FluidMovingErrUMPerS         float64
-	// Slip velocities per the contract: the fluid's speed at the
-	// stationary wall, and the wall's speed minus the fluid's at the moving
-	// wall, both positive when the fluid lags the wall that drags it.
+	// Slip velocities per the contract: the fluid's velocity at the
+	// stationary wall, and the wall's velocity minus the fluid's at the
+	// moving wall, both along +x; positive when the fluid lags the wall that
+	// drags it in a forward phase, negative in a reversed one (wall speed
+	// below zero).
 	SlipStationaryUMPerS, SlipStationaryErrUMPerS float64
 	SlipMovingUMPerS, SlipMovingErrUMPerS         float64
 	// BulkRatePerS is the mean rate of the sample, (v(H) - v(0)) / H from
 	// the fit, signed like the wall speed.
 	BulkRatePerS, BulkRateErrPerS float64
-	// Navier slip lengths b = v_s / bulk rate, um.
+	// Navier slip lengths b = v_s / bulk rate, um: positive when the fluid
+	// lags, in either direction.
 	SlipLengthStationaryUM, SlipLengthStationaryErrUM float64
 	SlipLengthMovingUM, SlipLengthMovingErrUM         float64
 	// SlipFraction is (V - bulk rate * H) / V.
@@ -103,16 +106,15 @@ func Decompose(bins []layers.Bin, g geometry.Geometry, wallSpeedUMPerS float64, 
 	m := sel.Best
 	d := &Decomposition{GapUM: h, WallSpeedUMPerS: wallSpeedUMPerS, Model: m, Selection: sel, geom: g}
 	v := wallSpeedUMPerS
-	sgn := math.Copysign(1, v)
 	d.FluidStationaryUMPerS, d.FluidStationaryErrUMPerS = m.AtErr(0)
 	d.FluidMovingUMPerS, d.FluidMovingErrUMPerS = m.AtErr(h)
-	d.SlipStationaryUMPerS, d.SlipStationaryErrUMPerS = sgn*d.FluidStationaryUMPerS, d.FluidStationaryErrUMPerS
-	d.SlipMovingUMPerS, d.SlipMovingErrUMPerS = sgn*(v-d.FluidMovingUMPerS), d.FluidMovingErrUMPerS
+	d.SlipStationaryUMPerS, d.SlipStationaryErrUMPerS = d.FluidStationaryUMPerS, d.FluidStationaryErrUMPerS
+	d.SlipMovingUMPerS, d.SlipMovingErrUMPerS = v-d.FluidMovingUMPerS, d.FluidMovingErrUMPerS
 	dv := d.FluidMovingUMPerS - d.FluidStationaryUMPerS
 	dvErr := math.Sqrt(math.Max(0, m.Cov(0, 0)+m.Cov(h, h)-2*m.Cov(0, h)))
 	d.BulkRatePerS, d.BulkRateErrPerS = dv/h, dvErr/h
 	d.SlipFraction, d.SlipFractionErr = (v-dv)/v, dvErr/math.Abs(v)
-	rate := sgn * d.BulkRatePerS
+	rate := d.BulkRatePerS
 	d.SlipLengthStationaryUM, d.SlipLengthStationaryErrUM = ratioErr(d.SlipStationaryUMPerS, d.SlipStationaryErrUMPerS, rate, d.BulkRateErrPerS)
 	d.SlipLengthMovingUM, d.SlipLengthMovingErrUM = ratioErr(d.SlipMovingUMPerS, d.SlipMovingErrUMPerS, rate, d.BulkRateErrPerS)
 	d.WallSlip = significant(d.SlipStationaryUMPerS, d.SlipStationaryErrUMPerS, v) ||
