@@ -3,6 +3,7 @@ package report
 import (
 	"fmt"
 
+	"gaptrace/calib/experiment"
 	"gaptrace/profile/report/figure"
 	"gaptrace/profile/summary"
 )
@@ -13,8 +14,11 @@ import (
 type Data struct {
 	// Summary is the run's summary.json.
 	Summary *summary.Summary
-	// ExperimentName is the experiment file's name (Summary.Experiment
-	// when empty).
+	// Experiment is the experiment file, for its geometry and motion
+	// program (optional).
+	Experiment *experiment.Experiment
+	// ExperimentName is the experiment's name (when empty: Experiment.Name,
+	// then Summary.Experiment).
 	ExperimentName string
 	// ExperimentYAML is the experiment file as written, shown verbatim.
 	ExperimentYAML string
@@ -59,6 +63,8 @@ func (d *Data) name() string {
 	switch {
 	case d.ExperimentName != "":
 		return d.ExperimentName
+	case d.Experiment != nil && d.Experiment.Name != "":
+		return d.Experiment.Name
 	case d.Summary.Experiment != "":
 		return d.Summary.Experiment
 	}

@@ -27,6 +27,7 @@ func fullData(t testing.TB) *report.Data {
 	t.Cleanup(func() { frame.Close() })
 	return &report.Data{
 		Summary:        scenario.Summary(),
+		Experiment:     scenario.Experiment(),
 		ExperimentYAML: scenario.YAML,
 		Profiles:       []*figure.PhaseProfile{scenario.Profile()},
 		SpaceTime:      scenario.SpaceTime(),
@@ -179,7 +180,8 @@ func TestContentInWords(t *testing.T) {
 		"failed along a plane inside the gap at 520 µm",
 		"began 0.15 s after the stop",
 		// Calibration and experiment.
-		"2.00 µm/px (from the gap over the wall distance in pixels)", "0.230 °", "wall_speed_um_per_s: 1200",
+		"2.00 µm/px (from the gap over the wall distance in pixels)", "<td>plates</td>",
+		"<td class=\"num\">0.5 – 2.5 s</td><td class=\"num\">1200</td><td class=\"num\">1.50</td><td class=\"num\">3.00</td>", "0.230 °", "wall_speed_um_per_s: 1200",
 		// Warnings and cautions, general and of the run.
 		"12 tracks crossed the moving wall line", "meniscus", "out of the image plane", "Laser",
 		"rotate", "hot", "licensed practice prevail", "shadow of the moving plate",

@@ -115,7 +115,7 @@ footer { border-top: 1px solid var(--rule); margin-top: 30px; padding: 14px 0 30
 {{else}}<p class="none">The input holds no time after a shear phase.</p>{{end}}
 <h3>Time line</h3>
 {{if .Phases}}<table>
-<thead><tr><th>phase</th><th>from</th><th>to</th><th>from the</th></tr></thead>
+<thead><tr><th>phase</th><th>from</th><th>to</th><th>set by</th></tr></thead>
 <tbody>{{range .Phases}}<tr>{{range .}}<td class="num">{{.}}</td>{{end}}</tr>{{end}}</tbody>
 </table>{{else}}<p class="none">No phases.</p>{{end}}
 </section>
@@ -134,7 +134,20 @@ footer { border-top: 1px solid var(--rule); margin-top: 30px; padding: 14px 0 30
 <table class="kv"><tbody>{{range .Input}}<tr><th>{{index . 0}}</th><td>{{index . 1}}</td></tr>{{end}}</tbody></table>
 </div>
 </div>
-<h3>Experiment file</h3>
+{{if .Geometry}}<div class="cols">
+<div>
+<h3>Geometry</h3>
+<table class="kv"><tbody>{{range .Geometry}}<tr><th>{{index . 0}}</th><td>{{index . 1}}</td></tr>{{end}}</tbody></table>
+</div>
+<div>
+<h3>Imposed motion</h3>
+{{if .Program}}<table>
+<thead><tr><th>step</th><th>time</th><th>wall speed (µm/s)</th><th>nominal rate (1/s)</th><th>nominal strain</th></tr></thead>
+<tbody>{{range .Program}}<tr>{{range .}}<td class="num">{{.}}</td>{{end}}</tr>{{end}}</tbody>
+</table>{{else}}<p class="none">No motion program in the experiment file.</p>{{end}}
+</div>
+</div>
+{{end}}<h3>Experiment file</h3>
 {{if .YAML}}<pre>{{.YAML}}</pre>{{else}}<p class="none">Not given.</p>{{end}}
 </section>
 

@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"strconv"
 
+	"gaptrace/calib/geometry"
 	"gaptrace/profile/summary"
 )
 
@@ -12,6 +13,8 @@ type view struct {
 	Name, Tool, YAML string
 	Input            [][2]string
 	Calibration      [][2]string
+	Geometry         [][2]string
+	Program          [][]string
 	Tracking         [][2]string
 	Findings         []finding
 	Phases           [][]string
@@ -78,6 +81,28 @@ func newView(d *Data, figs []shownFigure, notShown []string) *view {
 			{"walls", orUnknown(c.WallSource)},
 			{"stationary wall", linePx(c.StationaryWallPx)},
 			{"moving wall", linePx(c.MovingWallPx)},
+		}
+	}
+	if e := d.Experiment; e != nil {
+		g := e.Geometry
+		v.Geometry = [][2]string{{"kind", string(g.Kind)}, {"gap at the observed position", formatValue(g.Gap(), unitLen)}}
+		switch g.Kind {
+		case geometry.ConePlate:
+			v.Geometry = append(v.Geometry, [2]string{"rim radius", formatValue(g.RadiusMM, "mm")},
+				[2]string{"cone angle", formatValue(g.ConeAngleDeg, "°")})
+		case geometry.ParallelPlate:
+			v.Geometry = append(v.Geometry, [2]string{"rim radius", formatValue(g.RadiusMM, "mm")})
+		case geometry.Couette:
+			rot := g.Rotating
+			if rot == "" {
+				rot = geometry.InnerRotates
+			}
+			v.Geometry = append(v.Geometry, [2]string{"inner radius", formatValue(g.InnerRadiusMM, "mm")},
+				[2]string{"outer radius", formatValue(g.OuterRadiusMM, "mm")}, [2]string{"rotating cylinder", rot})
+		}
+		for i, st := range e.Program() {
+			v.Program = append(v.Program, []string{strconv.Itoa(i + 1), formatSpan(st.StartS, st.EndS),
+				formatValue(st.WallSpeedUMPerS, ""), formatValue(st.RatePerS, ""), formatValue(st.Strain, "")})
 		}
 	}
 	v.Tracking = [][2]string{

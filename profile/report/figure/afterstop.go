@@ -136,6 +136,6 @@ func AfterStopPlot(a *AfterStop) (*Figure, error) {
 		}
 	}
 	p.Legend.Top, p.Legend.Left = true, true
-	p.Legend.XOffs = vg.Points(4)
+	p.Legend.XOffs = vg.Points(legendInsetPt)
 	return renderPlot(p, SingleColumnCM, 7.5)
 }

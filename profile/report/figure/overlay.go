@@ -262,7 +262,7 @@ type flippedTicks struct{}
 
 // Ticks implements plot.Ticker.
 func (flippedTicks) Ticks(lo, hi float64) []plot.Tick {
-	ts := plot.DefaultTicks{}.Ticks(lo, hi)
+	ts := niceTicks{Major: 5}.Ticks(lo, hi)
 	for i := range ts {
 		if ts[i].Label != "" {
 			v := -ts[i].Value
@@ -293,6 +293,7 @@ func OverlayPlot(o *Overlay) (*Figure, error) {
 	p.X.Min, p.X.Max = -0.5, w-0.5
 	p.Y.Min, p.Y.Max = -(h - 0.5), 0.5
 	p.Y.Tick.Marker = flippedTicks{}
+	p.X.Tick.Marker = niceTicks{Major: 8}
 
 	// Choose the height so the data area has the frame's aspect ratio.
 	wL := cm(DoubleColumnCM)

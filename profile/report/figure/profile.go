@@ -103,7 +103,7 @@ func ProfilePlot(pp *PhaseProfile) (*Figure, error) {
 			}
 			p.Add(sp)
 			if i > 0 {
-				if err := vLine(p, b.FromUM/h, yMin, yMax, color.Gray{Y: 90}, boundaryLnPt, dashes[2]); err != nil {
+				if err := vLine(p, b.FromUM/h, yMin, yMax, color.Gray{Y: 90}, boundaryLnPt, dashes[3]); err != nil {
 					return nil, err
 				}
 			}
@@ -156,9 +156,9 @@ func ProfilePlot(pp *PhaseProfile) (*Figure, error) {
 	if len(pp.Bands) > 1 {
 		// A legend entry for the band boundaries.
 		p.Legend.Add("band boundary", lineThumb{draw.LineStyle{Color: color.Gray{Y: 90},
-			Width: vg.Points(boundaryLnPt), Dashes: dashes[2]}})
+			Width: vg.Points(boundaryLnPt), Dashes: dashes[3]}})
 	}
 	p.Legend.Top, p.Legend.Left = true, true
-	p.Legend.XOffs = vg.Points(4)
+	p.Legend.XOffs = vg.Points(legendInsetPt)
 	return renderPlot(p, SingleColumnCM, 7.5)
 }

@@ -33,6 +33,10 @@ const (
 	DPI = 300
 )
 
+// legendInsetPt keeps a legend in the top left corner clear of the wall
+// line drawn at the left end of the axis, pt.
+const legendInsetPt = 12
+
 // Text sizes, pt, all at least MinFontPt.
 const (
 	labelPt  = 8
@@ -66,6 +70,8 @@ func newPlot(xLabel, yLabel string) *plot.Plot {
 	p := plot.New()
 	p.X.Label.Text, p.Y.Label.Text = xLabel, yLabel
 	setFonts(p)
+	p.X.Tick.Marker = niceTicks{Major: 5}
+	p.Y.Tick.Marker = niceTicks{Major: 5}
 	p.Legend.ThumbnailWidth = vg.Points(16)
 	p.X.Padding, p.Y.Padding = vg.Points(2), vg.Points(2)
 	p.Legend.Padding = vg.Points(1)

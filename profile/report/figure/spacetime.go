@@ -177,6 +177,7 @@ func SpaceTimePlot(s *SpaceTime) (*Figure, error) {
 		hm.Min, hm.Max, hm.NaN = lo, hi, noData
 		p.Add(hm)
 	}
+	p.X.Tick.Marker = niceTicks{Major: 10}
 	p.X.Min, p.X.Max = t0, t1
 	p.Y.Min, p.Y.Max = math.Min(0, y0), math.Max(s.GapUM, y1)
 	for _, tb := range s.PhaseBoundariesS {
@@ -198,6 +199,7 @@ func SpaceTimePlot(s *SpaceTime) (*Figure, error) {
 	bar.HideX()
 	bar.Y.Label.Text = s.Quantity.String()
 	setFonts(bar)
+	bar.Y.Tick.Marker = niceTicks{Major: 5}
 	bar.Y.Padding = 0
 
 	return render(DoubleColumnCM, 6.5, func(dc draw.Canvas) {

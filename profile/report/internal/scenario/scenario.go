@@ -5,10 +5,12 @@ package scenario
 import (
 	"math"
 	"math/rand/v2"
+	"strings"
 
 	"gocv.io/x/gocv"
 
 	"gaptrace/calib"
+	"gaptrace/calib/experiment"
 	"gaptrace/profile/report/figure"
 	"gaptrace/profile/summary"
 )
@@ -260,3 +262,12 @@ tracers:
   diameter_px: 4
   polarity: bright
 `
+
+// Experiment is YAML read back.
+func Experiment() *experiment.Experiment {
+	e, err := experiment.Parse(strings.NewReader(YAML))
+	if err != nil {
+		panic(err)
+	}
+	return e
+}
