@@ -7,6 +7,7 @@ import (
 
 	"gaptrace/calib/experiment"
 	"gaptrace/profile/bands"
+	"gaptrace/profile/cessation"
 	"gaptrace/profile/summary"
 	"gaptrace/track/synth"
 )
@@ -220,7 +221,8 @@ func TestNoBandsOnSlipOnly(t *testing.T) {
 }
 
 func TestQuiescentSeeds(t *testing.T) {
-	worst := 0.0
+	worst, wallSig, jumpSig, gain := 0.0, 0.0, 0.0, 0.0
+	n := 0
 	for seed := range int64(seeds) {
 		_, _, r := builtin(t, "step-quiescent", 500+seed)
 		a := r.AfterStop
@@ -228,12 +230,17 @@ func TestQuiescentSeeds(t *testing.T) {
 			t.Fatalf("seed %d: no after-stop analysis; warnings %v", 500+seed, r.Warnings)
 		}
 		worst = math.Max(worst, float64(a.MaxDisplacementUM))
+		c := r.Cessation
+		n = c.Picture.N
+		wallSig, jumpSig, gain = math.Max(wallSig, c.WallSigma), math.Max(jumpSig, c.Picture.CandidateJumpSigma), math.Max(gain, c.Picture.CandidateGain)
 		if a.Verdict != summary.Quiescent {
 			t.Errorf("seed %d: quiescent sample called %s (mode %v, plane %v, max %.3g um, floor %.3g um)",
 				500+seed, a.Verdict, *a.Mode, a.PlaneUM, float64(a.MaxDisplacementUM), float64(a.NoiseFloorUM))
 		}
 	}
-	t.Logf("quiescent, %d seeds: largest layer displacement %.3g um", seeds, worst)
+	t.Logf("quiescent, %d seeds: largest layer displacement %.3g um; largest wall displacement %.2f sigma (moving at %d); "+
+		"best interior jump %.2f sigma (moving at %d), its gain %.1f (BIC penalty 2 ln n about %.1f)",
+		seeds, worst, wallSig, cessation.MovingSigma, jumpSig, cessation.MovingSigma, gain, 2*math.Log(float64(n)))
 }
 
 func TestFailurePlane(t *testing.T) {

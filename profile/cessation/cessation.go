@@ -100,6 +100,11 @@ type Picture struct {
 	RSS                   float64 // residual sum of squares, um^2
 	N                     int     // tracers fitted
 	GapUM                 float64
+	// The best interior jump tried, kept or not: its size over its
+	// standard error, and the gain in n ln(RSS) over the line, to be
+	// compared with the BIC penalty 2 ln n. They say how near a quiet
+	// sample came to a plane.
+	CandidateJumpSigma, CandidateGain float64
 }
 
 // At returns the picture's displacement at height yUM in um.
@@ -135,6 +140,9 @@ type Result struct {
 	Moving            bool
 	Mode              string // "", "wall" or "bulk"
 	Wall              string // for mode wall: "stationary" or "moving"
+	// WallSigma is the larger displacement of the fluid against a wall in
+	// standard errors, the test of slip after cessation.
+	WallSigma float64
 	// RecoveredStrain is -Slope * ShearSense: positive when the layers
 	// move back against the earlier shear.
 	RecoveredStrain, RecoveredStrainErr float64
@@ -521,8 +529,10 @@ func fitPicture(fin []TracerDisplacement, gapUM, floorUM float64) (Picture, erro
 	use := line
 	if jumpAt >= 0 {
 		s2 := jump.rss / float64(max(1, n-4))
-		bic := float64(n)*math.Log(line.rss/jump.rss) > 2*math.Log(float64(n))
-		big := math.Abs(jump.coef[2]) > MovingSigma*math.Sqrt(s2*jump.inv[2][2]) && math.Abs(jump.coef[2]) > floorUM
+		pic.CandidateGain = float64(n) * math.Log(line.rss/jump.rss)
+		pic.CandidateJumpSigma = math.Abs(jump.coef[2]) / math.Sqrt(s2*jump.inv[2][2])
+		bic := pic.CandidateGain > 2*math.Log(float64(n))
+		big := pic.CandidateJumpSigma > MovingSigma && math.Abs(jump.coef[2]) > floorUM
 		if bic && big {
 			use = jump
 			pic.Interior = true
@@ -670,6 +680,7 @@ func (r *Result) verdict() {
 		atMov += p.JumpUM
 		atMovErr = math.Hypot(atMovErr, p.JumpErrUM)
 	}
+	r.WallSigma = math.Max(math.Abs(atStat)/atStatErr, math.Abs(atMov)/atMovErr)
 	sig := func(d, e float64) bool { return math.Abs(d) > MovingSigma*e && math.Abs(d) > r.NoiseFloorUM }
 	switch {
 	case p.Interior:
@@ -741,4 +752,46 @@ func median(v []float64) float64 {
 		return v[n/2]
 	}
 	return (v[n/2-1] + v[n/2]) / 2
+}
+
+// AmplitudeAt returns the amplitude of the final picture at tAfterS: the
+// value at the nearest frame (0 before the first frame after the stop).
+func (r *Result) AmplitudeAt(tAfterS float64) float64 {
+	a := r.Amplitude
+	if len(a) == 0 || tAfterS < a[0].TAfterS/2 {
+		return 0
+	}
+	i := sort.Search(len(a), func(i int) bool { return a[i].TAfterS >= tAfterS })
+	switch {
+	case i == len(a):
+		return a[len(a)-1].A
+	case i > 0 && tAfterS-a[i-1].TAfterS < a[i].TAfterS-tAfterS:
+		return a[i-1].A
+	}
+	return a[i].A
+}
+
+// CurvePoint is a point of a fitted displacement profile.
+type CurvePoint struct{ YUM, DXUM float64 }
+
+// Curve returns the fitted standard picture at tAfterS for plotting: its
+// amplitude at that time times the final picture, at the walls and on both
+// sides of the jump, in y order.
+func (r *Result) Curve(tAfterS float64) []CurvePoint {
+	p := r.Picture
+	a := r.AmplitudeAt(tAfterS)
+	ys := []float64{0}
+	if p.Interior {
+		ys = append(ys, p.PlaneUM, p.PlaneUM)
+	}
+	ys = append(ys, p.GapUM)
+	out := make([]CurvePoint, len(ys))
+	for i, y := range ys {
+		d := p.OffsetUM + p.Slope*y
+		if p.Interior && (y > p.PlaneUM || (y == p.PlaneUM && i == 2)) {
+			d += p.JumpUM
+		}
+		out[i] = CurvePoint{YUM: y, DXUM: a * d}
+	}
+	return out
 }

@@ -92,3 +92,18 @@ func TestVerdict(t *testing.T) {
 		}
 	}
 }
+
+func TestCurve(t *testing.T) {
+	r := &Result{Picture: Picture{GapUM: 800, Interior: true, PlaneUM: 480, JumpUM: 40, Slope: -0.05},
+		Amplitude: []AmplitudePoint{{0.005, 0, 0}, {0.01, 0.5, 0}, {0.015, 1, 0}}}
+	c := r.Curve(0.0101)
+	want := []CurvePoint{{0, 0}, {480, -12}, {480, 8}, {800, 0}}
+	for i := range want {
+		if math.Abs(c[i].YUM-want[i].YUM) > 1e-9 || math.Abs(c[i].DXUM-want[i].DXUM) > 1e-9 {
+			t.Fatalf("curve %v, want %v", c, want)
+		}
+	}
+	if r.AmplitudeAt(0.001) != 0 || r.AmplitudeAt(1) != 1 {
+		t.Errorf("amplitude %g before the first frame, %g after the last", r.AmplitudeAt(0.001), r.AmplitudeAt(1))
+	}
+}
