@@ -176,3 +176,12 @@ func match(spots []spot, dets []Detection, radiusPx float64) []int {
 	}
 	return out
 }
+
+// synthAddSpot draws s into the photon image img.
+func synthAddSpot(img []float64, w, h int, s spot) {
+	synth.AddSpot(img, w, h, s.x, s.y, s.sigma, s.photons)
+}
+
+func formatG(v float64) string { return fmt.Sprintf("%g", v) }
+
+func padf(format string, a ...any) string { return fmt.Sprintf(format, a...) }

@@ -63,6 +63,9 @@ func TestLocalizationPrecision(t *testing.T) {
 			if err != nil {
 				t.Fatal(err)
 			}
+			if err := d.SetBackground(bg); err != nil {
+				t.Fatal(err)
+			}
 			for _, snr := range regime.snrs {
 				rng := rand.New(rand.NewPCG(1, uint64(snr)))
 				photons := sc.photonsFor(snr, sigmaPx)
@@ -71,7 +74,7 @@ func TestLocalizationPrecision(t *testing.T) {
 				for f := 0; f < frames; f++ {
 					spots := gridSpots(sc.w, sc.h, 20, 14, sigmaPx, photons, rng)
 					img := sc.render(t, spots, rng)
-					dets, err := d.Frame(img, bg, f, nil)
+					dets, err := d.Frame(img, f, nil)
 					img.Close()
 					if err != nil {
 						t.Fatal(err)

@@ -31,14 +31,27 @@ func Run(src frames.Source, bg gocv.Mat, opt Options, emit func(frame int, dets 
 		workers = runtime.GOMAXPROCS(0)
 	}
 	info := src.Info()
-	// One conversion of the background, shared read-only by the workers.
-	bgF := gocv.NewMat()
-	defer bgF.Close()
+	// One copy of the background, shared read-only by the workers.
+	var shared *Detector
+	if shared, err = NewDetector(opt); err != nil {
+		return err
+	}
+	defer shared.Close()
 	if !bg.Empty() {
 		if bg.Cols() != info.WidthPx || bg.Rows() != info.HeightPx {
 			return fmt.Errorf("detect: background is %dx%d px, %s is %dx%d px", bg.Cols(), bg.Rows(), info.Path, info.WidthPx, info.HeightPx)
 		}
-		bg.ConvertTo(&bgF, gocv.MatTypeCV32F)
+		if err := shared.SetBackground(bg); err != nil {
+			return err
+		}
+	}
+	newDetector := func() (*Detector, error) {
+		d, err := NewDetector(opt)
+		if err != nil {
+			return nil, err
+		}
+		d.bg, d.bgW, d.bgH = shared.bg, shared.bgW, shared.bgH
+		return d, nil
 	}
 
 	// The pool of frame buffers: each is read into, detected in, and
@@ -74,11 +87,11 @@ func Run(src frames.Source, bg gocv.Mat, opt Options, emit func(frame int, dets 
 		return err
 	}
 	if opt.Polarity == PolarityAuto {
-		d, err := NewDetector(opt)
+		d, err := newDetector()
 		if err != nil {
 			return err
 		}
-		_, err = d.Frame(pool[first], bgF, firstIndex, nil)
+		_, err = d.Frame(pool[first], firstIndex, nil)
 		opt.Polarity = d.Polarity()
 		d.Close()
 		if err != nil {
@@ -129,7 +142,7 @@ func Run(src frames.Source, bg gocv.Mat, opt Options, emit func(frame int, dets 
 		wwg.Add(1)
 		go func() {
 			defer wwg.Done()
-			d, err := NewDetector(opt)
+			d, err := newDetector()
 			if err != nil {
 				select {
 				case results <- result{seq: -1, err: err}:
@@ -139,7 +152,7 @@ func Run(src frames.Source, bg gocv.Mat, opt Options, emit func(frame int, dets 
 			}
 			defer d.Close()
 			for j := range jobs {
-				dets, err := d.Frame(pool[j.buf], bgF, j.index, nil)
+				dets, err := d.Frame(pool[j.buf], j.index, nil)
 				free <- j.buf
 				select {
 				case results <- result{j.seq, j.index, dets, err}:

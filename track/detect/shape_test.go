@@ -22,6 +22,9 @@ func TestShapeNoise(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
+	if err := d.SetBackground(bg); err != nil {
+		t.Fatal(err)
+	}
 	defer d.Close()
 	// A pixel-integrated Gaussian of sd s has variance s^2 + 1/12 per axis.
 	wantSize := math.Sqrt(2 * (sigmaPx*sigmaPx + 1.0/12))
@@ -32,7 +35,7 @@ func TestShapeNoise(t *testing.T) {
 		for f := 0; f < 20; f++ {
 			spots := gridSpots(sc.w, sc.h, 20, 14, sigmaPx, sc.photonsFor(snr, sigmaPx), rng)
 			img := sc.render(t, spots, rng)
-			dets, err := d.Frame(img, bg, f, nil)
+			dets, err := d.Frame(img, f, nil)
 			img.Close()
 			if err != nil {
 				t.Fatal(err)
@@ -93,7 +96,10 @@ func TestRejection(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		dets, err := d.Frame(img, bg, 0, nil)
+		if err := d.SetBackground(bg); err != nil {
+			t.Fatal(err)
+		}
+		dets, err := d.Frame(img, 0, nil)
 		d.Close()
 		if err != nil {
 			t.Fatal(err)

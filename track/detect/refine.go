@@ -1,0 +1,239 @@
+package detect
+
+import "math"
+
+// refine locates, sizes and weighs the spot whose integer maximum is
+// (x0, y0). It returns the detection with SNR holding the amplitude in
+// grey levels, still to be divided by the frame's noise.
+func (d *Detector) refine(p *pixels, x0, y0 int) (Detection, bool) {
+	wr := d.wr
+	R := wr + windowSlack
+	n := 2*R + 1
+	p.window(d.win, x0, y0, R)
+	var dx, dy float64 // position relative to (x0, y0)
+	ok := false
+	switch d.opt.Estimator {
+	case Centroid:
+		dx, dy, ok = d.centroid(R)
+	case RadialSymmetry:
+		dx, dy, ok = d.radialCentre(R)
+	}
+	if !ok || math.Abs(dx) > maxShiftPx || math.Abs(dy) > maxShiftPx {
+		return Detection{}, false
+	}
+	// Window of radius wr around the pixel nearest the estimate.
+	ox, oy := int(math.Round(dx)), int(math.Round(dy))
+	s2 := d.sigma*d.sigma + 1.0/12 // pixel integration widens the spot
+	sw2 := d.sigma * d.sigma
+	// Separable Gaussians: t for the amplitude template, wgt for the
+	// moments.
+	var tx, ty, gx, gy [2*maxWindowHalf + 1]float64
+	for i := -wr; i <= wr; i++ {
+		ux := float64(ox+i) - dx
+		uy := float64(oy+i) - dy
+		tx[i+wr] = math.Exp(-ux * ux / (2 * s2))
+		ty[i+wr] = math.Exp(-uy * uy / (2 * s2))
+		gx[i+wr] = math.Exp(-ux * ux / (2 * sw2))
+		gy[i+wr] = math.Exp(-uy * uy / (2 * sw2))
+	}
+	// Least-squares fit of amplitude and offset, v = a t + c.
+	var st, stt, sv, svt float64
+	np := float64((2*wr + 1) * (2*wr + 1))
+	for j := -wr; j <= wr; j++ {
+		row := d.win[(R+oy+j)*n+R+ox-wr : (R+oy+j)*n+R+ox+wr+1]
+		tyj := ty[j+wr]
+		for i, v := range row {
+			t := tx[i] * tyj
+			st += t
+			stt += t * t
+			sv += v
+			svt += v * t
+		}
+	}
+	den := np*stt - st*st
+	if !(den > 0) {
+		return Detection{}, false
+	}
+	// The template's peak is s^2/s2 of the density's peak N/(2 pi s^2).
+	amp := (np*svt - st*sv) / den * s2 / sw2
+	off := (sv*stt - st*svt) / den
+	var sumW, mxx, myy, mxy, bright float64
+	rDisc2 := float64(wr * wr)
+	for j := -wr; j <= wr; j++ {
+		row := d.win[(R+oy+j)*n+R+ox-wr : (R+oy+j)*n+R+ox+wr+1]
+		uy := float64(oy+j) - dy
+		gyj := gy[j+wr]
+		for i, v := range row {
+			v -= off
+			ux := float64(ox+i-wr) - dx
+			if ux*ux+uy*uy <= rDisc2 {
+				bright += v
+			}
+			vw := v * gx[i] * gyj
+			sumW += vw
+			mxx += vw * ux * ux
+			myy += vw * uy * uy
+			mxy += vw * ux * uy
+		}
+	}
+	if !(sumW > 0) {
+		return Detection{}, false
+	}
+	// Gaussian-weighted second moments of a Gaussian spot of variance v
+	// with a weight of variance sw2 are v*sw2/(v+sw2): invert per axis.
+	mxx, myy, mxy = mxx/sumW, myy/sumW, mxy/sumW
+	tr, det := mxx+myy, mxx*myy-mxy*mxy
+	disc := math.Sqrt(math.Max(0, tr*tr/4-det))
+	l1, l2 := tr/2+disc, tr/2-disc
+	deconv := func(m float64) float64 {
+		if m >= sw2 {
+			return math.Inf(1)
+		}
+		return math.Max(0, m*sw2/(sw2-m))
+	}
+	v1, v2 := deconv(l1), deconv(l2)
+	size := math.Sqrt(v1 + v2)
+	ecc := 1.0
+	if v1 > 0 && !math.IsInf(v1, 0) {
+		ecc = math.Sqrt(math.Max(0, 1-v2/v1))
+	}
+	return Detection{XPx: float64(x0) + dx, YPx: float64(y0) + dy, Brightness: bright, SizePx: size, Eccentricity: ecc, SNR: amp}, true
+}
+
+// maxWindowHalf bounds the refinement window's half-width for the
+// stack-held weights: kernelSigmas sds of a spot of DiameterPx up to
+// maxDiameterPx.
+const maxWindowHalf = (kernelSigmas*maxDiameterPx)/diameterSigmas + 1
+
+// centroid is the iterated Gaussian-weighted centroid on the loaded window
+// (centre at index R), the mask's sd centroidMaskWidening times the nominal
+// spot sd. Each step moves the mask by the centroid offset times
+// (sw2+s2)/sw2, the factor by which a Gaussian mask of variance sw2 pulls
+// the centroid of a Gaussian spot of variance s2 towards itself: a Newton
+// step, which converges in a few iterations for a spot of about the nominal
+// size. It returns the position relative to the window's centre.
+func (d *Detector) centroid(R int) (cx, cy float64, ok bool) {
+	wr := d.wr
+	n := 2*R + 1
+	sw2 := centroidMaskWidening * centroidMaskWidening * d.sigma * d.sigma
+	s2 := d.sigma*d.sigma + 1.0/12
+	gainStep := (sw2 + s2) / sw2
+	ix, iy := 0, 0
+	for it := 0; it < maxIterations; it++ {
+		for i := -wr; i <= wr; i++ {
+			ux := float64(ix+i) - cx
+			d.wx[i+wr] = math.Exp(-ux * ux / (2 * sw2))
+			uy := float64(iy+i) - cy
+			d.wy[i+wr] = math.Exp(-uy * uy / (2 * sw2))
+		}
+		var sw, sx, sy float64
+		for j := -wr; j <= wr; j++ {
+			row := d.win[(R+iy+j)*n+R+ix-wr : (R+iy+j)*n+R+ix+wr+1]
+			wyj := d.wy[j+wr]
+			var rs, rx float64
+			for i, v := range row {
+				t := v * d.wx[i]
+				rs += t
+				rx += t * float64(i-wr)
+			}
+			sw += rs * wyj
+			sx += rx * wyj
+			sy += rs * wyj * float64(j)
+		}
+		if !(sw > 0) {
+			return 0, 0, false
+		}
+		// Offsets of the weighted centroid from the current centre.
+		ex := sx/sw + float64(ix) - cx
+		ey := sy/sw + float64(iy) - cy
+		cx += gainStep * ex
+		cy += gainStep * ey
+		if math.Abs(cx) > maxShiftPx || math.Abs(cy) > maxShiftPx {
+			return 0, 0, false
+		}
+		ix, iy = int(math.Round(cx)), int(math.Round(cy))
+		if math.Abs(ex) < convergedPx && math.Abs(ey) < convergedPx {
+			break
+		}
+	}
+	return cx, cy, true
+}
+
+// radialCentre is the radial-symmetry centre of Parthasarathy (2012) on the
+// (2 wr + 1)^2 square at the centre of the loaded window. The intensity
+// gradient is taken at the 2 wr x 2 wr corners between pixels (Roberts
+// cross), smoothed by a 3 x 3 mean; the centre is the point that minimizes
+// the sum of squared distances to the lines through each corner along its
+// gradient, weighted by the squared gradient magnitude over the corner's
+// distance from the gradient-weighted centroid. It returns the position
+// relative to the window's centre.
+func (d *Detector) radialCentre(R int) (cx, cy float64, ok bool) {
+	wr := d.wr
+	n := 2*R + 1
+	m := 2 * wr // corners per side
+	at := func(i, j int) float64 { return d.win[(R-wr+j)*n+R-wr+i] }
+	gx, gy := d.gx, d.gy
+	for j := 0; j < m; j++ {
+		for i := 0; i < m; i++ {
+			a, b := at(i, j), at(i+1, j)
+			c, e := at(i, j+1), at(i+1, j+1)
+			gx[j*m+i] = 0.5 * (b - a + e - c)
+			gy[j*m+i] = 0.5 * (c - a + e - b)
+		}
+	}
+	// 3x3 mean, truncated at the border of the corner grid.
+	sgx, sgy := d.sgx, d.sgy
+	for j := 0; j < m; j++ {
+		for i := 0; i < m; i++ {
+			var sx, sy float64
+			cnt := 0
+			for jj := max(0, j-1); jj <= min(m-1, j+1); jj++ {
+				for ii := max(0, i-1); ii <= min(m-1, i+1); ii++ {
+					sx += gx[jj*m+ii]
+					sy += gy[jj*m+ii]
+					cnt++
+				}
+			}
+			sgx[j*m+i], sgy[j*m+i] = sx/float64(cnt), sy/float64(cnt)
+		}
+	}
+	// Corner (i, j) lies at (i+0.5-wr, j+0.5-wr) from the centre pixel.
+	var sg, scx, scy float64
+	for j := 0; j < m; j++ {
+		for i := 0; i < m; i++ {
+			g2 := sgx[j*m+i]*sgx[j*m+i] + sgy[j*m+i]*sgy[j*m+i]
+			sg += g2
+			scx += g2 * (float64(i) + 0.5 - float64(wr))
+			scy += g2 * (float64(j) + 0.5 - float64(wr))
+		}
+	}
+	if !(sg > 0) {
+		return 0, 0, false
+	}
+	ccx, ccy := scx/sg, scy/sg
+	// Normal equations of sum w ((p - q) . u)^2, u the unit normal to the
+	// gradient g: w u u^T = (w/|g|^2) [gy^2, -gx gy; -gx gy, gx^2], and
+	// w/|g|^2 is 1/distance.
+	var a11, a12, a22, b1, b2 float64
+	for j := 0; j < m; j++ {
+		for i := 0; i < m; i++ {
+			ux, uy := sgx[j*m+i], sgy[j*m+i]
+			if ux == 0 && uy == 0 {
+				continue
+			}
+			qx, qy := float64(i)+0.5-float64(wr), float64(j)+0.5-float64(wr)
+			k := 1 / math.Max(math.Hypot(qx-ccx, qy-ccy), 1e-6)
+			n11, n12, n22 := k*uy*uy, -k*ux*uy, k*ux*ux
+			a11 += n11
+			a12 += n12
+			a22 += n22
+			b1 += n11*qx + n12*qy
+			b2 += n12*qx + n22*qy
+		}
+	}
+	det := a11*a22 - a12*a12
+	if !(math.Abs(det) > 0) {
+		return 0, 0, false
+	}
+	return (a22*b1 - a12*b2) / det, (a11*b2 - a12*b1) / det, true
+}
