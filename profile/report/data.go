@@ -25,8 +25,10 @@ type Data struct {
 	// Profiles holds the steady velocity profile of each shear phase, in
 	// the order of Summary.ShearPhases; a nil entry has no figure.
 	Profiles []*figure.PhaseProfile
-	// SpaceTime is the local velocity or shear rate over the whole run.
-	SpaceTime *figure.SpaceTime
+	// SpaceTime is the map of the local velocity over the whole run, and
+	// RateMap that of the local shear rate (either may be nil; each
+	// figure shows the quantity its Quantity names).
+	SpaceTime, RateMap *figure.SpaceTime
 	// Slip is the slip at each wall and the bulk rate against time.
 	Slip *figure.SlipSeries
 	// AfterStop is the displacement since cessation at several times.

@@ -31,6 +31,7 @@ func fullData(t testing.TB) *report.Data {
 		ExperimentYAML: scenario.YAML,
 		Profiles:       []*figure.PhaseProfile{scenario.Profile()},
 		SpaceTime:      scenario.SpaceTime(),
+		RateMap:        scenario.RateMap(),
 		Slip:           scenario.Slip(),
 		AfterStop:      scenario.AfterStop(),
 		Overlay:        &figure.Overlay{Frame: frame, Calibration: scenario.Calibration(), Tracks: tracks},
@@ -41,8 +42,8 @@ func fullData(t testing.TB) *report.Data {
 	}
 }
 
-var figureStems = []string{"figure_profile_1", "figure_space_time", "figure_slip", "figure_after_stop",
-	"figure_frame", "figure_detection"}
+var figureStems = []string{"figure_profile_1", "figure_slip", "figure_after_stop", "figure_space_time",
+	"figure_rate_map", "figure_frame", "figure_detection"}
 
 // pxPerCM at the PNG resolution.
 const pxPerCM = figure.DPI / 2.54
@@ -72,7 +73,7 @@ func TestWriteAllFiles(t *testing.T) {
 		}
 		t.Errorf("folder holds %v, want only the %d files written (no temporary files)", got, len(want))
 	}
-	wide := map[string]bool{"figure_space_time": true, "figure_frame": true, "figure_detection": true}
+	wide := map[string]bool{"figure_space_time": true, "figure_rate_map": true, "figure_frame": true, "figure_detection": true}
 	for _, s := range figureStems {
 		b, err := os.ReadFile(filepath.Join(dir, s+".png"))
 		if err != nil {
@@ -223,7 +224,8 @@ func TestUnknownNumbers(t *testing.T) {
 
 func TestMissingFiguresAreNamed(t *testing.T) {
 	dir, html := writeReport(t, &report.Data{Summary: scenario.Summary()})
-	if !strings.Contains(html, "Not drawn for want of data: Velocity profile, shear phase 1; Space-time map;") {
+	if !strings.Contains(html, "Not drawn for want of data: Velocity profile, shear phase 1; Wall slip and bulk rate; "+
+		"Displacement after the stop; Space-time map of the local velocity; Space-time map of the local shear rate;") {
 		t.Errorf("report.html does not list the missing figures")
 	}
 	entries, _ := os.ReadDir(dir)
@@ -264,7 +266,6 @@ func TestBadInput(t *testing.T) {
 		{"file as folder", file, &report.Data{Summary: scenario.Summary()}, "is not a folder"},
 		{"too many profiles", dir, &report.Data{Summary: scenario.Summary(),
 			Profiles: []*figure.PhaseProfile{scenario.Profile(), scenario.Profile()}}, "2 velocity profiles for 1 shear phases"},
-		{"bad figure data", dir, &report.Data{Summary: scenario.Summary(), AfterStop: bad}, "after-stop gap -1 um"},
 	}
 	for _, c := range cases {
 		t.Run(c.name, func(t *testing.T) {
@@ -279,5 +280,22 @@ func TestBadInput(t *testing.T) {
 	}
 	if _, err := os.Stat(filepath.Join(dir, report.FileName)); err == nil {
 		t.Errorf("a failed Write left %s behind", report.FileName)
+	}
+}
+
+// A figure whose data cannot be drawn is left out and the report says why.
+func TestBadFigureDataIsReported(t *testing.T) {
+	d := fullData(t)
+	d.AfterStop.GapUM = -1
+	dir, html := writeReport(t, d)
+	if _, err := os.Stat(filepath.Join(dir, "figure_after_stop.png")); err == nil {
+		t.Errorf("figure_after_stop.png written from bad data")
+	}
+	want := "Figure not drawn, Displacement after the stop: figure: after-stop gap -1 um, must be positive"
+	if !strings.Contains(html, want) {
+		t.Errorf("report.html lacks the warning %q", want)
+	}
+	if _, err := os.Stat(filepath.Join(dir, "figure_slip.png")); err != nil {
+		t.Errorf("the other figures were not written: %v", err)
 	}
 }

@@ -94,6 +94,7 @@ footer { border-top: 1px solid var(--rule); margin-top: 30px; padding: 14px 0 30
 <figcaption><b>Figure {{.Number}}. {{.Title}}.</b> {{.Caption}} <span class="file">Files: {{.Stem}}.png, {{.Stem}}.svg.</span></figcaption>
 </figure>
 {{end}}</div>
+{{if .Failed}}<p class="none">Could not be drawn (see the warnings): {{range $i, $n := .Failed}}{{if $i}}; {{end}}{{$n}}{{end}}.</p>{{end}}
 {{if .NotShown}}<p class="none">Not drawn for want of data: {{range $i, $n := .NotShown}}{{if $i}}; {{end}}{{$n}}{{end}}.</p>{{end}}
 </section>
 

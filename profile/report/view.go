@@ -24,6 +24,7 @@ type view struct {
 	AfterStop        [][2]string
 	Figures          []numberedFigure
 	NotShown         []string
+	Failed           []string
 	Warnings         []string
 	Cautions         []string
 }

@@ -21,6 +21,7 @@ const FileName = "report.html"
 const (
 	profileStem   = "figure_profile_" // + shear phase number
 	spaceTimeStem = "figure_space_time"
+	rateMapStem   = "figure_rate_map"
 	slipStem      = "figure_slip"
 	afterStopStem = "figure_after_stop"
 	frameStem     = "figure_frame"
@@ -47,6 +48,10 @@ func (f shownFigure) DataURI() template.URL {
 // embedded. Every file is written under a temporary name and renamed when
 // complete. It returns the names of the files written, relative to dir,
 // report.html last.
+//
+// A figure whose data is missing, or cannot be drawn (the reason goes to
+// the report's warnings), is left out; Write fails only for want of a
+// summary, a folder, or a file it cannot write.
 func Write(dir string, d *Data) ([]string, error) {
 	if err := d.check(); err != nil {
 		return nil, err
@@ -56,10 +61,7 @@ func Write(dir string, d *Data) ([]string, error) {
 	} else if !st.IsDir() {
 		return nil, fmt.Errorf("report: output %q is not a folder", dir)
 	}
-	figs, notShown, err := renderFigures(d)
-	if err != nil {
-		return nil, err
-	}
+	figs, notShown, failed := renderFigures(d)
 	var names []string
 	for _, f := range figs {
 		for _, part := range []struct {
@@ -73,7 +75,7 @@ func Write(dir string, d *Data) ([]string, error) {
 			names = append(names, name)
 		}
 	}
-	page, err := renderPage(d, figs, notShown)
+	page, err := renderPage(d, figs, notShown, failed)
 	if err != nil {
 		return names, err
 	}
@@ -83,9 +85,10 @@ func Write(dir string, d *Data) ([]string, error) {
 	return append(names, FileName), nil
 }
 
-// renderFigures draws every figure d has data for, numbered in report
-// order, and lists the figures left out for want of data.
-func renderFigures(d *Data) (figs []shownFigure, notShown []string, err error) {
+// renderFigures draws every figure d has data for, in report order, and
+// lists the figures left out for want of data and those whose data could
+// not be drawn, with the reason.
+func renderFigures(d *Data) (figs []shownFigure, notShown, failed []string) {
 	s := d.Summary
 	// The figures are queued here and drawn side by side below.
 	var draws []func() (*figure.Figure, error)
@@ -119,11 +122,6 @@ func renderFigures(d *Data) (figs []shownFigure, notShown []string, err error) {
 		draw        func() (*figure.Figure, error)
 	}
 	for _, o := range []optional{
-		{d.SpaceTime != nil, spaceTimeStem, "Space-time map", func() string {
-			return fmt.Sprintf("The %s across the gap through the whole run, from the stationary wall (y = 0) to the "+
-				"moving wall; each cell is one time window and gap bin, white cells had no tracers. Dashed lines: "+
-				"changes of the imposed motion.", d.SpaceTime.Quantity.Noun())
-		}, true, func() (*figure.Figure, error) { return figure.SpaceTimePlot(d.SpaceTime) }},
 		{d.Slip != nil && len(d.Slip.Points) > 0, slipStem, "Wall slip and bulk rate", func() string {
 			return "Top: slip velocity at the stationary wall (fluid speed there) and at the moving wall (wall speed " +
 				"minus fluid speed there) in each time window, bars one standard error. Bottom: shear rate of the bulk " +
@@ -138,6 +136,16 @@ func renderFigures(d *Data) (figs []shownFigure, notShown []string, err error) {
 			}
 			return c
 		}, false, func() (*figure.Figure, error) { return figure.AfterStopPlot(d.AfterStop) }},
+		{d.SpaceTime != nil, spaceTimeStem, mapTitle(d.SpaceTime, figure.LocalVelocity), func() string {
+			return fmt.Sprintf("The %s across the gap through the whole run, from the stationary wall (y = 0) to the "+
+				"moving wall; each cell is one time window and gap bin, white cells had no tracers. Dashed lines: "+
+				"changes of the imposed motion.", d.SpaceTime.Quantity.Noun())
+		}, true, func() (*figure.Figure, error) { return figure.SpaceTimePlot(d.SpaceTime) }},
+		{d.RateMap != nil, rateMapStem, mapTitle(d.RateMap, figure.LocalRate), func() string {
+			return fmt.Sprintf("The %s across the gap through the whole run, from the stationary wall (y = 0) to the "+
+				"moving wall; each cell is one time window and gap bin, white cells had no tracers. Dashed lines: "+
+				"changes of the imposed motion.", d.RateMap.Quantity.Noun())
+		}, true, func() (*figure.Figure, error) { return figure.SpaceTimePlot(d.RateMap) }},
 		{d.Overlay != nil, frameStem, "Frame with walls, gap axes and tracks", func() string {
 			return fmt.Sprintf("The frame at %s with the walls found by the calibration, the gap axes (x along the "+
 				"flow, y across the gap, ticks in µm), a scale bar, and the tracks of %s drawn over it (dot: the "+
@@ -166,17 +174,41 @@ func renderFigures(d *Data) (figs []shownFigure, notShown []string, err error) {
 		})
 	}
 	wg.Wait()
+	drawn := figs[:0]
 	for i, err := range errs {
 		if err != nil {
-			return nil, nil, fmt.Errorf("report: %s: %w", figs[i].Title, err)
+			failed = append(failed, fmt.Sprintf("%s: %v", figs[i].Title, err))
+			continue
 		}
+		drawn = append(drawn, figs[i])
 	}
-	return figs, notShown, nil
+	return drawn, notShown, failed
+}
+
+// mapTitle is the title of a space-time map, after the quantity it shows
+// (or would show: def when m is nil).
+func mapTitle(m *figure.SpaceTime, def figure.Quantity) string {
+	q := def
+	if m != nil {
+		q = m.Quantity
+	}
+	return "Space-time map of the " + q.Noun()
+}
+
+// failedWarnings words the figures that could not be drawn as warnings.
+func failedWarnings(failed []string) []string {
+	var w []string
+	for _, f := range failed {
+		w = append(w, "Figure not drawn, "+f)
+	}
+	return w
 }
 
 // renderPage renders report.html for d with the given rendered figures.
-func renderPage(d *Data, figs []shownFigure, notShown []string) ([]byte, error) {
+func renderPage(d *Data, figs []shownFigure, notShown, failed []string) ([]byte, error) {
 	v := newView(d, figs, notShown)
+	v.Failed = failed
+	v.Warnings = append(append([]string{}, v.Warnings...), failedWarnings(failed)...)
 	var b bytes.Buffer
 	if err := pageTemplate.Execute(&b, v); err != nil {
 		return nil, fmt.Errorf("report: page: %w", err)

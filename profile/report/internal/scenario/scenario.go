@@ -271,3 +271,20 @@ func Experiment() *experiment.Experiment {
 	}
 	return e
 }
+
+// RateMap is the local shear rate over the run: the height derivative of
+// SpaceTime by central differences.
+func RateMap() *figure.SpaceTime {
+	v := SpaceTime()
+	r := &figure.SpaceTime{TS: v.TS, YUM: v.YUM, GapUM: v.GapUM, Quantity: figure.LocalRate,
+		PhaseBoundariesS: v.PhaseBoundariesS}
+	for _, row := range v.Values {
+		out := make([]float64, len(row))
+		for j := range row {
+			lo, hi := max(0, j-1), min(len(row)-1, j+1)
+			out[j] = (row[hi] - row[lo]) / (v.YUM[hi] - v.YUM[lo])
+		}
+		r.Values = append(r.Values, out)
+	}
+	return r
+}
