@@ -1,0 +1,257 @@
+package main
+
+import (
+	"encoding/json"
+	"errors"
+	"fmt"
+	"io"
+	"math"
+	"os"
+	"path/filepath"
+	"sort"
+
+	"gocv.io/x/gocv"
+
+	"gaptrace/calib"
+	"gaptrace/calib/experiment"
+	"gaptrace/profile/summary"
+	"gaptrace/track/detect"
+	"gaptrace/track/frames"
+	"gaptrace/track/link"
+	"gaptrace/track/tracks"
+)
+
+// medianFrames is how many frames from the start of the recording make the
+// median image the walls are found on: the walls are static, so a short
+// stretch suffices, and tracers crossing a pixel in fewer than half of these
+// frames vanish from it.
+const medianFrames = 31
+
+// defaultDiameterPx is the tracer diameter assumed when the experiment file
+// gives none: a typical seeded tracer a few pixels across (common practice).
+const defaultDiameterPx = 5
+
+// maskMarginFactor keeps detections this many tracer radii away from each
+// wall line, outside the wall's edge and reflection line.
+const maskMarginFactor = 1.0
+
+// chain holds what the stages share for one input.
+type chain struct {
+	expPath  string
+	exp      *experiment.Experiment
+	input    string
+	progress bool
+	stderr   io.Writer
+
+	info frames.Info
+	cal  *calib.Calibration
+
+	// Detection diagnostics, for the report.
+	snr          []float64
+	fracX, fracY []float64
+	detections   int
+	polarity     string
+}
+
+// loadExperiment reads the experiment file; every problem is bad input.
+func loadExperiment(path string) (*experiment.Experiment, error) {
+	if path == "" {
+		return nil, badInputf("no experiment file: give -e EXPERIMENT.yaml")
+	}
+	e, err := experiment.Load(path)
+	if err != nil {
+		return nil, badInput(err)
+	}
+	return e, nil
+}
+
+// openInput opens the frames of the input with the experiment's frame rate.
+func (c *chain) openInput(r frames.Range) (frames.Source, error) {
+	if _, err := os.Stat(c.input); err != nil && !hasGlob(c.input) {
+		return nil, badInputf("input %s: %v", c.input, errors.Unwrap(err))
+	}
+	src, err := frames.Open(c.input, c.exp.Camera.FPS, r)
+	if err != nil {
+		return nil, badInput(err)
+	}
+	info := src.Info()
+	if !(info.FPS > 0) {
+		src.Close()
+		return nil, badInputf("input %s: no frame rate in the file; give camera.fps in the experiment file", c.input)
+	}
+	return src, nil
+}
+
+func hasGlob(p string) bool {
+	for _, r := range p {
+		if r == '*' || r == '?' || r == '[' {
+			return true
+		}
+	}
+	return false
+}
+
+// calibrate finds the walls and the scale. The caller closes the returned
+// median image.
+func (c *chain) calibrate() (gocv.Mat, error) {
+	src, err := c.openInput(frames.Range{First: 0, Last: medianFrames - 1, Step: 1})
+	if err != nil {
+		return gocv.Mat{}, err
+	}
+	defer src.Close()
+	c.info = src.Info()
+	med, err := frames.Median(src, medianFrames)
+	if err != nil {
+		return gocv.Mat{}, badInput(err)
+	}
+	cal, err := calib.Calibrate(med, c.exp, calib.Options{BaseDir: filepath.Dir(c.expPath)})
+	if err != nil {
+		med.Close()
+		return gocv.Mat{}, badInput(err)
+	}
+	c.cal = cal
+	return med, nil
+}
+
+// detectAll runs the detector over every frame, inside the gap, and returns
+// the detections per frame index.
+func (c *chain) detectAll() ([][]link.Detection, error) {
+	src, err := c.openInput(frames.All)
+	if err != nil {
+		return nil, err
+	}
+	defer src.Close()
+	c.info = src.Info()
+	d := c.exp.Tracers.DiameterPx
+	if d == 0 {
+		d = defaultDiameterPx
+	}
+	opt := detect.Options{
+		DiameterPx: d,
+		Polarity:   c.exp.PolarityHint(),
+		Mask: &detect.Mask{Stationary: c.cal.StationaryWallPx, Moving: c.cal.MovingWallPx,
+			MarginPx: maskMarginFactor * d / 2},
+	}
+	pr := newProgress(c.stderr, c.progress, "detect", c.info.Frames)
+	var out [][]link.Detection
+	n := 0
+	// The detector's own band-pass removes the smooth background; a temporal
+	// median is not subtracted because tracers at rest, before the shear and
+	// after cessation, would be part of it and vanish.
+	noBackground := gocv.NewMat()
+	defer noBackground.Close()
+	err = detect.Run(src, noBackground, opt, func(frame int, dets []detect.Detection) error {
+		for len(out) <= frame {
+			out = append(out, nil)
+		}
+		ld := make([]link.Detection, len(dets))
+		for i, x := range dets {
+			ld[i] = link.Detection{XPx: x.XPx, YPx: x.YPx, Brightness: x.Brightness, SizePx: x.SizePx}
+			c.snr = append(c.snr, x.SNR)
+			c.fracX = append(c.fracX, x.XPx-math.Floor(x.XPx))
+			c.fracY = append(c.fracY, x.YPx-math.Floor(x.YPx))
+		}
+		out[frame] = ld
+		c.detections += len(dets)
+		n++
+		pr.update(n)
+		return nil
+	})
+	pr.done()
+	if err != nil {
+		return nil, badInput(err)
+	}
+	if n == 0 {
+		return nil, badInputf("input %s: no frames", c.input)
+	}
+	if c.detections == 0 {
+		return nil, badInputf("no tracers found in %d frames of %s (tracer diameter %g px, polarity %s)", n, c.input, d, opt.Polarity)
+	}
+	return out, nil
+}
+
+// maxWallSpeed returns the largest moving-wall speed of the program, um/s.
+func maxWallSpeed(p experiment.Program) float64 {
+	v := 0.0
+	for _, s := range p {
+		v = math.Max(v, math.Abs(s.WallSpeedUMPerS))
+	}
+	return v
+}
+
+// linkAll links the detections into tracks in gap coordinates.
+func (c *chain) linkAll(dets [][]link.Detection) ([]tracks.Point, link.Stats, error) {
+	v := maxWallSpeed(c.exp.Program())
+	if v == 0 {
+		// No program: allow a wall speed that moves a tracer across a fifth
+		// of the image per frame.
+		v = 0.2 * float64(c.info.WidthPx) * c.cal.UMPerPx * c.info.FPS
+	}
+	opt := link.Options{FPS: c.info.FPS, MaxStepPx: link.MaxStepFor(v, c.info.FPS, c.cal.UMPerPx),
+		GapFrames: link.DefaultGapFrames, MeasureCommonMode: true}
+	pts, st, err := link.Link(dets, c.cal, opt)
+	if err != nil {
+		return nil, st, err
+	}
+	if st.Tracks == 0 {
+		return nil, st, badInputf("no tracks: %d detections in %d frames could not be linked", st.Detections, len(dets))
+	}
+	return pts, st, nil
+}
+
+// trackStats counts the tracks for the summary.
+func trackStats(pts []tracks.Point, detections int) summary.Tracking {
+	lengths := map[int]int{}
+	for _, p := range pts {
+		if p.Track != tracks.Unlinked {
+			lengths[p.Track]++
+		}
+	}
+	ls := make([]int, 0, len(lengths))
+	for _, n := range lengths {
+		ls = append(ls, n)
+	}
+	sort.Ints(ls)
+	med := 0
+	if len(ls) > 0 {
+		med = ls[len(ls)/2]
+	}
+	return summary.Tracking{Detections: detections, Tracks: len(ls), MedianTrackFrames: med}
+}
+
+// writeTracks writes tracks.csv atomically.
+func writeTracks(path string, pts []tracks.Point) error {
+	return writeAtomic(path, func(w io.Writer) error { return tracks.WriteCSV(w, pts) })
+}
+
+// writeAtomic writes a file through a temporary name in the same folder.
+func writeAtomic(path string, write func(io.Writer) error) error {
+	dir, base := filepath.Split(path)
+	if dir == "" {
+		dir = "."
+	}
+	f, err := os.CreateTemp(dir, "."+base+".partial-*")
+	if err != nil {
+		return err
+	}
+	tmp := f.Name()
+	if err := write(f); err != nil {
+		f.Close()
+		os.Remove(tmp)
+		return fmt.Errorf("writing %s: %w", path, err)
+	}
+	if err := f.Close(); err != nil {
+		os.Remove(tmp)
+		return err
+	}
+	return os.Rename(tmp, path)
+}
+
+// writeCalibJSON writes calibration.json atomically.
+func writeCalibJSON(path string, cal *calib.Calibration) error {
+	b, err := json.MarshalIndent(cal, "", "  ")
+	if err != nil {
+		return err
+	}
+	return summary.WriteFileAtomic(path, append(b, '\n'))
+}

@@ -1,0 +1,59 @@
+package main
+
+import (
+	"fmt"
+	"io"
+	"path/filepath"
+)
+
+func init() {
+	commands["track"] = command{
+		summary: "find the walls, detect the tracers and link them into tracks.csv",
+		run:     runTrack,
+	}
+}
+
+func runTrack(args []string, stderr io.Writer) error {
+	fs := newFlags("track", "INPUT", stderr)
+	expPath := fs.String("e", "", "experiment file (YAML)")
+	outDir := fs.String("o", "", "output folder")
+	prog := fs.Bool("progress", false, "show progress even when stderr is not a terminal")
+	if err := parseFlags(fs, args); err != nil {
+		return err
+	}
+	if fs.NArg() != 1 {
+		return badInputf("track needs one INPUT (video, folder or glob of frames), got %d", fs.NArg())
+	}
+	exp, err := loadExperiment(*expPath)
+	if err != nil {
+		return err
+	}
+	if err := ensureDir(*outDir); err != nil {
+		return err
+	}
+	removeStale(*outDir, "tracks.csv")
+	c := &chain{expPath: *expPath, exp: exp, input: fs.Arg(0), progress: *prog, stderr: stderr}
+	med, err := c.calibrate()
+	if err != nil {
+		return err
+	}
+	med.Close()
+	if err := writeCalibJSON(filepath.Join(*outDir, "calibration.json"), c.cal); err != nil {
+		return err
+	}
+	dets, err := c.detectAll()
+	if err != nil {
+		return err
+	}
+	pts, st, err := c.linkAll(dets)
+	if err != nil {
+		return err
+	}
+	if err := writeTracks(filepath.Join(*outDir, "tracks.csv"), pts); err != nil {
+		return err
+	}
+	ts := trackStats(pts, c.detections)
+	fmt.Fprintf(stderr, "track: %d detections, %d tracks (median %d frames), %d links, %d unlinked\n",
+		ts.Detections, ts.Tracks, ts.MedianTrackFrames, st.Links+st.GapLinks, st.Unlinked)
+	return nil
+}
