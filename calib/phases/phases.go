@@ -1,0 +1,111 @@
+// Package phases divides a recording into rest, shear and after_stop
+// segments: from the experiment's motion program, and from the video
+// itself by the motion of the tracers next to the moving wall, and
+// cross-checks the two.
+//
+// Times are in seconds from the first frame; frame i is at i / fps, and a
+// recording of n frames covers [0, n / fps). Displacements are in pixels
+// per frame along the walls, positive towards +x of the image.
+package phases
+
+import (
+	"fmt"
+	"math"
+
+	"gaptrace/calib/experiment"
+	"gaptrace/profile/summary"
+)
+
+// Phase sources.
+const (
+	SourceExperiment = "experiment"
+	SourceDetected   = "detected"
+)
+
+// FromProgram returns the phases of a recording of durationS seconds under
+// the motion program: rest before the first step and between steps, shear
+// during each step, after_stop after the last one, each cut to the
+// recording.
+func FromProgram(p experiment.Program, durationS float64) []summary.Phase {
+	starts := make([]float64, len(p))
+	ends := make([]float64, len(p))
+	for i, s := range p {
+		starts[i], ends[i] = s.StartS, s.EndS
+	}
+	return fromSegments(starts, ends, durationS, SourceExperiment)
+}
+
+// fromSegments turns shear intervals in time order into the phase list.
+func fromSegments(starts, ends []float64, durationS float64, source string) []summary.Phase {
+	ph := []summary.Phase{}
+	add := func(kind string, a, b float64) {
+		b = math.Min(b, durationS)
+		if b > a {
+			ph = append(ph, summary.Phase{Kind: kind, StartS: a, EndS: b, Source: source})
+		}
+	}
+	t := 0.0
+	for i := range starts {
+		add(summary.Rest, t, starts[i])
+		add(summary.Shear, starts[i], ends[i])
+		t = ends[i]
+	}
+	if len(starts) == 0 {
+		add(summary.Rest, 0, durationS)
+		return ph
+	}
+	add(summary.AfterStopKind, t, durationS)
+	return ph
+}
+
+// MaxDisagreeFrames: the program and the video may disagree on the start
+// or end of a shear phase by this many frames before it is worth a
+// warning (the limit: the camera and rheometer clocks are rarely
+// synchronised better).
+const MaxDisagreeFrames = 2
+
+// Reconcile returns the phases to use and warnings: the program's phases
+// when there are any, else the detected ones; and a warning for every shear
+// phase whose start or end differs between the two by more than
+// MaxDisagreeFrames frames, or when the two count different shear phases.
+func Reconcile(program, detected []summary.Phase, fps float64) ([]summary.Phase, []string) {
+	var warn []string
+	if len(program) == 0 || !hasShear(program) {
+		if len(program) > 0 && hasShear(detected) {
+			warn = append(warn, "phases: the experiment file has no motion, but the video shows the moving wall moving; using the detected phases")
+		}
+		if len(detected) == 0 {
+			return program, warn
+		}
+		return detected, warn
+	}
+	ps, ds := shears(program), shears(detected)
+	if len(detected) > 0 && len(ps) != len(ds) {
+		warn = append(warn, fmt.Sprintf("phases: the experiment file has %d shear phases, the video shows %d", len(ps), len(ds)))
+	}
+	tol := MaxDisagreeFrames / fps
+	for i := 0; i < min(len(ps), len(ds)); i++ {
+		for _, c := range []struct {
+			what string
+			p, d float64
+		}{{"starts", ps[i].StartS, ds[i].StartS}, {"ends", ps[i].EndS, ds[i].EndS}} {
+			if diff := c.d - c.p; math.Abs(diff) > tol {
+				warn = append(warn, fmt.Sprintf("phases: shear phase %d %s at %.3f s in the experiment file but at %.3f s in the video (%+.1f frames)",
+					i+1, c.what, c.p, c.d, diff*fps))
+			}
+		}
+	}
+	return program, warn
+}
+
+func hasShear(ph []summary.Phase) bool { return len(shears(ph)) > 0 }
+
+func shears(ph []summary.Phase) []summary.Phase {
+	var s []summary.Phase
+	for _, p := range ph {
+		if p.Kind == summary.Shear {
+			s = append(s, p)
+		}
+	}
+	return s
+}
