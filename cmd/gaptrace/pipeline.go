@@ -8,7 +8,6 @@ import (
 	"math"
 	"os"
 	"path/filepath"
-	"sort"
 
 	"gocv.io/x/gocv"
 
@@ -50,7 +49,7 @@ type chain struct {
 	snr          []float64
 	fracX, fracY []float64
 	detections   int
-	polarity     string
+	minSNR       float64
 }
 
 // loadExperiment reads the experiment file; every problem is bad input.
@@ -132,6 +131,7 @@ func (c *chain) detectAll() ([][]link.Detection, error) {
 		Mask: &detect.Mask{Stationary: c.cal.StationaryWallPx, Moving: c.cal.MovingWallPx,
 			MarginPx: maskMarginFactor * d / 2},
 	}
+	c.minSNR = detect.DefaultMinSNR
 	pr := newProgress(c.stderr, c.progress, "detect", c.info.Frames)
 	var out [][]link.Detection
 	n := 0
@@ -199,26 +199,6 @@ func (c *chain) linkAll(dets [][]link.Detection) ([]tracks.Point, link.Stats, er
 	return pts, st, nil
 }
 
-// trackStats counts the tracks for the summary.
-func trackStats(pts []tracks.Point, detections int) summary.Tracking {
-	lengths := map[int]int{}
-	for _, p := range pts {
-		if p.Track != tracks.Unlinked {
-			lengths[p.Track]++
-		}
-	}
-	ls := make([]int, 0, len(lengths))
-	for _, n := range lengths {
-		ls = append(ls, n)
-	}
-	sort.Ints(ls)
-	med := 0
-	if len(ls) > 0 {
-		med = ls[len(ls)/2]
-	}
-	return summary.Tracking{Detections: detections, Tracks: len(ls), MedianTrackFrames: med}
-}
-
 // writeTracks writes tracks.csv atomically.
 func writeTracks(path string, pts []tracks.Point) error {
 	return writeAtomic(path, func(w io.Writer) error { return tracks.WriteCSV(w, pts) })
@@ -254,4 +234,38 @@ func writeCalibJSON(path string, cal *calib.Calibration) error {
 		return err
 	}
 	return summary.WriteFileAtomic(path, append(b, '\n'))
+}
+
+// flowSenseFraction is the part of the gap next to the moving wall whose
+// tracks decide which way the moving wall travels in the image.
+const flowSenseFraction = 0.25
+
+// orientFlow makes x_um positive in the direction the moving wall travels
+// during the first shear phase: if the tracks near the moving wall go the
+// other way in the image, the calibration's flow sign and every x_um flip.
+func (c *chain) orientFlow(pts []tracks.Point) {
+	p := c.exp.Program()
+	if len(p) == 0 {
+		return
+	}
+	first := p[0]
+	last := map[int]tracks.Point{}
+	var sum float64
+	for _, q := range pts {
+		if q.Track == tracks.Unlinked || q.TS < first.StartS || q.TS > first.EndS ||
+			q.YUM < (1-flowSenseFraction)*c.cal.GapUM {
+			continue
+		}
+		if prev, ok := last[q.Track]; ok && q.Frame > prev.Frame {
+			sum += q.XUM - prev.XUM
+		}
+		last[q.Track] = q
+	}
+	if sum*math.Copysign(1, first.WallSpeedUMPerS) >= 0 {
+		return
+	}
+	c.cal.FlowSign = -c.cal.FlowSign
+	for i := range pts {
+		pts[i].XUM = -pts[i].XUM
+	}
 }

@@ -2,6 +2,7 @@ package main
 
 import (
 	"fmt"
+	"gaptrace/profile"
 	"io"
 	"path/filepath"
 )
@@ -52,7 +53,8 @@ func runTrack(args []string, stderr io.Writer) error {
 	if err := writeTracks(filepath.Join(*outDir, "tracks.csv"), pts); err != nil {
 		return err
 	}
-	ts := trackStats(pts, c.detections)
+	ts := profile.TrackingCounts(pts)
+	ts.Detections = c.detections
 	fmt.Fprintf(stderr, "track: %d detections, %d tracks (median %d frames), %d links, %d unlinked\n",
 		ts.Detections, ts.Tracks, ts.MedianTrackFrames, st.Links+st.GapLinks, st.Unlinked)
 	return nil
