@@ -279,3 +279,44 @@ func TestOverlayDrawing(t *testing.T) {
 		}
 	}
 }
+
+// The gap axes start on the side the flow comes from, whichever way the
+// flow runs and whichever wall moves.
+func TestOverlayAxesFollowFlow(t *testing.T) {
+	const w, h, grey = 320, 240, 90
+	frame, err := gocv.NewMatFromBytes(h, w, gocv.MatTypeCV8UC1, bytes.Repeat([]byte{grey}, w*h))
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer frame.Close()
+	for _, c := range []struct {
+		name     string
+		flowSign float64
+		axisXPx  float64 // where the y axis should be drawn
+	}{
+		{"flow to +x", 1, 0.1 * w},
+		{"flow to -x", -1, 0.9 * w},
+	} {
+		t.Run(c.name, func(t *testing.T) {
+			cal := scenario.Calibration()
+			// Moving wall at the bottom of the image this time.
+			cal.StationaryWallPx = [2][2]float64{{0, 40}, {319, 40}}
+			cal.MovingWallPx = [2][2]float64{{0, 200}, {319, 200}}
+			cal.GapPx, cal.GapUM, cal.UMPerPx, cal.FlowSign = 160, 320, 2, c.flowSign
+			out, err := figure.DrawOverlay(&figure.Overlay{Frame: frame, Calibration: cal})
+			if err != nil {
+				t.Fatal(err)
+			}
+			defer out.Close()
+			k := out.Cols() / w
+			b := out.ToBytes()
+			for _, yPx := range []float64{90, 150} { // along the axis, between the tick labels
+				x, y := int((c.axisXPx+0.5)*float64(k)), int((yPx+0.5)*float64(k))
+				i := 3 * (y*out.Cols() + x)
+				if got := [3]byte{b[i], b[i+1], b[i+2]}; got != [3]byte{255, 255, 255} {
+					t.Errorf("y axis at (%g, %g) px: BGR %v, want white", c.axisXPx, yPx, got)
+				}
+			}
+		})
+	}
+}

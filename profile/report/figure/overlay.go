@@ -147,6 +147,11 @@ func DrawOverlay(o *Overlay) (gocv.Mat, error) {
 	}
 
 	cal := o.Calibration
+	// The gap axes start near the image side the flow comes from, so the
+	// x arrow points into the image; labels and the scale bar go the other way.
+	ax0, _ := cal.ToImage(0, 0)
+	ax1, _ := cal.ToImage(1, 0)
+	flowLeft := ax1 < ax0
 	for _, wall := range []struct {
 		line calib.Line
 		name string
@@ -157,8 +162,13 @@ func DrawOverlay(o *Overlay) (gocv.Mat, error) {
 			continue
 		}
 		gocv.Line(&out, to(a.XPx, a.YPx), to(b.XPx, b.YPx), wall.c, 2*thick)
-		// The label sits on the gap side of the wall, near its right end.
-		gx, gy := cal.ToGap(b.XPx, b.YPx)
+		// The label sits on the gap side of the wall, near the end away from
+		// the axes.
+		end := b
+		if (a.XPx > b.XPx) != flowLeft {
+			end = a
+		}
+		gx, gy := cal.ToGap(end.XPx, end.YPx)
 		inward := cal.GapUM * 0.06
 		if wall.name == "moving wall" {
 			inward = -inward
@@ -166,13 +176,21 @@ func DrawOverlay(o *Overlay) (gocv.Mat, error) {
 		lx, ly := cal.ToImage(gx, gy+inward)
 		sz := gocv.GetTextSize(wall.name, gocv.FontHersheySimplex, 0.45*kf, thick)
 		at := to(lx, ly)
-		at.X = min(at.X, w*k-sz.X-4*k)
+		if flowLeft {
+			at.X = max(at.X, 4*k)
+		} else {
+			at.X = min(at.X, w*k-sz.X-4*k)
+		}
 		at.Y += sz.Y / 2
 		text(wall.name, at, wall.c)
 	}
 
 	// Gap axes from a point on the stationary wall a tenth of the way in.
-	ox, _ := cal.ToGap(0.1*float64(w), stationaryYAt(cal, 0.1*float64(w)))
+	originPx := 0.1 * float64(w)
+	if flowLeft {
+		originPx = 0.9 * float64(w)
+	}
+	ox, _ := cal.ToGap(originPx, stationaryYAt(cal, originPx))
 	oPx, oPy := cal.ToImage(ox, 0)
 	xAxisUM := 0.15 * float64(w) * cal.UMPerPx
 	xe, ye := cal.ToImage(ox+xAxisUM, 0)
@@ -180,7 +198,11 @@ func DrawOverlay(o *Overlay) (gocv.Mat, error) {
 	text("x", to(xe, ye).Add(image.Pt(4*k, -4*k)), white)
 	tx, ty := cal.ToImage(ox, cal.GapUM)
 	arrow(&out, to(oPx, oPy), to(tx, ty), white, thick, arrowHeadPx*k)
-	text("y", to(tx, ty).Add(image.Pt(-14*k, -2*k)), white)
+	outer := -14 * k // the side of the y axis away from the gap's middle
+	if flowLeft {
+		outer = 6 * k
+	}
+	text("y", to(tx, ty).Add(image.Pt(outer, -2*k)), white)
 	for i := 0; i <= axisTicks; i++ {
 		yUM := cal.GapUM * float64(i) / axisTicks
 		ax, ay := cal.ToImage(ox, yUM)
@@ -190,22 +212,30 @@ func DrawOverlay(o *Overlay) (gocv.Mat, error) {
 		if i == axisTicks {
 			lab += " um"
 		}
-		text(lab, to(ax, ay).Add(image.Pt(5*k, 4*k)), white)
+		at := to(ax, ay).Add(image.Pt(5*k, 4*k))
+		if flowLeft {
+			at.X -= 10*k + gocv.GetTextSize(lab, gocv.FontHersheySimplex, 0.45*kf, thick).X
+		}
+		text(lab, at, white)
 	}
 
-	// Scale bar in the lower right corner.
+	// Scale bar in the lower corner away from the axes.
 	barUM := o.ScaleBarUM
 	if !(barUM > 0) {
 		barUM = roundLength(0.2 * float64(w) * cal.UMPerPx)
 	}
 	barPx := barUM / cal.UMPerPx * kf
-	x1, y1 := w*k-8*k, h*k-8*k
-	x0 := x1 - int(math.Round(barPx))
-	gocv.Rectangle(&out, image.Rect(x0-4*k, y1-16*k, x1+4*k, y1+4*k), color.RGBA{0, 0, 0, 255}, -1)
-	gocv.Line(&out, image.Pt(x0, y1), image.Pt(x1, y1), white, 2*thick)
+	bx1, by1 := w*k-8*k, h*k-8*k
+	bx0 := bx1 - int(math.Round(barPx))
+	if flowLeft {
+		bx0 = 8 * k
+		bx1 = bx0 + int(math.Round(barPx))
+	}
+	gocv.Rectangle(&out, image.Rect(bx0-4*k, by1-16*k, bx1+4*k, by1+4*k), color.RGBA{0, 0, 0, 255}, -1)
+	gocv.Line(&out, image.Pt(bx0, by1), image.Pt(bx1, by1), white, 2*thick)
 	lab := strconv.FormatFloat(barUM, 'g', 4, 64) + " um"
 	sz := gocv.GetTextSize(lab, gocv.FontHersheySimplex, 0.45*kf, thick)
-	text(lab, image.Pt((x0+x1-sz.X)/2, y1-5*k), white)
+	text(lab, image.Pt((bx0+bx1-sz.X)/2, by1-5*k), white)
 	return out, nil
 }
 
