@@ -204,3 +204,29 @@ func TestWriteErrors(t *testing.T) {
 		}
 	}
 }
+
+// TestWriteReproducible writes the same scenario and seed twice and checks
+// that the frames and the truth files are byte for byte the same.
+func TestWriteReproducible(t *testing.T) {
+	var runs [2]map[string]string
+	for i := range runs {
+		dir := t.TempDir()
+		s := small(t)
+		if _, err := s.Write(dir, Output{Format: FormatPNG}); err != nil {
+			t.Fatal(err)
+		}
+		runs[i] = map[string]string{}
+		for _, f := range []string{TruthTracksFile, ExperimentFile, filepath.Join(FramesDir, FrameName(5, FormatPNG))} {
+			b, err := os.ReadFile(filepath.Join(dir, f))
+			if err != nil {
+				t.Fatal(err)
+			}
+			runs[i][f] = string(b)
+		}
+	}
+	for f, b := range runs[0] {
+		if runs[1][f] != b {
+			t.Errorf("%s differs between two writes of the same scenario and seed", f)
+		}
+	}
+}
