@@ -360,3 +360,32 @@ func TestTwoSteps(t *testing.T) {
 		t.Errorf("phases %q", kinds)
 	}
 }
+
+// Phases found in the video (here synth's true phases) with an experiment
+// file that has no motion program: the wall speed is unknown, so what
+// needs it is null, and the rest is measured.
+func TestDetectedPhasesWithoutProgram(t *testing.T) {
+	s, err := synth.Builtin("slip", 910)
+	if err != nil {
+		t.Fatal(err)
+	}
+	truth := s.Truth().Summary
+	e := s.Experiment()
+	e.Motion = nil
+	r, err := Analyze(observe(s, 910), e, s.Calibration(), Options{Phases: truth.Phases, Seed: 910})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(r.ShearPhases) != 1 {
+		t.Fatalf("%d shear phases, want 1", len(r.ShearPhases))
+	}
+	sp, tp := r.ShearPhases[0], truth.ShearPhases[0]
+	v := float64(tp.WallSpeedUMPerS)
+	if sp.WallSpeedUMPerS.Known() || sp.SlipMovingUMPerS.Known() || sp.SlipFraction.Known() {
+		t.Errorf("wall speed %v, moving slip %v, slip fraction %v: want null without a program", sp.WallSpeedUMPerS, sp.SlipMovingUMPerS, sp.SlipFraction)
+	}
+	if math.Abs(float64(sp.SlipStationaryUMPerS-tp.SlipStationaryUMPerS))/v > slipTol || math.Abs(float64(sp.BulkRatePerS/tp.BulkRatePerS)-1) > bulkRateTol || !sp.WallSlip {
+		t.Errorf("stationary slip %.2f (truth %.2f), bulk rate %.4f (truth %.4f), wall slip %v", float64(sp.SlipStationaryUMPerS),
+			float64(tp.SlipStationaryUMPerS), float64(sp.BulkRatePerS), float64(tp.BulkRatePerS), sp.WallSlip)
+	}
+}

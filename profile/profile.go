@@ -45,7 +45,13 @@ type Options struct {
 	MapWindows int
 	// Replicates of the bootstrap for steady profiles (layers default).
 	Replicates int
-	Seed       uint64
+	// Phases, when not nil, is the time line to use instead of the one
+	// derived from the motion program (for instance phases found in the
+	// video, calib/phases). A shear phase takes the wall speed of the
+	// program step it overlaps; without one the wall speed is unknown and
+	// what depends on it is null.
+	Phases []summary.Phase
+	Seed   uint64
 }
 
 // DefaultMapWindows windows over the recording resolve a start-up or a
@@ -160,20 +166,27 @@ func Analyze(pts []tracks.Point, e *experiment.Experiment, c *calib.Calibration,
 	}
 	r := &Result{NoiseUM: sigma, FrameIntervalS: dt, Warnings: []string{}}
 	prog := e.Program()
+	r.Phases = Phases(prog, t0, t1)
+	steps := shearSteps(prog)
+	if o.Phases != nil {
+		r.Phases = o.Phases
+		steps = stepsOf(o.Phases, prog)
+	}
+	if len(steps) == 0 {
+		r.Warnings = append(r.Warnings, "no shear phase: the experiment file has no motion program with a moving wall")
+	}
 	// Cut mislinks and wrap-arounds out of the tracks, allowing for a wall
-	// that starts or stops between two frames.
-	maxChange, lastStop := 0.0, math.Inf(-1)
-	for _, st := range prog {
-		if st.WallSpeedUMPerS != 0 {
-			maxChange = math.Max(maxChange, math.Abs(st.WallSpeedUMPerS)*dt)
-			lastStop = st.EndS
+	// that starts or stops between two frames: the wall's travel in a
+	// frame, or the fastest tracer's typical step when the wall speed is
+	// unknown.
+	maxChange, lastStop := velocity.FastestStepUM(ts), math.Inf(-1)
+	for _, st := range steps {
+		if v := math.Abs(st.WallSpeedUMPerS) * dt; v > maxChange {
+			maxChange = v
 		}
+		lastStop = st.EndS
 	}
 	ts = velocity.Split(ts, sigma, maxChange, lastStop+dt/2)
-	r.Phases = Phases(prog, t0, t1)
-	if len(prog) == 0 {
-		r.Warnings = append(r.Warnings, "the experiment file has no motion program, so no shear phase is analysed")
-	}
 	layer := gap / float64(o.Bins)
 	r.Lag = velocity.LagRule{SNR: velocity.DefaultSNR, MaxLag: velocity.MaxLagInLayer(ts, sigma, layer, t0, t1)}
 
@@ -227,10 +240,7 @@ func Analyze(pts []tracks.Point, e *experiment.Experiment, c *calib.Calibration,
 	}
 
 	n := 0
-	for _, st := range prog {
-		if st.WallSpeedUMPerS == 0 {
-			continue
-		}
+	for _, st := range steps {
 		n++
 		sh := Shear{Step: st, NominalStrain: st.Strain}
 		win := Window{Name: fmt.Sprintf("shear%d", n), T0S: st.EndS - SteadyFraction*st.DurationS(), T1S: st.EndS}
@@ -293,13 +303,46 @@ func Analyze(pts []tracks.Point, e *experiment.Experiment, c *calib.Calibration,
 	r.Profiles = append(r.Profiles, userProfiles...)
 	r.Profiles = append(r.Profiles, mapProfiles...)
 
-	if err := r.afterStop(ts, prog, o, gap, dt, sigma, t1); err != nil {
+	if err := r.afterStop(ts, steps, o, gap, dt, sigma, t1); err != nil {
 		return nil, err
 	}
 	if r.ShearPhases == nil {
 		r.ShearPhases = []summary.ShearPhase{}
 	}
 	return r, nil
+}
+
+// shearSteps returns the program's steps with a moving wall.
+func shearSteps(p experiment.Program) []experiment.Step {
+	var out []experiment.Step
+	for _, s := range p {
+		if s.WallSpeedUMPerS != 0 {
+			out = append(out, s)
+		}
+	}
+	return out
+}
+
+// stepsOf returns a step for each shear phase of ph: its times, with the
+// speeds of the program step it overlaps most, or unknown (NaN) speeds.
+func stepsOf(ph []summary.Phase, p experiment.Program) []experiment.Step {
+	var out []experiment.Step
+	for _, f := range ph {
+		if f.Kind != summary.Shear {
+			continue
+		}
+		st := experiment.Step{StartS: f.StartS, EndS: f.EndS, WallSpeedUMPerS: math.NaN(), RatePerS: math.NaN(), Strain: math.NaN()}
+		best := 0.0
+		for _, s := range shearSteps(p) {
+			if ov := math.Min(s.EndS, f.EndS) - math.Max(s.StartS, f.StartS); ov > best {
+				best = ov
+				st.WallSpeedUMPerS, st.RatePerS = s.WallSpeedUMPerS, s.RatePerS
+				st.Strain = s.RatePerS * st.DurationS()
+			}
+		}
+		out = append(out, st)
+	}
+	return out
 }
 
 // curvePoints is the number of intervals at which a fitted profile is
@@ -425,18 +468,16 @@ func spaceTime(ps []WindowProfile, gap float64, bins int) SpaceTime {
 	return m
 }
 
-func (r *Result) afterStop(ts []velocity.Track, prog experiment.Program, o Options, gap, dt, sigma, t1 float64) error {
-	last := -1
-	for i, s := range prog {
-		if s.WallSpeedUMPerS != 0 {
-			last = i
-		}
-	}
-	if last < 0 || t1-prog[last].EndS < minPhaseFrames*dt {
+func (r *Result) afterStop(ts []velocity.Track, steps []experiment.Step, o Options, gap, dt, sigma, t1 float64) error {
+	if len(steps) == 0 || t1-steps[len(steps)-1].EndS < minPhaseFrames*dt {
 		return nil
 	}
-	st := prog[last]
-	co := cessation.Options{StopS: st.EndS, EndS: t1, ShearSense: math.Copysign(1, st.WallSpeedUMPerS),
+	st := steps[len(steps)-1]
+	sense := math.Copysign(1, st.WallSpeedUMPerS)
+	if math.IsNaN(st.WallSpeedUMPerS) && len(r.Shear) > 0 && r.Shear[len(r.Shear)-1].Decomposition != nil {
+		sense = math.Copysign(1, r.Shear[len(r.Shear)-1].Decomposition.BulkRatePerS)
+	}
+	co := cessation.Options{StopS: st.EndS, EndS: t1, ShearSense: sense,
 		GapUM: gap, DtS: dt, SigmaUM: sigma, Bins: o.Bins, Seed: o.Seed + 3000}
 	if len(r.Phases) > 0 && r.Phases[0].Kind == summary.Rest {
 		co.RestS = [2]float64{r.Phases[0].StartS, r.Phases[0].EndS}

@@ -80,13 +80,14 @@ type Options struct {
 
 // Decompose decomposes the profile bins (velocities in um/s) of a phase in
 // which the moving wall travels at wallSpeedUMPerS, in geometry g. Layers
-// without a value are left out of the fit.
+// without a value are left out of the fit. A NaN wall speed means unknown
+// (a phase found in the video only): what needs it is then NaN.
 func Decompose(bins []layers.Bin, g geometry.Geometry, wallSpeedUMPerS float64, o Options) (*Decomposition, error) {
 	h := g.Gap()
 	if !(h > 0) {
 		return nil, fmt.Errorf("rheometry: gap %g um is not positive", h)
 	}
-	if wallSpeedUMPerS == 0 || math.IsNaN(wallSpeedUMPerS) {
+	if wallSpeedUMPerS == 0 {
 		return nil, fmt.Errorf("rheometry: wall speed %g um/s; a shear phase needs a moving wall", wallSpeedUMPerS)
 	}
 	var pts []bands.Point
@@ -117,8 +118,17 @@ func Decompose(bins []layers.Bin, g geometry.Geometry, wallSpeedUMPerS float64, 
 	rate := d.BulkRatePerS
 	d.SlipLengthStationaryUM, d.SlipLengthStationaryErrUM = ratioErr(d.SlipStationaryUMPerS, d.SlipStationaryErrUMPerS, rate, d.BulkRateErrPerS)
 	d.SlipLengthMovingUM, d.SlipLengthMovingErrUM = ratioErr(d.SlipMovingUMPerS, d.SlipMovingErrUMPerS, rate, d.BulkRateErrPerS)
+	if math.IsNaN(v) {
+		// Unknown wall speed: the moving wall's slip and the slip fraction
+		// stay unknown; the stationary wall's slip is judged against the
+		// fluid's speed at the moving wall instead.
+		d.SlipMovingUMPerS, d.SlipMovingErrUMPerS = math.NaN(), math.NaN()
+		d.SlipLengthMovingUM, d.SlipLengthMovingErrUM = math.NaN(), math.NaN()
+		d.SlipFraction, d.SlipFractionErr = math.NaN(), math.NaN()
+		v = d.FluidMovingUMPerS
+	}
 	d.WallSlip = significant(d.SlipStationaryUMPerS, d.SlipStationaryErrUMPerS, v) ||
-		significant(d.SlipMovingUMPerS, d.SlipMovingErrUMPerS, v)
+		(!math.IsNaN(d.SlipMovingUMPerS) && significant(d.SlipMovingUMPerS, d.SlipMovingErrUMPerS, v))
 	edges := m.Edges()
 	for j, r := range m.Rates {
 		b := summary.Band{FromUM: summary.Num(yOfU(g, edges[j])), ToUM: summary.Num(yOfU(g, edges[j+1])),

@@ -344,3 +344,27 @@ func Split(ts []Track, sigmaUM, maxChangeUM, untilS float64) []Track {
 	}
 	return out
 }
+
+// FastestStepUM returns the largest, over tracks of at least minStepPoints
+// points, of a track's median frame-to-frame step length in um per frame:
+// the travel per frame of the fastest tracers.
+func FastestStepUM(ts []Track) float64 {
+	best := 0.0
+	var d []float64
+	for _, t := range ts {
+		p := t.Points
+		if len(p) < minStepPoints {
+			continue
+		}
+		d = d[:0]
+		for i := 1; i < len(p); i++ {
+			df := float64(p[i].Frame - p[i-1].Frame)
+			d = append(d, math.Hypot(p[i].XUM-p[i-1].XUM, p[i].YUM-p[i-1].YUM)/df)
+		}
+		best = math.Max(best, median(d))
+	}
+	return best
+}
+
+// minStepPoints is the shortest track whose median step is trusted.
+const minStepPoints = 5
