@@ -89,9 +89,9 @@ func AfterStopPlot(a *AfterStop) (*Figure, error) {
 		hi = lo + 1
 	}
 	const headroom = 0.45 // of the data range, for the legend
-	yMin, yMax := lo-0.05*(hi-lo), hi+headroom*(hi-lo)
+	yMin, yMax := lo-floorMargin*(hi-lo), hi+headroom*(hi-lo)
 	p.Y.Min, p.Y.Max = yMin, yMax
-	p.X.Min, p.X.Max = -0.03*a.GapUM, 1.03*a.GapUM
+	p.X.Min, p.X.Max = -wallMargin*a.GapUM, (1+wallMargin)*a.GapUM
 
 	if finite(a.NoiseFloorUM) && a.NoiseFloorUM > 0 {
 		poly, err := plotter.NewPolygon(plotter.XYs{{X: 0, Y: -a.NoiseFloorUM}, {X: a.GapUM, Y: -a.NoiseFloorUM},
@@ -137,5 +137,5 @@ func AfterStopPlot(a *AfterStop) (*Figure, error) {
 	}
 	p.Legend.Top, p.Legend.Left = true, true
 	p.Legend.XOffs = vg.Points(legendInsetPt)
-	return renderPlot(p, SingleColumnCM, 7.5)
+	return renderPlot(p, SingleColumnCM, afterStopHeightCM)
 }

@@ -62,7 +62,7 @@ func DetectionPlot(d *Detection) (*Figure, error) {
 	if err != nil {
 		return nil, err
 	}
-	h.FillColor, h.LineStyle.Color, h.LineStyle.Width = SkyBlue, Blue, vg.Points(0.5)
+	h.FillColor, h.LineStyle.Color, h.LineStyle.Width = SkyBlue, Blue, vg.Points(gridLinePt)
 	left.Add(h)
 	if d.SNRThreshold > 0 {
 		ymax := 0.0
@@ -85,7 +85,7 @@ func DetectionPlot(d *Detection) (*Figure, error) {
 		d    []vg.Length
 	}
 	peak := 0.0
-	for k, s := range []series{{d.FracXPx, "x", Blue, nil}, {d.FracYPx, "y", Vermillion, dashes[1]}} {
+	for _, s := range []series{{d.FracXPx, "x", Blue, nil}, {d.FracYPx, "y", Vermillion, dashes[1]}} {
 		if len(s.v) == 0 {
 			continue
 		}
@@ -100,7 +100,7 @@ func DetectionPlot(d *Detection) (*Figure, error) {
 			peak = math.Max(peak, y)
 			pts = append(pts, plotter.XY{X: float64(i) / fracBins, Y: y}, plotter.XY{X: float64(i+1) / fracBins, Y: y})
 		}
-		if err := addLine(right, pts, s.c, dataLinePt+0.3*float64(k), s.d, s.name); err != nil {
+		if err := addLine(right, pts, s.c, dataLinePt, s.d, s.name); err != nil {
 			return nil, err
 		}
 	}
@@ -108,7 +108,8 @@ func DetectionPlot(d *Detection) (*Figure, error) {
 	if err := addLine(right, plotter.XYs{{X: 0, Y: flat}, {X: 1, Y: flat}}, Black, refLinePt, dashes[2], "uniform"); err != nil {
 		return nil, err
 	}
-	right.Y.Min, right.Y.Max = 0, math.Max(peak, flat)*1.4
+	const headroom = 0.4 // of the highest bin, for the legend
+	right.Y.Min, right.Y.Max = 0, math.Max(peak, flat)*(1+headroom)
 	right.Legend.Top = true
-	return renderGrid([][]*plot.Plot{{left, right}}, DoubleColumnCM, 6)
+	return renderGrid([][]*plot.Plot{{left, right}}, DoubleColumnCM, detectionHeightCM)
 }

@@ -44,6 +44,18 @@ const (
 	overlayMaxUpscale = 4
 	// axisTicks is the number of intervals on the drawn y axis.
 	axisTicks = 4
+	// overlayFontScale is the Hershey font scale of the labels: about 11 px
+	// high per upscale step.
+	overlayFontScale = 0.45
+	// axisInset is where the gap axes start, as a fraction of the width from
+	// the side the flow comes from; xAxisLength and scaleBarLength are the x
+	// arrow's and the scale bar's length as fractions of the width.
+	axisInset      = 0.1
+	xAxisLength    = 0.15
+	scaleBarLength = 0.2
+	// wallLabelInset is the distance of a wall's label from the wall, as a
+	// fraction of the gap.
+	wallLabelInset = 0.06
 	// tickLenPx is the length of its ticks.
 	tickLenPx = 6
 	// arrowHeadPx is the length of the arrow heads of the gap axes.
@@ -124,7 +136,7 @@ func DrawOverlay(o *Overlay) (gocv.Mat, error) {
 	}
 	thick := max(1, k)
 	text := func(s string, at image.Point, c color.RGBA) {
-		scale := 0.45 * kf
+		scale := overlayFontScale * kf
 		gocv.PutText(&out, s, at, gocv.FontHersheySimplex, scale, color.RGBA{0, 0, 0, 255}, 3*thick)
 		gocv.PutText(&out, s, at, gocv.FontHersheySimplex, scale, c, thick)
 	}
@@ -169,12 +181,12 @@ func DrawOverlay(o *Overlay) (gocv.Mat, error) {
 			end = a
 		}
 		gx, gy := cal.ToGap(end.XPx, end.YPx)
-		inward := cal.GapUM * 0.06
+		inward := cal.GapUM * wallLabelInset
 		if wall.name == "moving wall" {
 			inward = -inward
 		}
 		lx, ly := cal.ToImage(gx, gy+inward)
-		sz := gocv.GetTextSize(wall.name, gocv.FontHersheySimplex, 0.45*kf, thick)
+		sz := gocv.GetTextSize(wall.name, gocv.FontHersheySimplex, overlayFontScale*kf, thick)
 		at := to(lx, ly)
 		if flowLeft {
 			at.X = max(at.X, 4*k)
@@ -186,13 +198,13 @@ func DrawOverlay(o *Overlay) (gocv.Mat, error) {
 	}
 
 	// Gap axes from a point on the stationary wall a tenth of the way in.
-	originPx := 0.1 * float64(w)
+	originPx := axisInset * float64(w)
 	if flowLeft {
-		originPx = 0.9 * float64(w)
+		originPx = (1 - axisInset) * float64(w)
 	}
 	ox, _ := cal.ToGap(originPx, stationaryYAt(cal, originPx))
 	oPx, oPy := cal.ToImage(ox, 0)
-	xAxisUM := 0.15 * float64(w) * cal.UMPerPx
+	xAxisUM := xAxisLength * float64(w) * cal.UMPerPx
 	xe, ye := cal.ToImage(ox+xAxisUM, 0)
 	arrow(&out, to(oPx, oPy), to(xe, ye), white, thick, arrowHeadPx*k)
 	text("x", to(xe, ye).Add(image.Pt(4*k, -4*k)), white)
@@ -214,7 +226,7 @@ func DrawOverlay(o *Overlay) (gocv.Mat, error) {
 		}
 		at := to(ax, ay).Add(image.Pt(5*k, 4*k))
 		if flowLeft {
-			at.X -= 10*k + gocv.GetTextSize(lab, gocv.FontHersheySimplex, 0.45*kf, thick).X
+			at.X -= 10*k + gocv.GetTextSize(lab, gocv.FontHersheySimplex, overlayFontScale*kf, thick).X
 		}
 		text(lab, at, white)
 	}
@@ -222,7 +234,7 @@ func DrawOverlay(o *Overlay) (gocv.Mat, error) {
 	// Scale bar in the lower corner away from the axes.
 	barUM := o.ScaleBarUM
 	if !(barUM > 0) {
-		barUM = roundLength(0.2 * float64(w) * cal.UMPerPx)
+		barUM = roundLength(scaleBarLength * float64(w) * cal.UMPerPx)
 	}
 	barPx := barUM / cal.UMPerPx * kf
 	bx1, by1 := w*k-8*k, h*k-8*k
@@ -234,7 +246,7 @@ func DrawOverlay(o *Overlay) (gocv.Mat, error) {
 	gocv.Rectangle(&out, image.Rect(bx0-4*k, by1-16*k, bx1+4*k, by1+4*k), color.RGBA{0, 0, 0, 255}, -1)
 	gocv.Line(&out, image.Pt(bx0, by1), image.Pt(bx1, by1), white, 2*thick)
 	lab := strconv.FormatFloat(barUM, 'g', 4, 64) + " um"
-	sz := gocv.GetTextSize(lab, gocv.FontHersheySimplex, 0.45*kf, thick)
+	sz := gocv.GetTextSize(lab, gocv.FontHersheySimplex, overlayFontScale*kf, thick)
 	text(lab, image.Pt((bx0+bx1-sz.X)/2, by1-5*k), white)
 	return out, nil
 }

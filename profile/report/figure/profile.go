@@ -88,11 +88,15 @@ func ProfilePlot(pp *PhaseProfile) (*Figure, error) {
 			lo, hi = math.Min(lo, pts[i].Y-e), math.Max(hi, pts[i].Y+e)
 		}
 	}
-	// Room above the data for the legend and the band labels.
-	const headroom = 0.5 // of the data range
-	yMin, yMax := lo-0.05*(hi-lo), hi+headroom*(hi-lo)
+	// Room above the data for the legend and the band labels, which sit a
+	// little above the data.
+	const (
+		headroom      = 0.5  // of the data range
+		bandLabelRise = 0.08 // of the data range
+	)
+	yMin, yMax := lo-floorMargin*(hi-lo), hi+headroom*(hi-lo)
 	p.Y.Min, p.Y.Max = yMin, yMax
-	p.X.Min, p.X.Max = -0.03, 1.03
+	p.X.Min, p.X.Max = -wallMargin, 1+wallMargin
 
 	if len(pp.Bands) > 1 {
 		var labels plotter.XYLabels
@@ -111,7 +115,7 @@ func ProfilePlot(pp *PhaseProfile) (*Figure, error) {
 			if finite(b.RatePerS) {
 				txt = fmt.Sprintf("%.3g /s", b.RatePerS)
 			}
-			labels.XYs = append(labels.XYs, plotter.XY{X: (b.FromUM + b.ToUM) / 2 / h, Y: hi + 0.08*(hi-lo)})
+			labels.XYs = append(labels.XYs, plotter.XY{X: (b.FromUM + b.ToUM) / 2 / h, Y: hi + bandLabelRise*(hi-lo)})
 			labels.Labels = append(labels.Labels, txt)
 		}
 		l, err := plotter.NewLabels(labels)
@@ -121,7 +125,7 @@ func ProfilePlot(pp *PhaseProfile) (*Figure, error) {
 		for i := range l.TextStyle {
 			l.TextStyle[i].Font.Size = vg.Points(legendPt)
 			l.TextStyle[i].Font.Variant = sansVariant
-			l.TextStyle[i].XAlign = -0.5
+			l.TextStyle[i].XAlign = draw.XCenter
 		}
 		p.Add(l)
 	}
@@ -160,5 +164,5 @@ func ProfilePlot(pp *PhaseProfile) (*Figure, error) {
 	}
 	p.Legend.Top, p.Legend.Left = true, true
 	p.Legend.XOffs = vg.Points(legendInsetPt)
-	return renderPlot(p, SingleColumnCM, 7.5)
+	return renderPlot(p, SingleColumnCM, profileHeightCM)
 }

@@ -55,6 +55,23 @@ type Figure struct {
 // cm converts centimetres to a vg length.
 func cm(v float64) vg.Length { return vg.Length(v / cmPerInch * float64(vg.Inch)) }
 
+// Figure heights, cm: the profiles and the displacement nearly square, the
+// stacked slip panels taller, the wide maps and histograms a strip.
+const (
+	profileHeightCM   = 7.5
+	afterStopHeightCM = 7.5
+	slipHeightCM      = 9
+	spaceTimeHeightCM = 6.5
+	detectionHeightCM = 6
+)
+
+// Margins of a plot's data range, as fractions of the data span: below the
+// data, and beside the walls at the ends of a gap axis.
+const (
+	floorMargin = 0.05
+	wallMargin  = 0.03
+)
+
 // Line widths and marker sizes, in points.
 const (
 	dataLinePt   = 1.0
@@ -63,6 +80,8 @@ const (
 	errorCapPt   = 3
 	wallLinePt   = 1.2
 	boundaryLnPt = 0.6
+	gridLinePt   = 0.4
+	errorBarPt   = 0.6
 )
 
 // newPlot returns a plot with the report's text sizes and axis labels.
@@ -78,7 +97,7 @@ func newPlot(xLabel, yLabel string) *plot.Plot {
 	g := plotter.NewGrid()
 	g.Vertical.Color = color.Gray{Y: 225}
 	g.Horizontal.Color = color.Gray{Y: 225}
-	g.Vertical.Width, g.Horizontal.Width = vg.Points(0.4), vg.Points(0.4)
+	g.Vertical.Width, g.Horizontal.Width = vg.Points(gridLinePt), vg.Points(gridLinePt)
 	p.Add(g)
 	return p
 }
@@ -225,7 +244,7 @@ func addPoints(p *plot.Plot, pts plotter.XYs, errs []float64, c color.Color, sha
 		if err != nil {
 			return err
 		}
-		bars.Color, bars.Width, bars.CapWidth = c, vg.Points(0.6), vg.Points(errorCapPt)
+		bars.Color, bars.Width, bars.CapWidth = c, vg.Points(errorBarPt), vg.Points(errorCapPt)
 		p.Add(bars)
 	}
 	s, err := plotter.NewScatter(xy)

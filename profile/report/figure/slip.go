@@ -117,7 +117,7 @@ func SlipPlot(s *SlipSeries) (*Figure, error) {
 			}
 		}
 	}
-	return renderGrid([][]*plot.Plot{{top}, {bottom}}, SingleColumnCM, 9)
+	return renderGrid([][]*plot.Plot{{top}, {bottom}}, SingleColumnCM, slipHeightCM)
 }
 
 // rangeY is the span of the finite values of the series with their error

@@ -147,8 +147,18 @@ const rampColours = 256
 // noData is the colour of unknown cells: white, lighter than every ramp colour.
 var noData = color.RGBA{255, 255, 255, 255}
 
-// colourBarCM is the width given to the colour bar and its label, cm.
-const colourBarCM = 2.3
+// colourBarCM is the width given to the colour bar and its label, and
+// colourBarGapCM the space either side of it, cm.
+const (
+	colourBarCM    = 2.3
+	colourBarGapCM = 0.2
+)
+
+// Phase boundaries on a map: a white halo under a dashed black line, pt.
+const (
+	boundaryHaloPt  = 2.2
+	boundaryOnMapPt = 0.9
+)
 
 // SpaceTimePlot draws the map as a heat map across both columns, with the
 // phase boundaries as vertical lines and a colour bar.
@@ -185,10 +195,10 @@ func SpaceTimePlot(s *SpaceTime) (*Figure, error) {
 			continue
 		}
 		// A white line under a dashed black one shows on dark and light cells.
-		if err := vLine(p, tb, 0, s.GapUM, color.White, 2.2, nil); err != nil {
+		if err := vLine(p, tb, 0, s.GapUM, color.White, boundaryHaloPt, nil); err != nil {
 			return nil, err
 		}
-		if err := vLine(p, tb, 0, s.GapUM, Black, 0.9, dashes[1]); err != nil {
+		if err := vLine(p, tb, 0, s.GapUM, Black, boundaryOnMapPt, dashes[1]); err != nil {
 			return nil, err
 		}
 	}
@@ -202,11 +212,11 @@ func SpaceTimePlot(s *SpaceTime) (*Figure, error) {
 	bar.Y.Tick.Marker = niceTicks{Major: 5}
 	bar.Y.Padding = 0
 
-	return render(DoubleColumnCM, 6.5, func(dc draw.Canvas) {
+	return render(DoubleColumnCM, spaceTimeHeightCM, func(dc draw.Canvas) {
 		left := draw.Crop(dc, 0, -cm(colourBarCM), 0, 0)
 		p.Draw(left)
 		da := p.DataCanvas(left)
-		right := draw.Crop(dc, dc.Max.X-dc.Min.X-cm(colourBarCM)+cm(0.2), -cm(0.2),
+		right := draw.Crop(dc, dc.Max.X-dc.Min.X-cm(colourBarCM)+cm(colourBarGapCM), -cm(colourBarGapCM),
 			da.Min.Y-dc.Min.Y, da.Max.Y-dc.Max.Y)
 		bar.Draw(right)
 	})
