@@ -49,7 +49,6 @@ import (
 	"math"
 
 	"gaptrace/calib"
-
 )
 
 // Polarities of the tracers against the background.

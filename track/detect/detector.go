@@ -1,10 +1,11 @@
 package detect
 
 import (
+	"encoding/binary"
 	"fmt"
 	"image"
 	"math"
-	"sort"
+	"slices"
 	"unsafe"
 
 	"gocv.io/x/gocv"
@@ -89,7 +90,10 @@ type Detector struct {
 	wr    int     // refinement window half-width, px
 	ksize int     // matched Gaussian kernel size, px
 	boxPx int     // box mean width without a background image, px
-	gain1 float64 // band-pass response at the centre of a unit-amplitude spot
+	// gain1 and gainBox are the band-pass responses at the centre of a
+	// unit-amplitude spot, against a background image and against the box
+	// mean.
+	gain1, gainBox float64
 
 	bg       []float32 // background image, grey levels (nil: none)
 	bgW, bgH int
@@ -107,6 +111,7 @@ type Detector struct {
 	frameW  int
 	frameH  int
 	win     []float64 // residual around a candidate, (2R+1)^2, R = wr+windowSlack
+	ring    []float64 // the window's border pixels
 	wx, wy  []float64
 	gx, gy  []float64
 	sgx     []float64
@@ -142,7 +147,8 @@ func NewDetector(opt Options) (*Detector, error) {
 	m := n - 1
 	d.gx, d.gy = make([]float64, m*m), make([]float64, m*m)
 	d.sgx, d.sgy = make([]float64, m*m), make([]float64, m*m)
-	d.gain1 = d.filterGain(false)
+	d.gain1, d.gainBox = d.filterGain(false), d.filterGain(true)
+	d.ring = make([]float64, 0, 8*(d.wr+windowSlack))
 	return d, nil
 }
 
@@ -150,7 +156,6 @@ func NewDetector(opt Options) (*Detector, error) {
 // pixel-integrated spot of unit amplitude (the peak of its Gaussian
 // density): the matched Gaussian's, minus the box mean's when box.
 func (d *Detector) filterGain(box bool) float64 {
-	half := max(d.boxPx/2, d.wr)
 	k := 1 / (math.Sqrt2 * d.sigma)
 	norm := math.Sqrt(2 * math.Pi * d.sigma * d.sigma) // per axis
 	pix := func(c float64) float64 { return norm * 0.5 * (math.Erf((c+0.5)*k) - math.Erf((c-0.5)*k)) }
@@ -172,7 +177,6 @@ func (d *Detector) filterGain(box bool) float64 {
 		}
 		b1 *= b1
 	}
-	_ = half
 	return g1 - b1
 }
 
@@ -266,7 +270,7 @@ func (d *Detector) Frame(img gocv.Mat, frame int, out []Detection) ([]Detection,
 	}
 	gain := d.gain1
 	if !hasBg {
-		gain = d.filterGain(true)
+		gain = d.gainBox
 	}
 	if d.polarity == PolarityAuto {
 		gocv.Subtract(d.sm, low, &d.cand)
@@ -278,35 +282,23 @@ func (d *Detector) Frame(img gocv.Mat, frame int, out []Detection) ([]Detection,
 	} else {
 		gocv.Subtract(d.sm, low, &d.cand)
 	}
-	var lo []float32 // the residual's reference when there is no background image
-	if !hasBg {
-		// The box mean as float, for the residuals: only the windows are
-		// read, but the conversion is one pass.
-		gocv.Blur(img, &d.cand2, image.Pt(d.boxPx, d.boxPx))
-		d.cand2.ConvertTo(&d.lo, gocv.MatTypeCV32F)
-		lo, _ = d.lo.DataPtrFloat32()
-	}
-	ref := d.bg
-	if !hasBg {
-		ref = lo
-	}
 	sign := 1.0
 	if d.polarity == PolarityDark {
 		sign = -1
 	}
-	var px pixels
+	px := pixels{w: w, h: h, sign: sign, refF: d.bg}
+	var err error
 	if t == gocv.MatTypeCV8U {
-		b, err := img.DataPtrUint8()
-		if err != nil {
-			return out, err
+		if px.u8, err = img.DataPtrUint8(); err == nil && !hasBg {
+			px.refU8, err = d.lo.DataPtrUint8()
 		}
-		px = pixels{u8: b, ref: ref, w: w, h: h, sign: sign}
 	} else {
-		b, err := img.DataPtrUint16()
-		if err != nil {
-			return out, err
+		if px.u16, err = img.DataPtrUint16(); err == nil && !hasBg {
+			px.refU16, err = d.lo.DataPtrUint16()
 		}
-		px = pixels{u16: b, ref: ref, w: w, h: h, sign: sign}
+	}
+	if err != nil {
+		return out, err
 	}
 
 	noise := d.noise(&px, false)
@@ -344,45 +336,68 @@ func (d *Detector) Frame(img gocv.Mat, frame int, out []Detection) ([]Detection,
 }
 
 // pixels reads the background-subtracted, polarity-signed residual of a
-// frame: sign * (frame - ref), ref the background image or the box mean.
+// frame: sign * (frame - ref), ref the background image (refF) or the box
+// mean (refU8 or refU16, in the frame's depth).
 type pixels struct {
-	u8   []uint8
-	u16  []uint16
-	ref  []float32
-	w, h int
-	sign float64
+	u8     []uint8
+	u16    []uint16
+	refF   []float32
+	refU8  []uint8
+	refU16 []uint16
+	w, h   int
+	sign   float64
 }
 
 // at returns the residual at pixel index i.
 func (p *pixels) at(i int) float64 {
-	var v float64
+	var v, r float64
 	if p.u8 != nil {
 		v = float64(p.u8[i])
 	} else {
 		v = float64(p.u16[i])
 	}
-	return p.sign * (v - float64(p.ref[i]))
+	switch {
+	case p.refF != nil:
+		r = float64(p.refF[i])
+	case p.refU8 != nil:
+		r = float64(p.refU8[i])
+	case p.refU16 != nil:
+		r = float64(p.refU16[i])
+	}
+	return p.sign * (v - r)
 }
 
-// window loads the residual on the (2R+1)^2 square centred at (x0, y0)
-// into dst, row by row.
+// window loads into dst, row by row, the frame on the (2R+1)^2 square
+// centred at (x0, y0), minus the background image when there is one, signed
+// by the polarity. Without a background image the raw frame is loaded: the
+// refinement subtracts the window's own border level.
 func (p *pixels) window(dst []float64, x0, y0, R int) {
 	n := 2*R + 1
 	for j := 0; j < n; j++ {
 		i0 := (y0-R+j)*p.w + x0 - R
 		row := dst[j*n : j*n+n]
-		ref := p.ref[i0 : i0+n]
-		if p.u8 != nil {
-			src := p.u8[i0 : i0+n]
-			for i := range row {
-				row[i] = p.sign * (float64(src[i]) - float64(ref[i]))
-			}
-		} else {
-			src := p.u16[i0 : i0+n]
-			for i := range row {
-				row[i] = p.sign * (float64(src[i]) - float64(ref[i]))
-			}
+		switch {
+		case p.u8 != nil && p.refF != nil:
+			loadRow(row, p.u8[i0:i0+n], p.refF[i0:i0+n], p.sign)
+		case p.u8 != nil:
+			loadRow(row, p.u8[i0:i0+n], nil, p.sign)
+		case p.refF != nil:
+			loadRow(row, p.u16[i0:i0+n], p.refF[i0:i0+n], p.sign)
+		default:
+			loadRow(row, p.u16[i0:i0+n], nil, p.sign)
 		}
+	}
+}
+
+func loadRow[T uint8 | uint16](dst []float64, src []T, ref []float32, sign float64) {
+	if ref == nil {
+		for i, v := range src {
+			dst[i] = sign * float64(v)
+		}
+		return
+	}
+	for i, v := range src {
+		dst[i] = sign * (float64(v) - float64(ref[i]))
 	}
 }
 
@@ -597,6 +612,7 @@ func scanMaxima[T uint8 | uint16](d *Detector, b []T, w, y0, y1, m int, thr T) {
 	var zero T
 	size := int(unsafe.Sizeof(zero))
 	per := 8 / size // values per 64-bit word
+	word := belowMask(thr)
 	for y := y0; y < y1; y++ {
 		row := b[y*w : y*w+w]
 		up := b[(y-1)*w : y*w]
@@ -604,7 +620,7 @@ func scanMaxima[T uint8 | uint16](d *Detector, b []T, w, y0, y1, m int, thr T) {
 		x := m
 		for x < w-m {
 			// Skip a word at a time while every value is below thr.
-			if x+per <= w-m && allBelow(row[x:x+per], thr) {
+			if x+per <= w-m && allBelow(row[x:x+per], thr, word) {
 				x += per
 				continue
 			}
@@ -626,7 +642,27 @@ func scanMaxima[T uint8 | uint16](d *Detector, b []T, w, y0, y1, m int, thr T) {
 	}
 }
 
-func allBelow[T uint8 | uint16](v []T, thr T) bool {
+// belowMask returns, for 8-bit values, the word added to eight values at
+// once so that the high bit of each byte of value b ends set when b >= thr
+// (b + 128 - thr >= 128); 0 for wider values.
+func belowMask[T uint8 | uint16](thr T) uint64 {
+	if unsafe.Sizeof(thr) != 1 || thr > 128 {
+		return 0
+	}
+	return uint64(128-uint64(thr)) * 0x0101010101010101
+}
+
+// allBelow reports whether every value of v (one 64-bit word) is below
+// thr. For 8-bit values it tests the word at once: the sum with add sets a
+// byte's high bit for values from thr to 127, the value itself for 128 and
+// above; a carry between bytes can only raise a false alarm, which the
+// element test that follows resolves.
+func allBelow[T uint8 | uint16](v []T, thr T, add uint64) bool {
+	if add != 0 {
+		b := unsafe.Slice((*byte)(unsafe.Pointer(&v[0])), 8)
+		x := binary.LittleEndian.Uint64(b)
+		return (x|(x+add))&0x8080808080808080 == 0
+	}
 	for _, x := range v {
 		if x >= thr {
 			return false
@@ -671,7 +707,13 @@ func (d *Detector) separate() {
 	for i := range d.cands {
 		d.order = append(d.order, int32(i))
 	}
-	sort.SliceStable(d.order, func(a, b int) bool { return d.cands[d.order[a]].v > d.cands[d.order[b]].v })
+	// Strongest first; ties in raster order, so the order is total.
+	slices.SortFunc(d.order, func(a, b int32) int {
+		if va, vb := d.cands[a].v, d.cands[b].v; va != vb {
+			return vb - va
+		}
+		return int(a - b)
+	})
 	for _, i := range d.order {
 		c := &d.cands[i]
 		kx, ky := int(float64(c.x)/sep), int(float64(c.y)/sep)

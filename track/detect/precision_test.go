@@ -31,7 +31,8 @@ func TestThompsonBound(t *testing.T) {
 
 // TestLocalizationPrecision compares the RMS localization error of both
 // estimators with the Thompson, Larson & Webb (2002) bound for the same spot
-// width, photon count and background, at several SNRs.
+// width, photon count and background, at several SNRs, with a background
+// image and without (the box-mean band-pass).
 func TestLocalizationPrecision(t *testing.T) {
 	const (
 		sigmaPx = 1.25 // a 5 px tracer
@@ -57,14 +58,20 @@ func TestLocalizationPrecision(t *testing.T) {
 		b := math.Sqrt(sc.bgPhotons + sc.readNoise*sc.readNoise)
 		t.Logf("%s noise: spot sd %.2f px, background %.0f photons/px, read noise %.0f: b = %.2f photons/px; TLW = Thompson, Larson & Webb (2002)",
 			regime.name, sigmaPx, sc.bgPhotons, sc.readNoise, b)
-		t.Logf("%-16s %5s %8s %10s %10s %6s %6s", "estimator", "SNR", "photons", "RMS px", "TLW px", "ratio", "found")
-		for _, est := range []Estimator{Centroid, RadialSymmetry} {
+		t.Logf("%-16s %-10s %5s %8s %10s %10s %6s %6s", "estimator", "background", "SNR", "photons", "RMS px", "TLW px", "ratio", "found")
+		for _, c := range []struct {
+			est    Estimator
+			bgMode string
+		}{{Centroid, "image"}, {RadialSymmetry, "image"}, {Centroid, "none"}, {RadialSymmetry, "none"}} {
+			est := c.est
 			d, err := NewDetector(Options{DiameterPx: 4 * sigmaPx, Polarity: PolarityBright, Estimator: est, MinSNR: 3})
 			if err != nil {
 				t.Fatal(err)
 			}
-			if err := d.SetBackground(bg); err != nil {
-				t.Fatal(err)
+			if c.bgMode == "image" {
+				if err := d.SetBackground(bg); err != nil {
+					t.Fatal(err)
+				}
 			}
 			for _, snr := range regime.snrs {
 				rng := rand.New(rand.NewPCG(1, uint64(snr)))
@@ -91,12 +98,12 @@ func TestLocalizationPrecision(t *testing.T) {
 				}
 				rms := math.Sqrt(se / float64(n))
 				bound := thompsonBound(sigmaPx, photons, b)
-				t.Logf("%-16s %5.0f %8.0f %10.4f %10.4f %6.3f %6.3f", est, snr, photons, rms, bound, rms/bound, float64(n/2)/float64(total))
+				t.Logf("%-16s %-10s %5.0f %8.0f %10.4f %10.4f %6.3f %6.3f", est, c.bgMode, snr, photons, rms, bound, rms/bound, float64(n/2)/float64(total))
 				if snr >= 10 && rms > ratioLimit*bound {
-					t.Errorf("%s, %s noise, SNR %g: RMS %.4f px is %.2fx the TLW bound %.4f px, want <= %g", est, regime.name, snr, rms, rms/bound, bound, ratioLimit)
+					t.Errorf("%s, %s noise, background %s, SNR %g: RMS %.4f px is %.2fx the TLW bound %.4f px, want <= %g", est, regime.name, c.bgMode, snr, rms, rms/bound, bound, ratioLimit)
 				}
 				if snr >= 100 && rms > highSNRLimitPx {
-					t.Errorf("%s, %s noise, SNR %g: RMS %.4f px, want <= %g", est, regime.name, snr, rms, highSNRLimitPx)
+					t.Errorf("%s, %s noise, background %s, SNR %g: RMS %.4f px, want <= %g", est, regime.name, c.bgMode, snr, rms, highSNRLimitPx)
 				}
 			}
 			d.Close()

@@ -1,6 +1,9 @@
 package detect
 
-import "math"
+import (
+	"math"
+	"slices"
+)
 
 // refine locates, sizes and weighs the spot whose integer maximum is
 // (x0, y0). It returns the detection with SNR holding the amplitude in
@@ -10,6 +13,20 @@ func (d *Detector) refine(p *pixels, x0, y0 int) (Detection, bool) {
 	R := wr + windowSlack
 	n := 2*R + 1
 	p.window(d.win, x0, y0, R)
+	// The window's border, more than 4 sd from the candidate, holds no
+	// light of the spot: its median is the local background left.
+	d.ring = d.ring[:0]
+	for i := 0; i < n; i++ {
+		d.ring = append(d.ring, d.win[i], d.win[(n-1)*n+i])
+	}
+	for j := 1; j < n-1; j++ {
+		d.ring = append(d.ring, d.win[j*n], d.win[j*n+n-1])
+	}
+	slices.Sort(d.ring)
+	level := (d.ring[len(d.ring)/2] + d.ring[(len(d.ring)-1)/2]) / 2
+	for i := range d.win {
+		d.win[i] -= level
+	}
 	var dx, dy float64 // position relative to (x0, y0)
 	ok := false
 	switch d.opt.Estimator {
@@ -23,19 +40,14 @@ func (d *Detector) refine(p *pixels, x0, y0 int) (Detection, bool) {
 	}
 	// Window of radius wr around the pixel nearest the estimate.
 	ox, oy := int(math.Round(dx)), int(math.Round(dy))
+	// One Gaussian of the pixel-integrated spot's variance s2 serves as the
+	// amplitude template and as the weight of the moments.
 	s2 := d.sigma*d.sigma + 1.0/12 // pixel integration widens the spot
-	sw2 := d.sigma * d.sigma
-	// Separable Gaussians: t for the amplitude template, wgt for the
-	// moments.
-	var tx, ty, gx, gy [2*maxWindowHalf + 1]float64
-	for i := -wr; i <= wr; i++ {
-		ux := float64(ox+i) - dx
-		uy := float64(oy+i) - dy
-		tx[i+wr] = math.Exp(-ux * ux / (2 * s2))
-		ty[i+wr] = math.Exp(-uy * uy / (2 * s2))
-		gx[i+wr] = math.Exp(-ux * ux / (2 * sw2))
-		gy[i+wr] = math.Exp(-uy * uy / (2 * sw2))
-	}
+	sw2 := s2
+	var tx, ty [2*maxWindowHalf + 1]float64
+	gauss1D(tx[:2*wr+1], float64(ox-wr)-dx, s2)
+	gauss1D(ty[:2*wr+1], float64(oy-wr)-dy, s2)
+	gx, gy := tx, ty
 	// Least-squares fit of amplitude and offset, v = a t + c.
 	var st, stt, sv, svt float64
 	np := float64((2*wr + 1) * (2*wr + 1))
@@ -55,7 +67,7 @@ func (d *Detector) refine(p *pixels, x0, y0 int) (Detection, bool) {
 		return Detection{}, false
 	}
 	// The template's peak is s^2/s2 of the density's peak N/(2 pi s^2).
-	amp := (np*svt - st*sv) / den * s2 / sw2
+	amp := (np*svt - st*sv) / den * s2 / (d.sigma * d.sigma)
 	off := (sv*stt - st*svt) / den
 	var sumW, mxx, myy, mxy, bright float64
 	rDisc2 := float64(wr * wr)
@@ -120,12 +132,8 @@ func (d *Detector) centroid(R int) (cx, cy float64, ok bool) {
 	gainStep := (sw2 + s2) / sw2
 	ix, iy := 0, 0
 	for it := 0; it < maxIterations; it++ {
-		for i := -wr; i <= wr; i++ {
-			ux := float64(ix+i) - cx
-			d.wx[i+wr] = math.Exp(-ux * ux / (2 * sw2))
-			uy := float64(iy+i) - cy
-			d.wy[i+wr] = math.Exp(-uy * uy / (2 * sw2))
-		}
+		gauss1D(d.wx, float64(ix-wr)-cx, sw2)
+		gauss1D(d.wy, float64(iy-wr)-cy, sw2)
 		var sw, sx, sy float64
 		for j := -wr; j <= wr; j++ {
 			row := d.win[(R+iy+j)*n+R+ix-wr : (R+iy+j)*n+R+ix+wr+1]
@@ -236,4 +244,18 @@ func (d *Detector) radialCentre(R int) (cx, cy float64, ok bool) {
 		return 0, 0, false
 	}
 	return (a22*b1 - a12*b2) / det, (a11*b2 - a12*b1) / det, true
+}
+
+// gauss1D fills dst with exp(-u^2/(2 v)) at u = u0, u0+1, ...: three
+// exponentials and a recurrence on the ratio of neighbours,
+// g(u+1)/g(u) = exp(-(2u+1)/(2v)), which shrinks by exp(-1/v) per step.
+func gauss1D(dst []float64, u0, v float64) {
+	g := math.Exp(-u0 * u0 / (2 * v))
+	r := math.Exp(-(2*u0 + 1) / (2 * v))
+	a := math.Exp(-1 / v)
+	for i := range dst {
+		dst[i] = g
+		g *= r
+		r *= a
+	}
 }
