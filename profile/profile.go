@@ -18,6 +18,7 @@ import (
 
 	"gaptrace/calib"
 	"gaptrace/calib/experiment"
+	"gaptrace/calib/geometry"
 	"gaptrace/profile/cessation"
 	"gaptrace/profile/layers"
 	"gaptrace/profile/rheometry"
@@ -144,9 +145,20 @@ func Analyze(pts []tracks.Point, e *experiment.Experiment, c *calib.Calibration,
 	if o.MapWindows <= 0 {
 		o.MapWindows = DefaultMapWindows
 	}
-	gap := e.Geometry.Gap()
-	if c != nil && c.GapUM > 0 && math.Abs(c.GapUM-gap) > 1e-6*gap {
-		return nil, fmt.Errorf("profile: calibration gap %g um differs from the experiment's %g um", c.GapUM, gap)
+	// The moving wall lies at y = the calibration's gap: between plates
+	// that is the gap used; a curved geometry keeps its own, with a warning
+	// when the two disagree.
+	geom := e.Geometry
+	gap := geom.Gap()
+	var warn []string
+	if c != nil && c.GapUM > 0 && math.Abs(c.GapUM-gap) > gapAgreement*gap {
+		switch geom.Kind {
+		case geometry.Plates, geometry.ParallelPlate:
+			warn = append(warn, fmt.Sprintf("the calibration's gap %.1f um differs from the experiment's %.1f um; the calibration's is used", c.GapUM, gap))
+			geom.GapUM, gap = c.GapUM, c.GapUM
+		default:
+			warn = append(warn, fmt.Sprintf("the calibration's gap %.1f um differs from the %s's %.1f um; heights beyond %.1f um are left out", c.GapUM, geom.Kind, gap, gap))
+		}
 	}
 	ts := velocity.Group(pts)
 	if len(ts) == 0 {
@@ -164,7 +176,7 @@ func Analyze(pts []tracks.Point, e *experiment.Experiment, c *calib.Calibration,
 	for _, p := range pts {
 		t0, t1 = math.Min(t0, p.TS), math.Max(t1, p.TS)
 	}
-	r := &Result{NoiseUM: sigma, FrameIntervalS: dt, Warnings: []string{}}
+	r := &Result{NoiseUM: sigma, FrameIntervalS: dt, Warnings: append([]string{}, warn...)}
 	prog := e.Program()
 	r.Phases = Phases(prog, t0, t1)
 	steps := shearSteps(prog)
@@ -266,7 +278,7 @@ func Analyze(pts []tracks.Point, e *experiment.Experiment, c *calib.Calibration,
 			SlipStationaryErrUMPerS: summary.Null, SlipMovingUMPerS: summary.Null, SlipMovingErrUMPerS: summary.Null,
 			SlipLengthStationaryUM: summary.Null, SlipLengthMovingUM: summary.Null, SlipFraction: summary.Null,
 			SlipFractionErr: summary.Null, Bands: []summary.Band{}}
-		d, err := rheometry.Decompose(steady.Bins, e.Geometry, st.WallSpeedUMPerS, rheometry.Options{})
+		d, err := rheometry.Decompose(steady.Bins, geom, st.WallSpeedUMPerS, rheometry.Options{})
 		if err != nil {
 			r.Warnings = append(r.Warnings, fmt.Sprintf("shear phase %d (%g-%g s): %v", n, st.StartS, st.EndS, err))
 		} else {
@@ -282,7 +294,7 @@ func Analyze(pts []tracks.Point, e *experiment.Experiment, c *calib.Calibration,
 			if mp.T0S < st.StartS || mp.T1S > st.EndS {
 				continue
 			}
-			md, err := rheometry.Decompose(mp.Bins, e.Geometry, st.WallSpeedUMPerS, rheometry.Options{})
+			md, err := rheometry.Decompose(mp.Bins, geom, st.WallSpeedUMPerS, rheometry.Options{})
 			if err != nil {
 				continue
 			}
@@ -295,7 +307,7 @@ func Analyze(pts []tracks.Point, e *experiment.Experiment, c *calib.Calibration,
 		if err != nil {
 			return nil, err
 		}
-		sh.LocalStrain = localStrain(whole.Bins, e, st.DurationS())
+		sh.LocalStrain = localStrain(whole.Bins, geom, st.DurationS())
 		sh.Summary = sp
 		r.Shear = append(r.Shear, sh)
 		r.ShearPhases = append(r.ShearPhases, sp)
@@ -344,6 +356,11 @@ func stepsOf(ph []summary.Phase, p experiment.Program) []experiment.Step {
 	}
 	return out
 }
+
+// gapAgreement is the relative difference between the calibration's and
+// the experiment's gap tolerated silently: a thousandth is a pixel in a
+// gap of a thousand.
+const gapAgreement = 1e-3
 
 // curvePoints is the number of intervals at which a fitted profile is
 // tabulated for plotting.
@@ -412,7 +429,7 @@ const localStrainHalfWidth = 2
 // accumulated displacement X(y) = v(y) durS, differentiated with respect to
 // the Newtonian coordinate u (y between plates; see rheometry) by a
 // weighted local line through 2*localStrainHalfWidth+1 layers.
-func localStrain(bins []layers.Bin, e *experiment.Experiment, durS float64) []StrainPoint {
+func localStrain(bins []layers.Bin, g geometry.Geometry, durS float64) []StrainPoint {
 	var out []StrainPoint
 	for j, b := range bins {
 		if !b.Known() {
@@ -425,7 +442,7 @@ func localStrain(bins []layers.Bin, e *experiment.Experiment, durS float64) []St
 			if !q.Known() || !(q.Err > 0) {
 				continue
 			}
-			u := rheometry.NewtonianU(e.Geometry, q.YUM)
+			u := rheometry.NewtonianU(g, q.YUM)
 			x := q.Value * durS
 			w := 1 / (q.Err * q.Err * durS * durS)
 			sw += w
