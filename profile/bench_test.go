@@ -22,3 +22,22 @@ func BenchmarkAnalyze(b *testing.B) {
 		}
 	}
 }
+
+// BenchmarkAnalyzeLarge measures Analyze on a long recording: the demo
+// scenario with 1000 tracers over 1000 frames (about 1.4 million points).
+func BenchmarkAnalyzeLarge(b *testing.B) {
+	s, err := synth.Builtin("demo", 2)
+	if err != nil {
+		b.Fatal(err)
+	}
+	s.Tracers, s.Frames = 1000, 1000
+	pts := observe(s, 2)
+	b.ReportMetric(float64(len(pts)), "points")
+	e, c := s.Experiment(), s.Calibration()
+	b.ResetTimer()
+	for range b.N {
+		if _, err := Analyze(pts, e, c, Options{Seed: 1}); err != nil {
+			b.Fatal(err)
+		}
+	}
+}
