@@ -32,7 +32,6 @@ func BenchmarkAnalyzeLarge(b *testing.B) {
 	}
 	s.Tracers, s.Frames = 1000, 1000
 	pts := observe(s, 2)
-	b.ReportMetric(float64(len(pts)), "points")
 	e, c := s.Experiment(), s.Calibration()
 	b.ResetTimer()
 	for range b.N {
@@ -40,4 +39,5 @@ func BenchmarkAnalyzeLarge(b *testing.B) {
 			b.Fatal(err)
 		}
 	}
+	b.ReportMetric(float64(len(pts)), "points")
 }
