@@ -138,12 +138,12 @@ func renderFigures(d *Data) (figs []shownFigure, notShown, failed []string) {
 		}, false, func() (*figure.Figure, error) { return figure.AfterStopPlot(d.AfterStop) }},
 		{d.SpaceTime != nil, spaceTimeStem, mapTitle(d.SpaceTime, figure.LocalVelocity), func() string {
 			return fmt.Sprintf("The %s across the gap through the whole run, from the stationary wall (y = 0) to the "+
-				"moving wall; each cell is one time window and gap bin, white cells had no tracers. Dashed lines: "+
+				"moving wall; each cell is one time window and gap bin; white cells had too few tracers for a value. Dashed lines: "+
 				"changes of the imposed motion.", d.SpaceTime.Quantity.Noun())
 		}, true, func() (*figure.Figure, error) { return figure.SpaceTimePlot(d.SpaceTime) }},
 		{d.RateMap != nil, rateMapStem, mapTitle(d.RateMap, figure.LocalRate), func() string {
 			return fmt.Sprintf("The %s across the gap through the whole run, from the stationary wall (y = 0) to the "+
-				"moving wall; each cell is one time window and gap bin, white cells had no tracers. Dashed lines: "+
+				"moving wall; each cell is one time window and gap bin; white cells had too few tracers for a value. Dashed lines: "+
 				"changes of the imposed motion.", d.RateMap.Quantity.Noun())
 		}, true, func() (*figure.Figure, error) { return figure.SpaceTimePlot(d.RateMap) }},
 		{d.Overlay != nil, frameStem, "Frame with walls, gap axes and tracks", func() string {

@@ -1,0 +1,107 @@
+package report_test
+
+import (
+	"math"
+	"math/rand/v2"
+	"os"
+	"path/filepath"
+	"strings"
+	"testing"
+
+	"gaptrace/profile"
+	"gaptrace/profile/report"
+	"gaptrace/profile/summary"
+	"gaptrace/track/synth"
+	"gaptrace/track/tracks"
+)
+
+// observedTracks returns the tracks of s as a tracker would see them: true
+// gap positions with Gaussian noise, broken at random and where a tracer
+// wraps around the scenario's strip.
+func observedTracks(s *synth.Scenario, seed uint64) []tracks.Point {
+	// noisePx: sub-pixel detection of 5 px spots reaches about 0.1 px
+	// (common practice); breakPerFrame: tracks tens of frames long.
+	const noisePx, breakPerFrame = 0.1, 0.02
+	rng := rand.New(rand.NewPCG(seed, 11))
+	sd := noisePx * s.UMPerPx
+	type state struct {
+		id, frame int
+		xUM       float64
+	}
+	last := map[int]*state{}
+	next := 0
+	var out []tracks.Point
+	for f := range s.Frames {
+		for _, t := range s.Positions(f) {
+			st := last[t.ID]
+			if st == nil || st.frame != f-1 || math.Abs(t.XUM-st.xUM) > float64(s.WidthPx)*s.UMPerPx/2 || rng.Float64() < breakPerFrame {
+				st = &state{id: next}
+				next++
+				last[t.ID] = st
+			}
+			st.xUM, st.frame = t.XUM, f
+			out = append(out, tracks.Point{Track: st.id, Frame: f, TS: float64(f) / s.FPS, XPx: t.XPx, YPx: t.YPx,
+				XUM: t.XUM + sd*rng.NormFloat64(), YUM: t.YUM + sd*rng.NormFloat64(), Brightness: t.Photons, SizePx: t.SigmaPx})
+		}
+	}
+	return out
+}
+
+// TestFromAnalysis runs the profile stage on the tracks of a rendered
+// scenario (the synth package's step strain followed by a failure plane)
+// and checks that FromAnalysis hands every series to the figures.
+func TestFromAnalysis(t *testing.T) {
+	s, err := synth.Builtin("step-plane", 3)
+	if err != nil {
+		t.Fatal(err)
+	}
+	e, c := s.Experiment(), s.Calibration()
+	r, err := profile.Analyze(observedTracks(s, 3), e, c, profile.Options{Seed: 3})
+	if err != nil {
+		t.Fatal(err)
+	}
+	summ := summary.New()
+	summ.Experiment, summ.Calibration = e.Name, c
+	r.Fill(summ)
+	d := report.FromAnalysis(summ, e, r)
+	if len(d.Profiles) != len(summ.ShearPhases) || len(d.Profiles) == 0 || d.Profiles[0] == nil {
+		t.Fatalf("%d profiles for %d shear phases", len(d.Profiles), len(summ.ShearPhases))
+	}
+	known := 0
+	for _, b := range r.Shear[0].Steady.Bins {
+		if b.Known() {
+			known++
+		}
+	}
+	if got := len(d.Profiles[0].Points); got != known {
+		t.Errorf("profile has %d points, the steady profile %d known layers", got, known)
+	}
+	if d.SpaceTime == nil || d.RateMap == nil || len(d.SpaceTime.TS) != len(r.Map.TS) {
+		t.Errorf("space-time maps missing or short")
+	}
+	if d.AfterStop == nil || len(d.AfterStop.Profiles) < 2 {
+		t.Fatalf("after-stop data missing")
+	}
+	if ts := d.AfterStop.Profiles; ts[len(ts)-1].TAfterStopS <= ts[0].TAfterStopS {
+		t.Errorf("after-stop times not increasing: %g then %g", ts[0].TAfterStopS, ts[len(ts)-1].TAfterStopS)
+	}
+	dir := t.TempDir()
+	names, err := report.Write(dir, d)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, want := range []string{"figure_profile_1.png", "figure_slip.png", "figure_after_stop.png",
+		"figure_space_time.png", "figure_rate_map.png", "report.html"} {
+		if _, err := os.Stat(filepath.Join(dir, want)); err != nil {
+			t.Errorf("%s not written (wrote %v)", want, names)
+		}
+	}
+	html, _ := os.ReadFile(filepath.Join(dir, report.FileName))
+	if strings.Contains(string(html), "Figure not drawn") {
+		i := strings.Index(string(html), "Figure not drawn")
+		t.Errorf("a figure of the analysis could not be drawn: %s", string(html)[i:min(len(html), i+200)])
+	}
+	if os.Getenv("ANALYSIS_REPORT_DIR") != "" {
+		report.Write(os.Getenv("ANALYSIS_REPORT_DIR"), d)
+	}
+}
