@@ -203,10 +203,11 @@ func Analyze(ts []velocity.Track, o Options) (*Result, error) {
 // placedTracer is a tracer placed at the stop: its reference position and
 // its points after the stop.
 type placedTracer struct {
-	id    int
-	xRef  float64
-	yUM   float64
-	after []velocityPoint
+	id       int
+	xRef     float64
+	yUM      float64
+	refFrame int // the last frame at or before the stop
+	after    []velocityPoint
 }
 
 type velocityPoint struct {
@@ -225,9 +226,6 @@ func place(ts []velocity.Track, o Options) []placedTracer {
 	for _, t := range ts {
 		p := t.Points
 		i := sort.Search(len(p), func(i int) bool { return p[i].TS > o.StopS+half })
-		if i == len(p) {
-			continue
-		}
 		var after []velocityPoint
 		for _, q := range p[i:] {
 			if q.TS > o.EndS {
@@ -235,11 +233,10 @@ func place(ts []velocity.Track, o Options) []placedTracer {
 			}
 			after = append(after, velocityPoint{q.Frame, q.TS, q.XUM, q.YUM})
 		}
-		if len(after) == 0 {
-			continue
-		}
 		if i == 0 {
-			orphans = append(orphans, after)
+			if len(after) > 0 {
+				orphans = append(orphans, after)
+			}
 			continue
 		}
 		lo := i - 1
@@ -248,7 +245,9 @@ func place(ts []velocity.Track, o Options) []placedTracer {
 		}
 		pre := p[lo:i]
 		if pre[len(pre)-1].TS < o.StopS-half-o.DtS {
-			orphans = append(orphans, after) // lost more than a frame before the stop
+			if len(after) > 0 {
+				orphans = append(orphans, after) // lost more than a frame before the stop
+			}
 			continue
 		}
 		var xRef float64
@@ -271,10 +270,16 @@ func place(ts []velocity.Track, o Options) []placedTracer {
 				xRef = (sx*stt - st*stx) / den // the line's value at the stop
 			}
 		}
-		out = append(out, placedTracer{id: t.ID, xRef: xRef, yUM: pre[len(pre)-1].YUM, after: after})
+		out = append(out, placedTracer{id: t.ID, xRef: xRef, yUM: pre[len(pre)-1].YUM, refFrame: pre[len(pre)-1].Frame, after: after})
 	}
 	stitch(out, orphans, o)
-	return out
+	kept := out[:0]
+	for _, p := range out {
+		if len(p.after) > 0 {
+			kept = append(kept, p)
+		}
+	}
+	return kept
 }
 
 // Stitching of broken tracks after the stop.
@@ -302,7 +307,12 @@ func stitch(placed []placedTracer, orphans [][]velocityPoint, o Options) {
 		best, bestD := -1, math.Inf(1)
 		for k := range placed {
 			a := placed[k].after
-			last := a[len(a)-1]
+			// A tracer lost at the stop itself continues from its place
+			// then, at rest.
+			last := velocityPoint{frame: placed[k].refFrame, tS: o.StopS, xUM: placed[k].xRef, yUM: placed[k].yUM}
+			if len(a) > 0 {
+				last = a[len(a)-1]
+			}
 			gap := first.frame - last.frame
 			if gap < 1 || gap > stitchGapFrames {
 				continue

@@ -4,6 +4,9 @@ import (
 	"math"
 	"math/rand/v2"
 	"testing"
+
+	"gaptrace/profile/velocity"
+	"gaptrace/track/tracks"
 )
 
 func TestLogTimes(t *testing.T) {
@@ -105,5 +108,29 @@ func TestCurve(t *testing.T) {
 	}
 	if r.AmplitudeAt(0.001) != 0 || r.AmplitudeAt(1) != 1 {
 		t.Errorf("amplitude %g before the first frame, %g after the last", r.AmplitudeAt(0.001), r.AmplitudeAt(1))
+	}
+}
+
+func TestStitchAtTheStop(t *testing.T) {
+	// A tracer sheared at 1000 um/s until the stop at 1 s, then still; its
+	// track breaks at the stop and goes on under a new id.
+	const dt, stop = 0.005, 1.0
+	var before, after velocity.Track
+	before.ID, after.ID = 1, 2
+	for f := 150; f <= 260; f++ {
+		ts := float64(f) * dt
+		x := 1000 * math.Min(ts, stop)
+		p := tracks.Point{Frame: f, TS: ts, XUM: x, YUM: 700}
+		if ts <= stop+1e-9 {
+			p.Track = 1
+			before.Points = append(before.Points, p)
+		} else {
+			p.Track = 2
+			after.Points = append(after.Points, p)
+		}
+	}
+	placed := place([]velocity.Track{before, after}, Options{StopS: stop, EndS: 1.3, DtS: dt, SigmaUM: 0.1, GapUM: 800})
+	if len(placed) != 1 || len(placed[0].after) != len(after.Points) || math.Abs(placed[0].xRef-1000) > 1e-6 {
+		t.Fatalf("placed %d tracers; want the one, stitched across the stop at x = 1000 um", len(placed))
 	}
 }
