@@ -407,14 +407,13 @@ func Phases(p experiment.Program, t0S, t1S float64) []summary.Phase {
 		return out
 	}
 	prev := t0S
-	for i, s := range p[:last+1] {
+	for _, s := range p[:last+1] {
 		if s.WallSpeedUMPerS == 0 {
 			continue
 		}
 		add(summary.Rest, prev, s.StartS)
 		add(summary.Shear, s.StartS, s.EndS)
 		prev = s.EndS
-		_ = i
 	}
 	add(summary.AfterStopKind, p[last].EndS, t1S)
 	return out
