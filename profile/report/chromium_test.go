@@ -13,6 +13,7 @@ import (
 	"time"
 
 	"gaptrace/profile/report"
+	"gaptrace/profile/report/figure"
 )
 
 // chromiumPath is Debian's chromium package.
@@ -37,6 +38,11 @@ func chromium(t *testing.T, page string, args ...string) []byte {
 		t.Fatalf("chromium %v: %v\n%s", args, err, errb.String())
 	}
 	return out.Bytes()
+}
+
+func near(v uint32, want uint8, slack int) bool {
+	d := int(v) - int(want)
+	return d >= -slack && d <= slack
 }
 
 var loaded = regexp.MustCompile(`data-figures-loaded="(\d+)/(\d+)"`)
@@ -81,8 +87,25 @@ func TestChromiumRendersReport(t *testing.T) {
 	if b := img.Bounds(); b.Dx() != 1200 || b.Dy() != 4000 {
 		t.Errorf("screenshot is %v, want 1200 x 4000", b.Size())
 	}
-	// The page is not blank: the header band is dark, the body mostly white.
+	// The page is not blank: the header band is dark, and the figures put
+	// their data colours (Okabe & Ito blue) on the screen.
 	if r, g, b, _ := img.At(20, 20).RGBA(); r>>8 > 80 || g>>8 > 80 || b>>8 > 80 {
 		t.Errorf("header pixel (20, 20) is (%d, %d, %d), want the dark header band", r>>8, g>>8, b>>8)
+	}
+	// colourSlack: downscaling and anti-aliasing mix a line's colour with
+	// white; minBluePixels: a few markers' worth.
+	const colourSlack, minBluePixels = 24, 200
+	blue := 0
+	bounds := img.Bounds()
+	for y := bounds.Min.Y; y < bounds.Max.Y; y++ {
+		for x := bounds.Min.X; x < bounds.Max.X; x++ {
+			r, g, b, _ := img.At(x, y).RGBA()
+			if near(r>>8, figure.Blue.R, colourSlack) && near(g>>8, figure.Blue.G, colourSlack) && near(b>>8, figure.Blue.B, colourSlack) {
+				blue++
+			}
+		}
+	}
+	if blue < minBluePixels {
+		t.Errorf("the screenshot shows %d pixels of the data blue, want at least %d: figures not on screen", blue, minBluePixels)
 	}
 }

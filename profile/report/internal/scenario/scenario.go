@@ -145,9 +145,12 @@ func Detection() *figure.Detection {
 	d := &figure.Detection{SNRThreshold: 4}
 	for range 3000 {
 		d.SNR = append(d.SNR, 4+math.Abs(12+5*r.NormFloat64()))
-		// Slight pixel locking: fractions pulled towards the pixel centre.
+		// Slight pixel locking in x: one position in six pulled to within
+		// 0.1 px of a pixel centre (a whole-pixel coordinate).
 		f := r.Float64()
-		f = 0.5 + 0.85*(f-0.5)
+		if r.IntN(6) == 0 {
+			f = math.Mod(0.9+0.2*f, 1)
+		}
 		d.FracXPx = append(d.FracXPx, f)
 		d.FracYPx = append(d.FracYPx, r.Float64())
 	}
