@@ -1,6 +1,7 @@
 package phases
 
 import (
+	"encoding/binary"
 	"errors"
 	"fmt"
 	"image"
@@ -14,19 +15,22 @@ import (
 
 // WallMotion measures, frame by frame, how far the tracers next to the
 // moving wall travel along it: a strip of the gap beside the moving wall is
-// resampled parallel to the walls, the static background (the temporal
-// median) is subtracted, and the shift between consecutive frames' strips
-// is found by phase correlation (OpenCV's phaseCorrelate). Feed it the
-// frames in order with Add; Signal is then the input of Detect.
+// resampled parallel to the walls, its smooth background is removed by a
+// high-pass filter (the strip minus a Gaussian blur of it), and the shift
+// between consecutive frames' strips is found by phase correlation
+// (OpenCV's phaseCorrelate, with a Hann window). A temporal median is not
+// subtracted: taken over a rest phase it holds the tracers, whose still
+// ghosts would then pin the correlation at zero. Feed it the frames in
+// order with Add; Signal is then the input of Detect.
 type WallMotion struct {
-	size       image.Point // strip size: along the wall x across it
-	warp       gocv.Mat    // strip -> image affine map
-	background gocv.Mat    // the median resampled into the strip, float32
-	cur, prev  gocv.Mat    // background-free strips, float32
-	tmp        gocv.Mat
-	exx, exy   float64 // unit vector along the wall (towards +x of the image)
-	signal     []float64
-	frames     int
+	size      image.Point // strip size: along the wall x across it
+	warp      gocv.Mat    // strip -> image affine map
+	window    gocv.Mat    // Hann window of the strip, float32
+	cur, prev gocv.Mat    // high-passed strips, float32
+	tmp, blur gocv.Mat
+	exx, exy  float64 // unit vector along the wall (towards +x of the image)
+	signal    []float64
+	frames    int
 }
 
 // Strip placement.
@@ -39,20 +43,16 @@ const (
 	maxStripPx    = 48
 	stripOffFrac  = 0.03 // the strip starts this fraction of the gap from the moving wall
 	minStripOffPx = 3    // and at least this far, clear of the wall's edge and reflection
+	// highPassSigmaPx: the blur subtracted from the strip is far wider than
+	// a tracer (a few px) and far narrower than the illumination's changes.
+	highPassSigmaPx = 6
 )
 
-// NewWallMotion prepares the measurement for images calibrated by cal, with
-// median the static background (a grey Mat of the frames' size and depth).
-// The caller closes the WallMotion.
-func NewWallMotion(cal *calib.Calibration, median gocv.Mat) (*WallMotion, error) {
+// NewWallMotion prepares the measurement for frames calibrated by cal. The
+// caller closes the WallMotion.
+func NewWallMotion(cal *calib.Calibration) (*WallMotion, error) {
 	if err := cal.Check(); err != nil {
 		return nil, err
-	}
-	if median.Empty() || median.Channels() != 1 {
-		return nil, errors.New("phases: the background must be a grey image")
-	}
-	if median.Cols() != cal.WidthPx || median.Rows() != cal.HeightPx {
-		return nil, fmt.Errorf("phases: background %dx%d px, calibration made on %dx%d px", median.Cols(), median.Rows(), cal.WidthPx, cal.HeightPx)
 	}
 	m := cal.MovingWallPx
 	dx, dy := m[1][0]-m[0][0], m[1][1]-m[0][1]
@@ -86,33 +86,49 @@ func NewWallMotion(cal *calib.Calibration, median gocv.Mat) (*WallMotion, error)
 	for i, v := range []float64{exx, nx, ox, exy, ny, oy} {
 		wm.warp.SetDoubleAt(i/3, i%3, v)
 	}
-	wm.background = gocv.NewMat()
-	wm.cur, wm.prev, wm.tmp = gocv.NewMat(), gocv.NewMat(), gocv.NewMat()
-	wm.resample(median, &wm.background)
+	wm.cur, wm.prev, wm.tmp, wm.blur = gocv.NewMat(), gocv.NewMat(), gocv.NewMat(), gocv.NewMat()
+	win, err := hannWindow(o)
+	if err != nil {
+		wm.Close()
+		return nil, err
+	}
+	wm.window = win
 	return wm, nil
 }
 
-// resample warps the strip of img into dst as float32.
-func (w *WallMotion) resample(img gocv.Mat, dst *gocv.Mat) {
-	img.ConvertTo(&w.tmp, gocv.MatTypeCV32F)
-	gocv.WarpAffineWithParams(w.tmp, dst, w.warp, w.size, gocv.InterpolationLinear|gocv.WarpInverseMap, gocv.BorderReplicate, color.RGBA{})
+// hannWindow returns the 2-D Hann window of the given size as float32.
+func hannWindow(sz image.Point) (gocv.Mat, error) {
+	hann := func(i, n int) float64 { return 0.5 - 0.5*math.Cos(2*math.Pi*(float64(i)+0.5)/float64(n)) }
+	b := make([]byte, 4*sz.X*sz.Y)
+	for y := 0; y < sz.Y; y++ {
+		hy := hann(y, sz.Y)
+		for x := 0; x < sz.X; x++ {
+			binary.LittleEndian.PutUint32(b[4*(y*sz.X+x):], math.Float32bits(float32(hy*hann(x, sz.X))))
+		}
+	}
+	return gocv.NewMatFromBytes(sz.Y, sz.X, gocv.MatTypeCV32F, b)
 }
 
-// Add measures the next frame (a grey Mat like the background) against the
-// previous one and appends the displacement along the wall, px, to the
+// strip warps the strip of img into dst as float32 and high-passes it.
+func (w *WallMotion) strip(img gocv.Mat, dst *gocv.Mat) {
+	img.ConvertTo(&w.tmp, gocv.MatTypeCV32F)
+	gocv.WarpAffineWithParams(w.tmp, dst, w.warp, w.size, gocv.InterpolationLinear|gocv.WarpInverseMap, gocv.BorderReplicate, color.RGBA{})
+	gocv.GaussianBlur(*dst, &w.blur, image.Pt(0, 0), highPassSigmaPx, highPassSigmaPx, gocv.BorderReplicate)
+	gocv.Subtract(*dst, w.blur, dst)
+}
+
+// Add measures the next frame (a grey Mat of the calibrated size) against
+// the previous one and appends the displacement along the wall, px, to the
 // signal (0 for the first frame).
 func (w *WallMotion) Add(frame gocv.Mat) error {
 	if frame.Empty() || frame.Channels() != 1 {
 		return errors.New("phases: frames must be grey images")
 	}
-	w.resample(frame, &w.cur)
-	gocv.Subtract(w.cur, w.background, &w.cur)
+	w.strip(frame, &w.cur)
 	if w.frames == 0 {
 		w.signal = append(w.signal, 0)
 	} else {
-		win := gocv.NewMat()
-		shift, _ := gocv.PhaseCorrelate(w.prev, w.cur, win)
-		win.Close()
+		shift, _ := gocv.PhaseCorrelate(w.prev, w.cur, w.window)
 		// The strip's x axis runs along the wall towards +x of the image.
 		w.signal = append(w.signal, float64(shift.X))
 	}
@@ -127,7 +143,9 @@ func (w *WallMotion) Signal() []float64 { return w.signal }
 
 // Close releases the OpenCV buffers.
 func (w *WallMotion) Close() {
-	for _, m := range []*gocv.Mat{&w.warp, &w.background, &w.cur, &w.prev, &w.tmp} {
-		m.Close()
+	for _, m := range []*gocv.Mat{&w.warp, &w.window, &w.cur, &w.prev, &w.tmp, &w.blur} {
+		if m.Ptr() != nil {
+			m.Close()
+		}
 	}
 }

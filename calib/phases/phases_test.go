@@ -184,12 +184,7 @@ func TestDetectOnSynth(t *testing.T) {
 				t.Fatal(err)
 			}
 			s.MovingSide, s.FlowSign, s.Frames = c.moving, c.flow, c.frames
-			med, err := frames.Median(&synthSource{s: s, step: 4}, s.Frames/4)
-			if err != nil {
-				t.Fatal(err)
-			}
-			defer med.Close()
-			wm, err := phases.NewWallMotion(s.Calibration(), med)
+			wm, err := phases.NewWallMotion(s.Calibration())
 			if err != nil {
 				t.Fatal(err)
 			}
