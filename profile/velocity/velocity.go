@@ -230,7 +230,8 @@ type Sample struct {
 
 // Samples returns the velocity samples of the tracks whose both ends lie in
 // [t0S, t1S]. Each track's lag comes from rule with the track's own rough
-// speed there (its net displacement over its time in the interval); a
+// speed there (its net displacement over its time in the interval), at most
+// the track's span in the interval; a
 // sample starts at every point of the track that has a partner exactly Lag
 // frames later, so samples of one track overlap and are correlated (treat
 // them per track when estimating errors).
@@ -253,7 +254,9 @@ func Samples(ts []Track, rule LagRule, sigmaUM, dtS, t0S, t1S float64) []Sample 
 		p = p[lo : hi+1]
 		first, last := p[0], p[len(p)-1]
 		v := (last.XUM - first.XUM) / (last.TS - first.TS)
-		l := rule.Lag(v, sigmaUM, dtS)
+		// No longer than the track's span here, so that a slow tracer seen
+		// briefly still gives its one, most precise, sample.
+		l := min(rule.Lag(v, sigmaUM, dtS), last.Frame-first.Frame)
 		j := 0
 		for i := range p {
 			for j < len(p) && p[j].Frame < p[i].Frame+l {
