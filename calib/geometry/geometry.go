@@ -210,3 +210,18 @@ func (g Geometry) LocalRate(yUM, vUMPerS float64) float64 {
 	a := vUMPerS / (rot/stat - stat/rot)
 	return math.Abs(2 * a * stat / (r * r))
 }
+
+// RotatingRadiusUM returns the radius in um at which the tool's angular
+// speed becomes the moving wall's speed: the observed rim of a cone or a
+// parallel plate, the rotating cylinder of a Couette cell. Sliding plates
+// do not rotate: NaN.
+func (g Geometry) RotatingRadiusUM() float64 {
+	switch g.Kind {
+	case ConePlate, ParallelPlate:
+		return g.RadiusMM * umPerMM
+	case Couette:
+		rot, _ := g.radii()
+		return rot
+	}
+	return math.NaN()
+}
