@@ -72,7 +72,7 @@ func Reconcile(program, detected []summary.Phase, fps float64) ([]summary.Phase,
 	var warn []string
 	if len(program) == 0 || !hasShear(program) {
 		if len(program) > 0 && hasShear(detected) {
-			warn = append(warn, "phases: the experiment file has no motion, but the video shows the moving wall moving; using the detected phases")
+			warn = append(warn, "phases: the motion program is empty, but the video shows the moving wall moving; using the detected phases")
 		}
 		if len(detected) == 0 {
 			return program, warn
@@ -81,7 +81,7 @@ func Reconcile(program, detected []summary.Phase, fps float64) ([]summary.Phase,
 	}
 	ps, ds := shears(program), shears(detected)
 	if len(detected) > 0 && len(ps) != len(ds) {
-		warn = append(warn, fmt.Sprintf("phases: the experiment file has %d shear phases, the video shows %d", len(ps), len(ds)))
+		warn = append(warn, fmt.Sprintf("phases: the motion program has %d shear phases, the video shows %d", len(ps), len(ds)))
 	}
 	tol := MaxDisagreeFrames / fps
 	for i := 0; i < min(len(ps), len(ds)); i++ {
@@ -90,7 +90,7 @@ func Reconcile(program, detected []summary.Phase, fps float64) ([]summary.Phase,
 			p, d float64
 		}{{"starts", ps[i].StartS, ds[i].StartS}, {"ends", ps[i].EndS, ds[i].EndS}} {
 			if diff := c.d - c.p; math.Abs(diff) > tol {
-				warn = append(warn, fmt.Sprintf("phases: shear phase %d %s at %.3f s in the experiment file but at %.3f s in the video (%+.1f frames)",
+				warn = append(warn, fmt.Sprintf("phases: shear phase %d %s at %.3f s in the motion program but at %.3f s in the video (%+.1f frames)",
 					i+1, c.what, c.p, c.d, diff*fps))
 			}
 		}

@@ -7,12 +7,14 @@ import (
 	"image/color"
 	"io"
 	"math"
+	"os"
 	"path/filepath"
 	"strings"
 
 	"gocv.io/x/gocv"
 
 	"gaptrace/calib"
+	"gaptrace/calib/experiment"
 	"gaptrace/calib/phases"
 	"gaptrace/profile/summary"
 	"gaptrace/track/frames"
@@ -31,6 +33,11 @@ func runCalib(args []string, stderr io.Writer) error {
 	outDir := fs.String("o", "", "output folder")
 	motion := fs.Bool("motion", true, "also read every frame for the moving wall's direction and the phases of motion")
 	prog := fs.Bool("progress", false, "show progress even when stderr is not a terminal")
+	logPath := fs.String("log", "", "rheometer log (CSV) to use as the motion program for the phases, instead of the experiment file's motion")
+	logTime := fs.String("log-time", "1", "the log's time column (s): header name or 1-based number")
+	logValue := fs.String("log-value", "2", "the log's motion column: header name or 1-based number")
+	logKind := fs.String("log-kind", experiment.LogAngleRad, "what the motion column holds: angle_rad, angle_deg, strain or rate")
+	logOffset := fs.Float64("log-offset", 0, "seconds added to the log's times to put them on the video's clock")
 	if err := parseFlags(fs, args); err != nil {
 		return err
 	}
@@ -40,6 +47,20 @@ func runCalib(args []string, stderr io.Writer) error {
 	exp, err := loadExperiment(*expPath)
 	if err != nil {
 		return err
+	}
+	var program experiment.Program
+	if *logPath != "" {
+		f, err := os.Open(*logPath)
+		if err != nil {
+			return badInputf("--log: %v", err)
+		}
+		program, err = experiment.ReadLog(f, experiment.LogColumns{Time: *logTime, Value: *logValue, Kind: *logKind, OffsetS: *logOffset}, exp.Geometry)
+		f.Close()
+		if err != nil {
+			return badInputf("--log %s: %v", *logPath, err)
+		}
+	} else {
+		program = exp.Program()
 	}
 	if err := ensureDir(*outDir); err != nil {
 		return err
@@ -52,7 +73,7 @@ func runCalib(args []string, stderr io.Writer) error {
 	}
 	defer med.Close()
 	if *motion {
-		if err := c.wallMotion(); err != nil {
+		if err := c.wallMotion(program); err != nil {
 			return err
 		}
 	}
@@ -74,7 +95,7 @@ func runCalib(args []string, stderr io.Writer) error {
 // wallMotion reads every frame, measures the motion beside the moving wall,
 // sets the calibration's flow sign from it and reports the detected phases
 // and their agreement with the motion program on stderr.
-func (c *chain) wallMotion() error {
+func (c *chain) wallMotion(program experiment.Program) error {
 	src, err := c.openInput(frames.All)
 	if err != nil {
 		return err
@@ -112,7 +133,7 @@ func (c *chain) wallMotion() error {
 		c.cal.FlowSign = d.FlowSign
 	}
 	durS := float64(n) / info.FPS
-	ph, warn := phases.Reconcile(phases.FromProgram(c.exp.Program(), durS), d.Phases, info.FPS)
+	ph, warn := phases.Reconcile(phases.FromProgram(program, durS), d.Phases, info.FPS)
 	var parts []string
 	for _, p := range ph {
 		parts = append(parts, fmt.Sprintf("%s %.3f-%.3f s", p.Kind, p.StartS, p.EndS))

@@ -87,6 +87,17 @@ func TestCalibCommand(t *testing.T) {
 	if _, err := os.Stat(keep); err != nil {
 		t.Errorf("notes.txt gone: %v", err)
 	}
+	// A rheometer log whose step starts 10 frames (0.05 s) late: the phases
+	// disagree and stderr says so.
+	logPath := filepath.Join(in, "rheometer.csv")
+	if err := os.WriteFile(logPath, []byte("time,strain\n0,0\n0.3,0\n0.55,0.5\n0.7,0.5\n"), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	code, errs = runCalibArgs("-e", filepath.Join(in, synth.ExperimentFile), "-o", out, "--log", logPath, "--log-time", "time",
+		"--log-value", "strain", "--log-kind", "strain", filepath.Join(in, synth.FramesDir))
+	if code != 0 || !strings.Contains(errs, "shear phase 1 starts at 0.300 s in the motion program but at 0.250 s in the video") {
+		t.Errorf("with the log: exit %d, stderr %s", code, errs)
+	}
 }
 
 func TestCalibCommandBadInput(t *testing.T) {
