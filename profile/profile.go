@@ -234,6 +234,7 @@ func Analyze(pts []tracks.Point, e *experiment.Experiment, c *calib.Calibration,
 	}
 	r.Map = spaceTime(mapProfiles, gap, o.Bins)
 
+	o.Windows = slices.Clone(o.Windows) // names are filled in below
 	for i, w := range o.Windows {
 		if !(w.T1S > w.T0S) {
 			return nil, fmt.Errorf("profile: window %q from %g s to %g s is empty", w.Name, w.T0S, w.T1S)
