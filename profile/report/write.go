@@ -170,6 +170,12 @@ func renderFigures(d *Data) (figs []shownFigure, notShown, failed []string) {
 		wg.Go(func() {
 			sem <- struct{}{}
 			defer func() { <-sem }()
+			// A panic while drawing one figure costs that figure only.
+			defer func() {
+				if r := recover(); r != nil {
+					figs[i].fig, errs[i] = nil, fmt.Errorf("drawing failed: %v", r)
+				}
+			}()
 			figs[i].fig, errs[i] = draws[i]()
 		})
 	}
