@@ -27,6 +27,7 @@ func init() {
 type runOptions struct {
 	expPath, outDir, input string
 	force, progress        bool
+	noJitter               bool
 	bins                   int
 	windows                windowList
 	seed                   uint64
@@ -39,6 +40,7 @@ func runRun(args []string, stderr io.Writer) error {
 	fs.StringVar(&o.outDir, "o", "", "output folder (must be empty unless --force)")
 	fs.BoolVar(&o.force, "force", false, "write into a folder that is not empty, replacing earlier results")
 	fs.BoolVar(&o.progress, "progress", false, "show progress even when stderr is not a terminal")
+	fs.BoolVar(&o.noJitter, "no-jitter", false, "do not measure and remove the camera's frame-to-frame jitter (a rigidly mounted camera)")
 	fs.IntVar(&o.bins, "bins", 0, "number of layers across the gap (0: the default)")
 	fs.Var(&o.windows, "window", "time window START:END in s for a profile; repeat for more (default: the second half of each shear phase)")
 	fs.Uint64Var(&o.seed, "seed", 1, "seed of the bootstrap's random numbers")
@@ -72,7 +74,7 @@ func runChain(o runOptions, stderr io.Writer) (*summary.Summary, error) {
 		return nil, err
 	}
 	removeStale(o.outDir, runFiles...)
-	c := &chain{expPath: o.expPath, exp: exp, input: o.input, progress: o.progress, stderr: stderr}
+	c := &chain{expPath: o.expPath, exp: exp, input: o.input, progress: o.progress, stderr: stderr, noJitter: o.noJitter}
 	med, err := c.calibrate()
 	if err != nil {
 		return nil, err

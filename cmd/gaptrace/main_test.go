@@ -1,0 +1,9 @@
+package main
+
+import (
+	"testing"
+
+	"gaptrace/track/matleak"
+)
+
+func TestMain(m *testing.M) { matleak.Main(m) }
