@@ -20,10 +20,14 @@ const (
 	// that the spot takes little of its mean, narrow enough to follow uneven
 	// illumination.
 	boxDiameters = 2
-	// kernelSigmas is the half-width of the matched Gaussian kernel and of
-	// the refinement window in sds: the product of the weight and the spot
-	// is below 1e-4 of its peak beyond it.
+	// kernelSigmas is the half-width of the refinement window in sds: the
+	// product of the weight and the spot is below 1e-4 of its peak beyond
+	// it.
 	kernelSigmas = 3
+	// filterSigmas is the half-width of the matched Gaussian kernel of the
+	// candidate search in sds: 2 sds keep 95% of its weight per axis, and
+	// the kernel is only used to find the spots, not to locate them.
+	filterSigmas = 2
 	// windowSlack is how much wider, in px, the pixels loaded around a
 	// candidate are than the refinement window, so that the window can
 	// follow the estimate by up to maxShiftPx.
@@ -88,6 +92,7 @@ type Detector struct {
 
 	sigma float64 // nominal spot sd, px
 	wr    int     // refinement window half-width, px
+	khalf int     // matched Gaussian kernel half-width, px
 	ksize int     // matched Gaussian kernel size, px
 	boxPx int     // box mean width without a background image, px
 	// gain1 and gainBox are the band-pass responses at the centre of a
@@ -135,7 +140,8 @@ func NewDetector(opt Options) (*Detector, error) {
 	d := &Detector{opt: opt, polarity: opt.Polarity, bgType: -1}
 	d.sigma = opt.DiameterPx / diameterSigmas
 	d.wr = int(math.Ceil(kernelSigmas * d.sigma))
-	d.ksize = 2*d.wr + 1
+	d.khalf = int(math.Ceil(filterSigmas * d.sigma))
+	d.ksize = 2*d.khalf + 1
 	d.boxPx = 2*int(math.Round(boxDiameters*opt.DiameterPx/2)) + 1
 	for _, m := range []*gocv.Mat{&d.bgSmooth, &d.sm, &d.lo, &d.cand, &d.cand2} {
 		*m = gocv.NewMat()
@@ -159,16 +165,16 @@ func (d *Detector) filterGain(box bool) float64 {
 	k := 1 / (math.Sqrt2 * d.sigma)
 	norm := math.Sqrt(2 * math.Pi * d.sigma * d.sigma) // per axis
 	pix := func(c float64) float64 { return norm * 0.5 * (math.Erf((c+0.5)*k) - math.Erf((c-0.5)*k)) }
-	kern := make([]float64, 2*d.wr+1)
+	kern := make([]float64, d.ksize)
 	var sum float64
 	for i := range kern {
-		x := float64(i - d.wr)
+		x := float64(i - d.khalf)
 		kern[i] = math.Exp(-x * x / (2 * d.sigma * d.sigma))
 		sum += kern[i]
 	}
 	var g1, b1 float64
-	for i := -d.wr; i <= d.wr; i++ {
-		g1 += kern[i+d.wr] / sum * pix(float64(i))
+	for i := -d.khalf; i <= d.khalf; i++ {
+		g1 += kern[i+d.khalf] / sum * pix(float64(i))
 	}
 	g1 *= g1 // separable
 	if box {
@@ -517,8 +523,9 @@ func decidePolarity(bright, dark gocv.Mat) string {
 	return PolarityBright
 }
 
-// selectKth reorders v so that v[k] is its k-th smallest value and returns it.
-func selectKth(v []float32, k int) float32 {
+// selectKth reorders v so that v[k] is its k-th smallest value and returns it
+// (Hoare's selection).
+func selectKth[T float32 | float64](v []T, k int) T {
 	lo, hi := 0, len(v)-1
 	for lo < hi {
 		pivot := v[(lo+hi)/2]

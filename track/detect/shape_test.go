@@ -5,8 +5,6 @@ import (
 	"math/rand/v2"
 	"sort"
 	"testing"
-
-	"gocv.io/x/gocv"
 )
 
 // TestShapeNoise measures size and eccentricity of round spots at several
@@ -61,56 +59,70 @@ func TestShapeNoise(t *testing.T) {
 	}
 }
 
-// TestRejection shows each rejection rule at work on a bright frame: a blob
-// too large, one too elongated, and two overlapping spots, beside a normal
-// spot that stays.
+// TestRejection shows each rejection rule at work, with the rule on and
+// off: a blob three times too wide, a streak (a tracer blurred by 10 px of
+// motion within the exposure) and two spots 4.5 px apart, each beside a
+// normal spot that always stays.
 func TestRejection(t *testing.T) {
 	const sigmaPx = 1.25
 	sc := scene{w: 120, h: 60, bgPhotons: 20, readNoise: 2, bitDepth: 8, gain: 1}
 	ph := sc.photonsFor(40, sigmaPx)
 	normal := spot{20.3, 30.6, sigmaPx, ph}
-	large := spot{45, 30, 3 * sigmaPx, 9 * ph}
-	// Two spots 2.4 px apart (one maximum below 2 sd) read as one elongated blob.
-	elong := []spot{{68.8, 30, sigmaPx, ph}, {71.2, 30, sigmaPx, ph}}
-	// Two spots 4 px apart: separate maxima closer than the separation.
-	pair := []spot{{92, 28, sigmaPx, ph}, {95, 31, sigmaPx, ph * 0.8}}
-	spots := append([]spot{normal, large}, append(elong, pair...)...)
-	rng := rand.New(rand.NewPCG(3, 3))
-	img := sc.render(t, spots, rng)
-	defer img.Close()
-	bg := sc.background(t)
-	defer bg.Close()
-	for _, tc := range []struct {
-		name string
-		opt  Options
-		want int // detections expected, the normal spot first
-	}{
-		{"all rules", Options{}, 1},
-		{"no size limit", Options{MaxSizePx: 100}, 2},
-		{"no shape limits", Options{MaxSizePx: 100, MaxEccentricity: 1}, 3},
-		{"no limits", Options{MaxSizePx: 100, MaxEccentricity: 1, OverlapRatio: 1e9}, 4},
-	} {
-		opt := tc.opt
-		opt.DiameterPx, opt.Polarity = 4*sigmaPx, PolarityBright
-		d, err := NewDetector(opt)
-		if err != nil {
-			t.Fatal(err)
-		}
-		if err := d.SetBackground(bg); err != nil {
-			t.Fatal(err)
-		}
-		dets, err := d.Frame(img, 0, nil)
-		d.Close()
-		if err != nil {
-			t.Fatal(err)
-		}
-		if len(dets) != tc.want {
-			t.Errorf("%s: %d detections, want %d: %+v", tc.name, len(dets), tc.want, dets)
-			continue
-		}
-		if m := match([]spot{normal}, dets, 0.2); m[0] < 0 {
-			t.Errorf("%s: the normal spot at (%.1f, %.1f) is missing: %+v", tc.name, normal.x, normal.y, dets)
-		}
+	var streak []spot
+	for i := 0; i <= 40; i++ {
+		streak = append(streak, spot{55 + 0.25*float64(i), 30.3, sigmaPx, 3 * ph / 41})
 	}
-	_ = gocv.MatTypeCV8U
+	noLimits := Options{MaxSizePx: 100, MaxEccentricity: 1, OverlapRatio: 1e9}
+	for _, tc := range []struct {
+		name     string
+		spots    []spot
+		centre   spot
+		on, off  Options
+		onLeaves bool
+	}{
+		{"size", []spot{{60, 30, 3 * sigmaPx, 9 * ph}}, spot{x: 60, y: 30}, Options{}, noLimits, false},
+		{"eccentricity", streak, spot{x: 60, y: 30.3}, Options{MaxSizePx: 100, OverlapRatio: 1e9}, noLimits, false},
+		{"overlap", []spot{{60, 28, sigmaPx, ph}, {63.2, 31.2, sigmaPx, ph * 0.8}}, spot{x: 60, y: 28}, Options{}, noLimits, false},
+	} {
+		rng := rand.New(rand.NewPCG(3, 3))
+		img := sc.render(t, append([]spot{normal}, tc.spots...), rng)
+		bg := sc.background(t)
+		for _, rule := range []struct {
+			opt  Options
+			on   bool
+			name string
+		}{{tc.on, true, "on"}, {tc.off, false, "off"}} {
+			opt := rule.opt
+			opt.DiameterPx, opt.Polarity = 4*sigmaPx, PolarityBright
+			d, err := NewDetector(opt)
+			if err != nil {
+				t.Fatal(err)
+			}
+			if err := d.SetBackground(bg); err != nil {
+				t.Fatal(err)
+			}
+			dets, err := d.Frame(img, 0, nil)
+			d.Close()
+			if err != nil {
+				t.Fatal(err)
+			}
+			if m := match([]spot{normal}, dets, 0.2); m[0] < 0 {
+				t.Errorf("%s rule %s: the normal spot is missing: %+v", tc.name, rule.name, dets)
+			}
+			near := 0
+			for _, de := range dets {
+				if math.Hypot(de.XPx-tc.centre.x, de.YPx-tc.centre.y) < 6 {
+					near++
+				}
+			}
+			if rule.on && near > 0 {
+				t.Errorf("%s rule on: %d detections kept: %+v", tc.name, near, dets)
+			}
+			if !rule.on && near == 0 {
+				t.Errorf("%s rule off: nothing detected: %+v", tc.name, dets)
+			}
+		}
+		img.Close()
+		bg.Close()
+	}
 }

@@ -1,0 +1,77 @@
+#!/usr/bin/env bash
+# Throughput of gaptrace track against decoding alone.
+#
+# Renders one 1024x1024 recording with about 1000 tracers twice, as Motion
+# JPEG and as lossless FFV1 (gaptrace synth), then times in the same run,
+# best of REPEAT:
+#   decode   ffmpeg -threads 2 -i FILE -f null -   (decoding only)
+#   detect   the detection stage alone (track/detect/internal/benchrun)
+#   track    bin/gaptrace track -e experiment.yaml -o OUT FILE
+#            (calibration, detection, linking and tracks.csv)
+# and prints the times and the ratios track/decode and detect/decode.
+# The acceptance of issue 3 is track/decode <= 1.5 on MJPEG on 2 cores.
+#
+# Environment: FRAMES (default 300), TRACERS (1000), REPEAT (3),
+# BENCH_DIR (a temporary folder, removed at the end unless given).
+set -euo pipefail
+cd "$(dirname "$0")/.."
+
+FRAMES=${FRAMES:-300}
+TRACERS=${TRACERS:-1000}
+REPEAT=${REPEAT:-3}
+command -v ffmpeg >/dev/null || { echo "bench-track: ffmpeg is needed (scripts/deps.sh --test)" >&2; exit 1; }
+
+keep=1
+if [ -z "${BENCH_DIR:-}" ]; then
+  BENCH_DIR=$(mktemp -d)
+  keep=0
+fi
+cleanup() { [ "$keep" = 1 ] || rm -rf "$BENCH_DIR"; }
+trap cleanup EXIT
+
+go build -o bin/gaptrace ./cmd/gaptrace
+go build -o "$BENCH_DIR/benchrun" ./track/detect/internal/benchrun
+
+# seconds runs "$@" quietly and prints its wall time in seconds.
+seconds() {
+  local t0 t1
+  t0=$(date +%s.%N)
+  "$@" >/dev/null 2>&1
+  t1=$(date +%s.%N)
+  awk -v a="$t0" -v b="$t1" 'BEGIN { printf "%.3f", b - a }'
+}
+
+# min prints the smallest of its arguments.
+min() { printf '%s\n' "$@" | sort -g | head -n1; }
+
+# best runs "$@" REPEAT times and prints the shortest time.
+best() {
+  local ts=()
+  for _ in $(seq "$REPEAT"); do ts+=("$(seconds "$@")"); done
+  min "${ts[@]}"
+}
+
+# best_detect runs benchrun REPEAT times and prints its shortest detection
+# time (it also times reading alone, which is not counted here).
+best_detect() {
+  local ts=()
+  for _ in $(seq "$REPEAT"); do
+    ts+=("$("$BENCH_DIR/benchrun" "$1" | awk '$1 == "detect_s" { print $2 }')")
+  done
+  min "${ts[@]}"
+}
+
+ratio() { awk -v a="$1" -v b="$2" 'BEGIN { printf "%.2f", a / b }'; }
+
+printf '%-10s %8s %10s %10s %10s %12s %12s\n' codec frames decode_s detect_s track_s track/decode detect/decode
+for fmt in avi-mjpeg avi-ffv1; do
+  dir="$BENCH_DIR/$fmt"
+  bin/gaptrace synth --scenario homogeneous --size 1024x1024 --tracers "$TRACERS" \
+    --frames "$FRAMES" --format "$fmt" -o "$dir" >/dev/null 2>&1
+  in=$(ls "$dir"/video.* | head -n1)
+  dec=$(best ffmpeg -v error -threads 2 -i "$in" -f null -)
+  det=$(best_detect "$in")
+  trk=$(best bin/gaptrace track -e "$dir/experiment.yaml" -o "$dir/out" "$in")
+  printf '%-10s %8d %10.3f %10.3f %10.3f %12s %12s\n' "$fmt" "$FRAMES" "$dec" "$det" "$trk" \
+    "$(ratio "$trk" "$dec")" "$(ratio "$det" "$dec")"
+done
