@@ -470,7 +470,7 @@ func (r *Result) final(placed []placedTracer, o Options) {
 const huberRounds = 3
 
 // huberK is the Huber tuning constant, in robust standard deviations
-// (Huber 1964, Ann. Math. Statist. 35:73).
+// (Huber 1981, Robust Statistics; from memory).
 const huberK = 1.345
 
 // fitPicture fits the standard picture to the tracers' final displacements:

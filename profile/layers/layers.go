@@ -46,7 +46,7 @@ const (
 	DefaultMinGroups  = 3
 	// DefaultReplicates bootstrap resamplings give a standard error good to
 	// about 1/sqrt(2*100) = 7% (Efron & Tibshirani 1993, An Introduction to
-	// the Bootstrap, ch. 6).
+	// the Bootstrap, ch. 6; from memory).
 	DefaultReplicates = 100
 )
 
@@ -71,8 +71,8 @@ type Bin struct {
 func (b Bin) Known() bool { return !math.IsNaN(b.Value) }
 
 // HuberK is the tuning constant of the Huber M-estimator in units of the
-// robust scale: 95% efficiency at the normal distribution (Huber 1964,
-// Ann. Math. Statist. 35:73).
+// robust scale: 95% efficiency at the normal distribution (Huber 1981,
+// Robust Statistics; from memory).
 const HuberK = 1.345
 
 // huberIter iterations of reweighting bring the M-estimate to well below a
@@ -167,7 +167,7 @@ func (e *estimator) bin(obs []Obs, o Options, rng *rand.Rand) Bin {
 	scale := madToSigma * e.weightedMAD()
 	b.Value = e.huber(scale, e.weightedMedian(e.vals))
 	// Fast bootstrap of the M-estimate (Salibian-Barrera & Zamar 2002,
-	// Ann. Statist. 30:556): each replicate takes one Newton step from the
+	// Ann. Statist. 30:556; from memory): each replicate takes one Newton step from the
 	// full-sample estimate, mu* = mu + sum psi(r) / sum psi'(r) over the
 	// resampled tracks, so per-track sums of psi and psi' are all it needs.
 	e.psi, e.dpsi = resize(e.psi, ng), resize(e.dpsi, ng)

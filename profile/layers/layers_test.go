@@ -8,8 +8,8 @@ import (
 
 func TestErrorIndependentSamples(t *testing.T) {
 	// One sample per track: the bootstrap error must match the normal-theory
-	// standard error of the Huber mean, sigma / sqrt(0.95 n) (Huber 1964,
-	// Ann. Math. Statist. 35:73: 95% efficiency at k = 1.345).
+	// standard error of the Huber mean, sigma / sqrt(0.95 n) (Huber 1981,
+	// Robust Statistics: 95% efficiency at k = 1.345; from memory).
 	rng := rand.New(rand.NewPCG(1, 1))
 	const n, sigma = 400, 2.0
 	var obs []Obs

@@ -31,7 +31,7 @@ func TestNoiseUM(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		// The MAD of 20000 normal values is good to about 1% (Huber 1981,
+		// The MAD of 20000 normal values is good to about 1% (from memory: Huber 1981,
 		// Robust Statistics, asymptotic efficiency 37%); 5% is ample.
 		if math.Abs(got/sigma-1) > 0.05 {
 			t.Errorf("noise %g um estimated as %g um", sigma, got)
