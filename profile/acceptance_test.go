@@ -3,6 +3,7 @@ package profile
 import (
 	"fmt"
 	"math"
+	"math/rand/v2"
 	"testing"
 
 	"gaptrace/calib/experiment"
@@ -387,5 +388,39 @@ func TestDetectedPhasesWithoutProgram(t *testing.T) {
 	if math.Abs(float64(sp.SlipStationaryUMPerS-tp.SlipStationaryUMPerS))/v > slipTol || math.Abs(float64(sp.BulkRatePerS/tp.BulkRatePerS)-1) > bulkRateTol || !sp.WallSlip {
 		t.Errorf("stationary slip %.2f (truth %.2f), bulk rate %.4f (truth %.4f), wall slip %v", float64(sp.SlipStationaryUMPerS),
 			float64(tp.SlipStationaryUMPerS), float64(sp.BulkRatePerS), float64(tp.BulkRatePerS), sp.WallSlip)
+	}
+}
+
+// mislinkEvery is the spacing of the one-frame mislinks of
+// TestMislinks: 2% of the points.
+const mislinkEvery = 50
+
+// Mislinks: one point in fifty jumps to a neighbour 30 to 60 um away for
+// one frame (a made-up rate, higher than a good linker's). The robust layer
+// means and the cuts at implausible steps keep the slip test's tolerances.
+func TestMislinks(t *testing.T) {
+	s, err := synth.Builtin("slip", 920)
+	if err != nil {
+		t.Fatal(err)
+	}
+	pts := observe(s, 920)
+	rng := rand.New(rand.NewPCG(920, 1))
+	for i := range pts {
+		if i%mislinkEvery == 0 {
+			pts[i].XUM += math.Copysign(30+30*rng.Float64(), rng.Float64()-0.5)
+		}
+	}
+	r, err := Analyze(pts, s.Experiment(), s.Calibration(), Options{Seed: 920})
+	if err != nil {
+		t.Fatal(err)
+	}
+	sp, tp := r.ShearPhases[0], s.Truth().Summary.ShearPhases[0]
+	v := wallSpeed(s)
+	ds := float64(sp.SlipStationaryUMPerS-tp.SlipStationaryUMPerS) / v
+	dm := float64(sp.SlipMovingUMPerS-tp.SlipMovingUMPerS) / v
+	t.Logf("with 2%% mislinks: slip errors %.2g, %.2g of V, bulk rate %.4f (truth %.4f), verdict %s",
+		ds, dm, float64(sp.BulkRatePerS), float64(tp.BulkRatePerS), sp.Verdict)
+	if math.Abs(ds) > slipTol || math.Abs(dm) > slipTol || math.Abs(float64(sp.BulkRatePerS/tp.BulkRatePerS)-1) > bulkRateTol || sp.Verdict != tp.Verdict {
+		t.Errorf("mislinks spoil the decomposition: slip errors %.3g, %.3g of V, verdict %s", ds, dm, sp.Verdict)
 	}
 }
