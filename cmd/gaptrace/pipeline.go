@@ -3,7 +3,6 @@ package main
 import (
 	"encoding/json"
 	"errors"
-	"fmt"
 	"io"
 	"math"
 	"os"
@@ -218,30 +217,7 @@ func (c *chain) linkAll(dets [][]link.Detection) ([]tracks.Point, link.Stats, er
 
 // writeTracks writes tracks.csv atomically.
 func writeTracks(path string, pts []tracks.Point) error {
-	return writeAtomic(path, func(w io.Writer) error { return tracks.WriteCSV(w, pts) })
-}
-
-// writeAtomic writes a file through a temporary name in the same folder.
-func writeAtomic(path string, write func(io.Writer) error) error {
-	dir, base := filepath.Split(path)
-	if dir == "" {
-		dir = "."
-	}
-	f, err := os.CreateTemp(dir, "."+base+".partial-*")
-	if err != nil {
-		return err
-	}
-	tmp := f.Name()
-	if err := write(f); err != nil {
-		f.Close()
-		os.Remove(tmp)
-		return fmt.Errorf("writing %s: %w", path, err)
-	}
-	if err := f.Close(); err != nil {
-		os.Remove(tmp)
-		return err
-	}
-	return os.Rename(tmp, path)
+	return summary.WriteAtomic(path, func(w io.Writer) error { return tracks.WriteCSV(w, pts) })
 }
 
 // writeCalibJSON writes calibration.json atomically.

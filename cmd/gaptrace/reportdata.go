@@ -1,12 +1,8 @@
 package main
 
 import (
-	"math"
 	"sort"
 
-	"gaptrace/calib/experiment"
-	"gaptrace/profile"
-	"gaptrace/profile/report"
 	"gaptrace/profile/report/figure"
 	"gaptrace/profile/summary"
 	"gaptrace/track/tracks"
@@ -16,88 +12,6 @@ import (
 // draws: long enough to show the flow's direction and shape, short enough
 // that the paths stay apart.
 const overlayTrackWindowS = 0.25
-
-// reportData converts the analysis into the report's figure inputs.
-func reportData(s *summary.Summary, e *experiment.Experiment, yaml string, r *profile.Result) *report.Data {
-	d := &report.Data{Summary: s, Experiment: e, ExperimentYAML: yaml}
-	gap := s.Calibration.GapUM
-	var bounds []float64
-	for _, p := range s.Phases {
-		if p.StartS > 0 {
-			bounds = append(bounds, p.StartS)
-		}
-	}
-	for _, sh := range r.Shear {
-		pp := &figure.PhaseProfile{GapUM: gap, WallSpeedUMPerS: sh.Step.WallSpeedUMPerS}
-		for _, b := range sh.Steady.Bins {
-			if b.Known() {
-				pp.Points = append(pp.Points, figure.ProfilePoint{YUM: b.YUM, VUMPerS: b.Value, ErrUMPerS: b.Err, N: b.N})
-			}
-		}
-		for _, c := range sh.Fit {
-			pp.Fit = append(pp.Fit, figure.VelocityPoint{YUM: c.YUM, VUMPerS: c.VUMPerS})
-		}
-		for _, b := range sh.Summary.Bands {
-			pp.Bands = append(pp.Bands, figure.Band{FromUM: float64(b.FromUM), ToUM: float64(b.ToUM), RatePerS: float64(b.RatePerS)})
-		}
-		if e.Geometry.Kind == "couette" {
-			const noSlipPoints = 50
-			for i := 0; i <= noSlipPoints; i++ {
-				y := gap * float64(i) / noSlipPoints
-				pp.NoSlip = append(pp.NoSlip, figure.VelocityPoint{YUM: y, VUMPerS: e.Geometry.Reference(y, sh.Step.WallSpeedUMPerS)})
-			}
-		}
-		if pp.Check() == nil {
-			d.Profiles = append(d.Profiles, pp)
-		} else {
-			d.Profiles = append(d.Profiles, nil)
-		}
-	}
-	if m := r.Map; len(m.TS) >= 2 && len(m.YUM) >= 2 {
-		st := &figure.SpaceTime{TS: m.TS, YUM: m.YUM, Values: m.VUMPerS, Quantity: figure.LocalVelocity,
-			GapUM: gap, PhaseBoundariesS: bounds}
-		if st.Check() == nil {
-			d.SpaceTime = st
-		}
-	}
-	ss := &figure.SlipSeries{PhaseBoundariesS: bounds}
-	for _, sh := range r.Shear {
-		for _, p := range sh.Series {
-			ss.Points = append(ss.Points, figure.SlipPoint{TS: p.TS,
-				SlipStationaryUMPerS: p.SlipStationaryUMPerS, SlipStationaryErrUMPerS: p.SlipStationaryErrUMPerS,
-				SlipMovingUMPerS: p.SlipMovingUMPerS, SlipMovingErrUMPerS: p.SlipMovingErrUMPerS,
-				BulkRatePerS: p.BulkRatePerS, BulkRateErrPerS: p.BulkRateErrPerS})
-		}
-		ss.Nominal = append(ss.Nominal, figure.RateStep{StartS: sh.Step.StartS, EndS: sh.Step.EndS, RatePerS: sh.Step.RatePerS})
-	}
-	if ss.Check() == nil {
-		d.Slip = ss
-	}
-	if c := r.Cessation; c != nil {
-		as := &figure.AfterStop{GapUM: gap, NoiseFloorUM: c.NoiseFloorUM, PlaneUM: math.NaN()}
-		if c.Mode == summary.ModeBulk {
-			as.PlaneUM = c.Picture.PlaneUM
-		}
-		for _, tp := range c.Profiles {
-			dp := figure.DisplacementProfile{TAfterStopS: tp.TAfterS}
-			for _, b := range tp.Bins {
-				if b.Known() {
-					dp.Points = append(dp.Points, figure.DisplacementPoint{YUM: b.YUM, DxUM: b.Value, ErrUM: b.Err, N: b.N})
-				}
-			}
-			for _, cp := range c.Curve(tp.TAfterS) {
-				dp.Fit = append(dp.Fit, figure.DisplacementCurvePoint{YUM: cp.YUM, DxUM: cp.DXUM})
-			}
-			if len(dp.Points) > 0 {
-				as.Profiles = append(as.Profiles, dp)
-			}
-		}
-		if as.Check() == nil {
-			d.AfterStop = as
-		}
-	}
-	return d
-}
 
 // overlayWindow picks the time window whose tracks the overlay draws: the
 // end of the steady window of the first shear phase, else the start.

@@ -112,7 +112,8 @@ func runChain(o runOptions, stderr io.Writer) (*summary.Summary, error) {
 	if err := summary.WriteFileAtomic(filepath.Join(o.outDir, afterStopTableName), r.AfterStopCSV()); err != nil {
 		return nil, err
 	}
-	d := reportData(s, exp, string(yaml), r)
+	d := report.FromAnalysis(s, exp, r)
+	d.ExperimentYAML = string(yaml)
 	d.Detection = &figure.Detection{SNR: c.snr, FracXPx: c.fracX, FracYPx: c.fracY, SNRThreshold: c.minSNR}
 	t0, t1 := overlayWindow(s)
 	frame, err := c.readFrame8((t0 + t1) / 2)

@@ -8,6 +8,7 @@ package summary
 import (
 	"encoding/json"
 	"fmt"
+	"io"
 	"math"
 	"os"
 	"path/filepath"
@@ -170,10 +171,23 @@ func New() *Summary {
 		ShearPhases: []ShearPhase{}, Warnings: []string{}}
 }
 
+// fileMode is the permission of result files: readable by everyone, as
+// results are meant to be shared (os.CreateTemp alone would give 0600).
+const fileMode = 0o644
+
 // WriteFileAtomic writes data to path through a temporary file in the same
 // folder, renamed over path only when completely written, so a failed run
 // never leaves a partial file under the final name.
 func WriteFileAtomic(path string, data []byte) error {
+	return WriteAtomic(path, func(w io.Writer) error {
+		_, err := w.Write(data)
+		return err
+	})
+}
+
+// WriteAtomic is WriteFileAtomic for a writer function: what write writes
+// appears at path only if write and the file's close succeed.
+func WriteAtomic(path string, write func(io.Writer) error) error {
 	dir, base := filepath.Split(path)
 	if dir == "" {
 		dir = "."
@@ -183,14 +197,20 @@ func WriteFileAtomic(path string, data []byte) error {
 		return err
 	}
 	tmp := f.Name()
-	if _, err := f.Write(data); err != nil {
+	fail := func(err error) error {
 		f.Close()
 		os.Remove(tmp)
-		return err
+		return fmt.Errorf("writing %s: %w", path, err)
+	}
+	if err := write(f); err != nil {
+		return fail(err)
+	}
+	if err := f.Chmod(fileMode); err != nil {
+		return fail(err)
 	}
 	if err := f.Close(); err != nil {
 		os.Remove(tmp)
-		return err
+		return fmt.Errorf("writing %s: %w", path, err)
 	}
 	if err := os.Rename(tmp, path); err != nil {
 		os.Remove(tmp)
