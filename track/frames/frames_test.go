@@ -4,8 +4,10 @@ import (
 	"errors"
 	"fmt"
 	"io"
+	"math/rand/v2"
 	"os"
 	"path/filepath"
+	"slices"
 	"strings"
 	"testing"
 
@@ -366,8 +368,78 @@ func TestMedian(t *testing.T) {
 		if got := medianOf(append([]uint8(nil), tc.v...)); got != tc.want {
 			t.Errorf("medianOf(%v) = %g, want %g", tc.v, got, tc.want)
 		}
+		if got := medianU8(tc.v); got != tc.want {
+			t.Errorf("medianU8(%v) = %g, want %g", tc.v, got, tc.want)
+		}
 	}
 }
+
+// TestMedianU8 compares the counting median with sorting on random stacks.
+func TestMedianU8(t *testing.T) {
+	rng := rand.New(rand.NewPCG(1, 1))
+	for trial := 0; trial < 2000; trial++ {
+		n := 1 + rng.IntN(70)
+		v := make([]uint8, n)
+		spread := 1 + rng.IntN(256)
+		for i := range v {
+			v[i] = uint8(rng.IntN(spread))
+		}
+		s := append([]uint8(nil), v...)
+		slices.Sort(s)
+		want := float32(s[n/2])
+		if n%2 == 0 {
+			want = (float32(s[n/2-1]) + float32(s[n/2])) / 2
+		}
+		if got := medianU8(v); got != want {
+			t.Fatalf("medianU8(%v) = %g, want %g", v, got, want)
+		}
+	}
+}
+
+// BenchmarkMedian is the temporal median of 31 frames of 1024x1024 px, 8 bit.
+func BenchmarkMedian(b *testing.B) {
+	const n, w, h = 31, 1024, 1024
+	rng := rand.New(rand.NewPCG(2, 2))
+	ms := make([]gocv.Mat, n)
+	for i := range ms {
+		buf := make([]byte, w*h)
+		for p := range buf {
+			buf[p] = uint8(20 + rng.IntN(12))
+		}
+		ms[i], _ = gocv.NewMatFromBytes(h, w, gocv.MatTypeCV8U, buf)
+	}
+	defer func() {
+		for i := range ms {
+			ms[i].Close()
+		}
+	}()
+	for b.Loop() {
+		src := &multi{ms: ms, info: Info{Frames: n, WidthPx: w, HeightPx: h, BitDepth: 8}}
+		m, err := Median(src, n)
+		if err != nil {
+			b.Fatal(err)
+		}
+		m.Close()
+	}
+}
+
+// multi is a Source over Mats in memory.
+type multi struct {
+	ms   []gocv.Mat
+	info Info
+	next int
+}
+
+func (s *multi) Info() Info { return s.info }
+func (s *multi) Next(dst *gocv.Mat) (int, error) {
+	if s.next >= len(s.ms) {
+		return 0, io.EOF
+	}
+	s.ms[s.next].CopyTo(dst)
+	s.next++
+	return s.next - 1, nil
+}
+func (s *multi) Close() error { return nil }
 
 func TestNaturalOrder(t *testing.T) {
 	for _, tc := range []struct {

@@ -89,6 +89,12 @@ func median[T uint8 | uint16](src Source, info Info, maxFrames int, data func(*g
 		go func() {
 			defer wg.Done()
 			buf := make([]T, k)
+			if b8, ok := any(stack).([]uint8); ok {
+				for p := lo; p < hi; p++ {
+					dst[p] = medianU8(b8[p*stride : p*stride+k])
+				}
+				return
+			}
 			for p := lo; p < hi; p++ {
 				copy(buf, stack[p*stride:p*stride+k])
 				dst[p] = medianOf(buf)
@@ -146,4 +152,41 @@ func selectKth[T uint8 | uint16](v []T, k int) T {
 		}
 	}
 	return v[k]
+}
+
+// medianU8 returns the median of v (the mean of the two middle values for
+// an even count) by counting: a histogram of the high four bits finds the
+// sixteenth of the range that holds the middle, a histogram of the low four
+// bits of the values in it finds the value. Two passes over v, no
+// reordering: faster than selection for the 8-bit stacks of Median.
+func medianU8(v []uint8) float32 {
+	n := len(v)
+	hi := kthU8(v, n/2)
+	if n%2 == 1 {
+		return float32(hi)
+	}
+	return (float32(kthU8(v, n/2-1)) + float32(hi)) / 2
+}
+
+// kthU8 returns the k-th smallest value of v (k from 0).
+func kthU8(v []uint8, k int) uint8 {
+	var coarse [16]int
+	for _, x := range v {
+		coarse[x>>4]++
+	}
+	b := 0
+	for ; b < 15 && k >= coarse[b]; b++ {
+		k -= coarse[b]
+	}
+	var fine [16]int
+	for _, x := range v {
+		if int(x>>4) == b {
+			fine[x&15]++
+		}
+	}
+	f := 0
+	for ; f < 15 && k >= fine[f]; f++ {
+		k -= fine[f]
+	}
+	return uint8(b<<4 | f)
 }
