@@ -424,3 +424,39 @@ func TestMislinks(t *testing.T) {
 		t.Errorf("mislinks spoil the decomposition: slip errors %.3g, %.3g of V, verdict %s", ds, dm, sp.Verdict)
 	}
 }
+
+// The same mislinks after the stop: the failure plane keeps its height and
+// onset, and a quiet sample stays quiet.
+func TestMislinksAfterStop(t *testing.T) {
+	for _, name := range []string{"step-quiescent", "step-plane"} {
+		s, err := synth.Builtin(name, 930)
+		if err != nil {
+			t.Fatal(err)
+		}
+		pts := observe(s, 930)
+		rng := rand.New(rand.NewPCG(930, 1))
+		for i := range pts {
+			if i%mislinkEvery == 0 {
+				pts[i].XUM += math.Copysign(30+30*rng.Float64(), rng.Float64()-0.5)
+			}
+		}
+		r, err := Analyze(pts, s.Experiment(), s.Calibration(), Options{Seed: 930})
+		if err != nil {
+			t.Fatal(err)
+		}
+		a, ta := r.AfterStop, s.Truth().Summary.AfterStop
+		if a == nil || a.Verdict != ta.Verdict {
+			t.Fatalf("%s with mislinks: after stop %+v, truth %s", name, a, ta.Verdict)
+		}
+		if ta.Verdict == summary.Moving {
+			h := s.GapUM()
+			dp := math.Abs(float64(a.PlaneUM-ta.PlaneUM)) / h
+			df := math.Abs(float64(a.OnsetAfterStopS-ta.OnsetAfterStopS)) * s.FPS
+			t.Logf("%s with mislinks: plane %.1f um (truth %.1f), onset %.4f s (truth %.4f)", name,
+				float64(a.PlaneUM), float64(ta.PlaneUM), float64(a.OnsetAfterStopS), float64(ta.OnsetAfterStopS))
+			if dp > planeTol || df > onsetFrames {
+				t.Errorf("%s with mislinks: plane error %.3g of the gap, onset error %.2f frames", name, dp, df)
+			}
+		}
+	}
+}

@@ -18,6 +18,7 @@ import (
 
 	"gaptrace/profile/layers"
 	"gaptrace/profile/velocity"
+	"gaptrace/track/tracks"
 )
 
 // Options describes the stop and the data around it.
@@ -250,26 +251,7 @@ func place(ts []velocity.Track, o Options) []placedTracer {
 			}
 			continue
 		}
-		var xRef float64
-		if len(pre) == 1 {
-			xRef = pre[0].XUM
-		} else {
-			var st, sx, stt, stx float64
-			for _, q := range pre {
-				dt := q.TS - o.StopS
-				st += dt
-				sx += q.XUM
-				stt += dt * dt
-				stx += dt * q.XUM
-			}
-			n := float64(len(pre))
-			den := n*stt - st*st
-			if den <= 0 {
-				xRef = sx / n
-			} else {
-				xRef = (sx*stt - st*stx) / den // the line's value at the stop
-			}
-		}
+		xRef := refPosition(pre, o.StopS, o.SigmaUM)
 		out = append(out, placedTracer{id: t.ID, xRef: xRef, yUM: pre[len(pre)-1].YUM, refFrame: pre[len(pre)-1].Frame, after: after})
 	}
 	stitch(out, orphans, o)
@@ -280,6 +262,52 @@ func place(ts []velocity.Track, o Options) []placedTracer {
 		}
 	}
 	return kept
+}
+
+// refOutlierSigmas is how far, in localization noise, a point may lie from
+// the line through a tracer's last points before the stop and still be
+// used for its place at the stop: farther, it is a mislink.
+const refOutlierSigmas = 5
+
+// refPosition returns the tracer's place at stopS from its points pre up to
+// the stop: the value there of a straight line through them, refitted
+// without the points farther than refOutlierSigmas from the first line.
+func refPosition(pre []tracks.Point, stopS, sigmaUM float64) float64 {
+	fit := func(use func(tracks.Point) bool) (a, b float64, ok bool) {
+		var n, st, sx, stt, stx float64
+		for _, q := range pre {
+			if !use(q) {
+				continue
+			}
+			dt := q.TS - stopS
+			n++
+			st += dt
+			sx += q.XUM
+			stt += dt * dt
+			stx += dt * q.XUM
+		}
+		den := n*stt - st*st
+		switch {
+		case n == 0:
+			return 0, 0, false
+		case den <= 0:
+			return sx / n, 0, true
+		}
+		return (sx*stt - st*stx) / den, (n*stx - st*sx) / den, true
+	}
+	a, b, _ := fit(func(tracks.Point) bool { return true })
+	if len(pre) < 3 {
+		return a
+	}
+	res := make([]float64, len(pre))
+	for i, q := range pre {
+		res[i] = math.Abs(q.XUM - a - b*(q.TS-stopS))
+	}
+	lim := math.Max(refOutlierSigmas*sigmaUM, refOutlierSigmas*madToSigma*median(slices.Clone(res)))
+	if a2, _, ok := fit(func(q tracks.Point) bool { return math.Abs(q.XUM-a-b*(q.TS-stopS)) <= lim }); ok {
+		return a2
+	}
+	return a
 }
 
 // Stitching of broken tracks after the stop.
@@ -450,17 +478,17 @@ func nearest(pts []velocityPoint, tS, tol float64) (velocityPoint, bool) {
 
 func (r *Result) final(placed []placedTracer, o Options) {
 	from := o.EndS - FinalFraction*(o.EndS-o.StopS)
+	var d []float64
 	for _, p := range placed {
-		var s float64
-		n := 0
+		d = d[:0]
 		for _, q := range p.after {
 			if q.tS >= from {
-				s += q.xUM - p.xRef
-				n++
+				d = append(d, q.xUM-p.xRef)
 			}
 		}
-		if n > 0 {
-			r.Final = append(r.Final, TracerDisplacement{Track: p.id, YUM: p.yUM, DXUM: s / float64(n)})
+		if len(d) > 0 {
+			// The median, so that a mislinked frame does not move it.
+			r.Final = append(r.Final, TracerDisplacement{Track: p.id, YUM: p.yUM, DXUM: median(d)})
 		}
 	}
 }
@@ -708,18 +736,14 @@ func (r *Result) verdict() {
 // the first frame from which its amplitude stays above MovingSigma standard
 // errors for confirmFrames frames.
 func (r *Result) amplitude(placed []placedTracer, o Options) {
-	type acc struct{ tS, sss, ssd float64 }
-	byFrame := map[int]*acc{}
+	type obs struct{ s, dx float64 }
+	byFrame := map[int][]obs{}
+	tOf := map[int]float64{}
 	for _, p := range placed {
 		s := r.Picture.At(p.yUM)
 		for _, q := range p.after {
-			a := byFrame[q.frame]
-			if a == nil {
-				a = &acc{tS: q.tS}
-				byFrame[q.frame] = a
-			}
-			a.sss += s * s
-			a.ssd += s * (q.xUM - p.xRef)
+			byFrame[q.frame] = append(byFrame[q.frame], obs{s, q.xUM - p.xRef})
+			tOf[q.frame] = q.tS
 		}
 	}
 	fs := make([]int, 0, len(byFrame))
@@ -728,13 +752,44 @@ func (r *Result) amplitude(placed []placedTracer, o Options) {
 	}
 	slices.Sort(fs)
 	run := 0
+	res := []float64{}
 	for _, f := range fs {
 		b := byFrame[f]
-		if b.sss == 0 {
+		// Least squares, then Huber reweighting against mislinked points
+		// with the scale of the residuals, at least the noise floor.
+		var sss, ssd float64
+		for _, x := range b {
+			sss += x.s * x.s
+			ssd += x.s * x.dx
+		}
+		if sss == 0 {
 			continue
 		}
-		a, e := b.ssd/b.sss, r.NoiseFloorUM/math.Sqrt(b.sss)
-		r.Amplitude = append(r.Amplitude, AmplitudePoint{TAfterS: b.tS - o.StopS, A: a, AErr: e})
+		a := ssd / sss
+		for range huberRounds {
+			res = res[:0]
+			for _, x := range b {
+				res = append(res, math.Abs(x.dx-a*x.s))
+			}
+			c := huberK * math.Max(r.NoiseFloorUM, madToSigma*median(res))
+			if !(c > 0) {
+				break
+			}
+			var sw, swd float64
+			for _, x := range b {
+				w := 1.0
+				if e := math.Abs(x.dx - a*x.s); e > c {
+					w = c / e
+				}
+				sw += w * x.s * x.s
+				swd += w * x.s * x.dx
+			}
+			if sw > 0 {
+				a = swd / sw
+			}
+		}
+		e := r.NoiseFloorUM / math.Sqrt(sss)
+		r.Amplitude = append(r.Amplitude, AmplitudePoint{TAfterS: tOf[f] - o.StopS, A: a, AErr: e})
 		if !r.Moving || !math.IsNaN(r.OnsetAfterStopS) {
 			continue
 		}
