@@ -267,11 +267,23 @@ func (d *Detector) Frame(img gocv.Mat, frame int, out []Detection) ([]Detection,
 			}
 		}
 	}
+	// Only the rows the mask can reach, with room for the filters and the
+	// refinement window, are filtered.
+	y0, y1 := d.rowBand(w, h)
+	full := y0 == 0 && y1 == h
+	src, low := img, d.bgSmooth
+	if !full {
+		src = img.Region(image.Rect(0, y0, w, y1))
+		defer src.Close()
+		if hasBg {
+			low = d.bgSmooth.Region(image.Rect(0, y0, w, y1))
+			defer low.Close()
+		}
+	}
 	// Band-pass, clipped at zero on the tracers' side.
-	gocv.GaussianBlur(img, &d.sm, image.Pt(d.ksize, d.ksize), d.sigma, d.sigma, gocv.BorderReflect101)
-	low := d.bgSmooth
+	gocv.GaussianBlur(src, &d.sm, image.Pt(d.ksize, d.ksize), d.sigma, d.sigma, gocv.BorderReflect101)
 	if !hasBg {
-		gocv.Blur(img, &d.lo, image.Pt(d.boxPx, d.boxPx))
+		gocv.Blur(src, &d.lo, image.Pt(d.boxPx, d.boxPx))
 		low = d.lo
 	}
 	gain := d.gain1
@@ -292,7 +304,7 @@ func (d *Detector) Frame(img gocv.Mat, frame int, out []Detection) ([]Detection,
 	if d.polarity == PolarityDark {
 		sign = -1
 	}
-	px := pixels{w: w, h: h, sign: sign, refF: d.bg}
+	px := pixels{w: w, h: h, sign: sign, refF: d.bg, refOff: y0 * w}
 	var err error
 	if t == gocv.MatTypeCV8U {
 		if px.u8, err = img.DataPtrUint8(); err == nil && !hasBg {
@@ -312,7 +324,7 @@ func (d *Detector) Frame(img gocv.Mat, frame int, out []Detection) ([]Detection,
 		noise = noiselessGrey
 	}
 	thr := candidateSlack * d.opt.MinSNR * noise * gain
-	if err := d.findCandidates(d.cand, int(math.Ceil(thr))); err != nil {
+	if err := d.findCandidates(d.cand, y0, h, int(math.Ceil(thr))); err != nil {
 		return out, err
 	}
 	if n := d.noise(&px, true); n > 0 {
@@ -348,8 +360,9 @@ type pixels struct {
 	u8     []uint8
 	u16    []uint16
 	refF   []float32
-	refU8  []uint8
-	refU16 []uint16
+	refU8  []uint8  // box mean over the filtered rows only
+	refU16 []uint16 // box mean over the filtered rows only
+	refOff int      // index in the frame of refU8[0] or refU16[0]
 	w, h   int
 	sign   float64
 }
@@ -366,9 +379,9 @@ func (p *pixels) at(i int) float64 {
 	case p.refF != nil:
 		r = float64(p.refF[i])
 	case p.refU8 != nil:
-		r = float64(p.refU8[i])
+		r = float64(p.refU8[i-p.refOff])
 	case p.refU16 != nil:
-		r = float64(p.refU16[i])
+		r = float64(p.refU16[i-p.refOff])
 	}
 	return p.sign * (v - r)
 }
@@ -556,29 +569,21 @@ func selectKth[T float32 | float64](v []T, k int) T {
 }
 
 // findCandidates fills d.cands with the local maxima of the band-passed
-// image c that reach thr grey levels and lie far enough from the border for
-// the refinement window, in raster order, and marks those dropped by the
-// minimum separation or overlapping. Eight pixels at a time are skipped when
-// none reaches thr.
-func (d *Detector) findCandidates(c gocv.Mat, thr int) error {
+// image c (rows y0 to y0+c.Rows()-1 of a frame h rows high) that reach thr
+// grey levels and lie far enough from the border for the refinement window,
+// in raster order, and marks those dropped by the minimum separation or
+// overlapping. Eight pixels at a time are skipped when none reaches thr.
+func (d *Detector) findCandidates(c gocv.Mat, y0, h, thr int) error {
 	d.cands = d.cands[:0]
-	w, h := c.Cols(), c.Rows()
+	w := c.Cols()
 	d.frameW, d.frameH = w, h
 	m := d.wr + windowSlack + 1
-	y0, y1 := m, h-m
+	// Rows of c to scan: inside the frame's margin and one row from c's
+	// edges (the maximum test looks at the rows around).
+	r0, r1 := max(1, m-y0), min(c.Rows()-1, h-m-y0)
 	if mk := d.opt.Mask; mk != nil {
-		// Rows the mask may reach, widened by a pixel.
-		lo, hi := math.Inf(1), math.Inf(-1)
-		for _, l := range [...][2][2]float64{mk.Stationary, mk.Moving} {
-			for _, x := range []float64{0, float64(w - 1)} {
-				y := lineY(l, x)
-				lo, hi = math.Min(lo, y), math.Max(hi, y)
-			}
-		}
-		if !math.IsInf(lo, 0) && !math.IsNaN(lo) {
-			y0 = max(y0, int(math.Floor(lo))-1)
-			y1 = min(y1, int(math.Ceil(hi))+2)
-		}
+		lo, hi := mk.rows(w)
+		r0, r1 = max(r0, lo-y0), min(r1, hi-y0)
 	}
 	thr = max(thr, 1)
 	if c.Type() == gocv.MatTypeCV8U {
@@ -586,22 +591,45 @@ func (d *Detector) findCandidates(c gocv.Mat, thr int) error {
 		if err != nil {
 			return err
 		}
-		if thr > 255 {
-			return nil
+		if thr <= 255 {
+			scanMaxima(d, b, w, r0, r1, y0, m, uint8(thr))
 		}
-		scanMaxima(d, b, w, y0, y1, m, uint8(thr))
 	} else {
 		b, err := c.DataPtrUint16()
 		if err != nil {
 			return err
 		}
-		if thr > 65535 {
-			return nil
+		if thr <= 65535 {
+			scanMaxima(d, b, w, r0, r1, y0, m, uint16(thr))
 		}
-		scanMaxima(d, b, w, y0, y1, m, uint16(thr))
 	}
 	d.separate()
 	return nil
+}
+
+// rows returns the range of image rows [lo, hi) the mask can reach in an
+// image w px wide, widened by a pixel.
+func (m *Mask) rows(w int) (lo, hi int) {
+	a, b := math.Inf(1), math.Inf(-1)
+	for _, l := range [...][2][2]float64{m.Stationary, m.Moving} {
+		for _, x := range []float64{0, float64(w - 1)} {
+			y := lineY(l, x)
+			a, b = math.Min(a, y), math.Max(b, y)
+		}
+	}
+	return int(math.Floor(a)) - 1, int(math.Ceil(b)) + 2
+}
+
+// rowBand returns the rows [y0, y1) of a w x h frame to filter: with a mask,
+// the rows it can reach with room for the refinement window and the
+// filters' kernels; else all.
+func (d *Detector) rowBand(w, h int) (y0, y1 int) {
+	if d.opt.Mask == nil {
+		return 0, h
+	}
+	lo, hi := d.opt.Mask.rows(w)
+	pad := d.wr + windowSlack + 1 + max(d.khalf, d.boxPx/2) + 1
+	return max(0, lo-pad), min(h, hi+pad)
 }
 
 // lineY returns the y of line l at abscissa x (its mean y if vertical).
@@ -614,13 +642,14 @@ func lineY(l [2][2]float64, x float64) float64 {
 }
 
 // scanMaxima appends to d.cands the local maxima of b (w wide) at least thr
-// in rows y0 to y1-1, columns m to w-m-1.
-func scanMaxima[T uint8 | uint16](d *Detector, b []T, w, y0, y1, m int, thr T) {
+// in rows r0 to r1-1, columns m to w-m-1; row r of b is row r+y0 of the
+// frame.
+func scanMaxima[T uint8 | uint16](d *Detector, b []T, w, r0, r1, y0, m int, thr T) {
 	var zero T
 	size := int(unsafe.Sizeof(zero))
 	per := 8 / size // values per 64-bit word
 	word := belowMask(thr)
-	for y := y0; y < y1; y++ {
+	for y := r0; y < r1; y++ {
 		row := b[y*w : y*w+w]
 		up := b[(y-1)*w : y*w]
 		dn := b[(y+1)*w : (y+2)*w]
@@ -640,8 +669,8 @@ func scanMaxima[T uint8 | uint16](d *Detector, b []T, w, y0, y1, m int, thr T) {
 				// diagonal ones: the rounding of the filtered image makes
 				// ties, and a peak must not vanish in a diagonal tie. The
 				// separation merges what this leaves twice.
-				if mk := d.opt.Mask; mk == nil || mk.nearInside(float64(x), float64(y)) {
-					d.cands = append(d.cands, candidate{x: x, y: y, v: int(v)})
+				if mk := d.opt.Mask; mk == nil || mk.nearInside(float64(x), float64(y+y0)) {
+					d.cands = append(d.cands, candidate{x: x, y: y + y0, v: int(v)})
 				}
 			}
 			x++
