@@ -96,28 +96,37 @@ func usage(w io.Writer) {
 	fmt.Fprintln(w, "\nRun gaptrace COMMAND -h for the flags of one command.")
 }
 
-// newFlags returns a flag set that reports errors as bad usage and prints
-// its usage to stderr.
+// newFlags returns a flag set whose errors are reported in one line as bad
+// usage; -h prints its usage to stderr.
 func newFlags(name, args string, stderr io.Writer) *flag.FlagSet {
 	fs := flag.NewFlagSet(name, flag.ContinueOnError)
-	fs.SetOutput(stderr)
-	fs.Usage = func() {
+	fs.SetOutput(io.Discard) // parse errors come back as one-line errors
+	fs.Usage = func() {}     // and without the usage text
+	usages[fs] = func() {
+		fs.SetOutput(stderr)
 		fmt.Fprintf(stderr, "Usage: gaptrace %s [flags] %s\n", name, args)
 		fs.PrintDefaults()
+		fs.SetOutput(io.Discard)
 	}
 	return fs
 }
 
-// parseFlags parses args and wraps a flag error as bad usage.
+// usages prints the usage of each flag set made by newFlags, for -h.
+var usages = map[*flag.FlagSet]func(){}
+
+// parseFlags parses args, allowing flags after the positional arguments as
+// in "run in.avi -o out", and wraps a flag error as bad usage.
 func parseFlags(fs *flag.FlagSet, args []string) error {
-	// Allow flags after the positional argument, as in "run in.avi -o out".
 	var pos []string
 	for len(args) > 0 {
 		if err := fs.Parse(args); err != nil {
 			if errors.Is(err, flag.ErrHelp) {
+				if u := usages[fs]; u != nil {
+					u()
+				}
 				return err
 			}
-			return badInput(err)
+			return badInputf("%s: %v", fs.Name(), err)
 		}
 		args = fs.Args()
 		if len(args) == 0 {
