@@ -44,7 +44,9 @@ func runDemo(args []string, stderr io.Writer) error {
 	}
 	in := filepath.Join(o.outDir, demoInputDir)
 	fmt.Fprintf(stderr, "demo: rendering %q (seed %d): %s\n", sc.Name, *seed, sc.Description)
-	truth, err := sc.Write(in, synth.Output{Format: synth.FormatMJPEG})
+	pr := newProgress(stderr, o.progress, "render", sc.Frames)
+	truth, err := sc.Write(in, synth.Output{Format: synth.FormatMJPEG, Progress: func(done, _ int) { pr.update(done) }})
+	pr.done()
 	if err != nil {
 		return err
 	}
