@@ -47,8 +47,6 @@ import (
 	"errors"
 	"fmt"
 	"math"
-
-	"gaptrace/calib"
 )
 
 // Polarities of the tracers against the background.
@@ -116,16 +114,18 @@ type Detection struct {
 	SNR float64
 }
 
-// Mask keeps the detections between two wall lines, at least MarginPx away
-// from each (a calib.Calibration supplies the lines).
+// Mask keeps the detections between two wall lines, each given by two
+// points in image pixels, at least MarginPx away from each. A
+// calib.Calibration's StationaryWallPx and MovingWallPx (calib.Line) assign
+// to the fields directly.
 type Mask struct {
-	Stationary, Moving calib.Line
+	Stationary, Moving [2][2]float64
 	MarginPx           float64
 }
 
 // lineDist returns the signed distance of (x, y) from l, positive on the
 // side of (px, py).
-func lineDist(l calib.Line, x, y, px, py float64) float64 {
+func lineDist(l [2][2]float64, x, y, px, py float64) float64 {
 	dx, dy := l[1][0]-l[0][0], l[1][1]-l[0][1]
 	n := math.Hypot(dx, dy)
 	d := ((x-l[0][0])*dy - (y-l[0][1])*dx) / n
@@ -146,7 +146,7 @@ func (m *Mask) Contains(xPx, yPx float64) bool {
 }
 
 func (m *Mask) check() error {
-	for _, l := range []calib.Line{m.Stationary, m.Moving} {
+	for _, l := range [][2][2]float64{m.Stationary, m.Moving} {
 		if l[0] == l[1] {
 			return fmt.Errorf("detect: mask wall line %v has two equal points", l)
 		}

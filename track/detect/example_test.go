@@ -6,7 +6,6 @@ import (
 	"os"
 	"path/filepath"
 
-	"gaptrace/calib"
 	"gaptrace/track/detect"
 	"gaptrace/track/frames"
 	"gaptrace/track/synth"
@@ -43,8 +42,8 @@ func ExampleRun() {
 	opt := detect.Options{
 		DiameterPx: 5,
 		Mask: &detect.Mask{
-			Stationary: calib.Line{{0, 70}, {95, 70}},
-			Moving:     calib.Line{{0, 10}, {95, 10}},
+			Stationary: [2][2]float64{{0, 70}, {95, 70}},
+			Moving:     [2][2]float64{{0, 10}, {95, 10}},
 			MarginPx:   3,
 		},
 	}

@@ -5,12 +5,11 @@ import (
 	"strings"
 	"testing"
 
-	"gaptrace/calib"
 	"gocv.io/x/gocv"
 )
 
 func TestOptionsErrors(t *testing.T) {
-	line := calib.Line{{0, 10}, {100, 10}}
+	line := [2][2]float64{{0, 10}, {100, 10}}
 	for _, tc := range []struct {
 		opt  Options
 		want string
@@ -22,7 +21,7 @@ func TestOptionsErrors(t *testing.T) {
 		{Options{DiameterPx: 5, MaxEccentricity: -0.5}, "largest eccentricity -0.5"},
 		{Options{DiameterPx: 5, Estimator: 7}, "unknown estimator 7"},
 		{Options{DiameterPx: 5, Workers: -2}, "-2 workers"},
-		{Options{DiameterPx: 5, Mask: &Mask{Stationary: line, Moving: calib.Line{{3, 3}, {3, 3}}}}, "two equal points"},
+		{Options{DiameterPx: 5, Mask: &Mask{Stationary: line, Moving: [2][2]float64{{3, 3}, {3, 3}}}}, "two equal points"},
 		{Options{DiameterPx: 5, Mask: &Mask{Stationary: line, Moving: line, MarginPx: -1}}, "margin -1 px"},
 	} {
 		_, err := NewDetector(tc.opt)
@@ -122,8 +121,8 @@ func TestPolarity(t *testing.T) {
 // TestMask keeps only the tracers between two tilted walls, with a margin.
 func TestMask(t *testing.T) {
 	m := &Mask{
-		Stationary: calib.Line{{0, 100}, {200, 110}}, // y = 100 + x/20
-		Moving:     calib.Line{{0, 20}, {200, 30}},
+		Stationary: [2][2]float64{{0, 100}, {200, 110}}, // y = 100 + x/20
+		Moving:     [2][2]float64{{0, 20}, {200, 30}},
 		MarginPx:   4,
 	}
 	for _, tc := range []struct {

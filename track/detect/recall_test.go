@@ -6,7 +6,6 @@ import (
 	"strings"
 	"testing"
 
-	"gaptrace/calib"
 	"gaptrace/track/frames"
 	"gocv.io/x/gocv"
 )
@@ -126,8 +125,8 @@ func recallPrecision(t *testing.T, rs recallScene, imgs []gocv.Mat, truth [][]sp
 	nFrames := len(imgs)
 	withBg := !bg.Empty()
 	mask := &Mask{
-		Stationary: calib.Line{{0, rs.wallBottom}, {float64(rs.w - 1), rs.wallBottom}},
-		Moving:     calib.Line{{0, rs.wallTop}, {float64(rs.w - 1), rs.wallTop}},
+		Stationary: [2][2]float64{{0, rs.wallBottom}, {float64(rs.w - 1), rs.wallBottom}},
+		Moving:     [2][2]float64{{0, rs.wallTop}, {float64(rs.w - 1), rs.wallTop}},
 		MarginPx:   5,
 	}
 	opt := Options{DiameterPx: 5, MinSNR: 2.5, Mask: mask, Workers: 2}
