@@ -18,7 +18,8 @@ import (
 // one goroutine into a fixed pool of buffers, so memory does not grow with
 // the number of frames. The detections do not depend on the number of
 // workers. emit may keep dets. With PolarityAuto the polarity is decided on
-// the first frame and kept for all.
+// the first frame and kept for all. A frames.Packets source (Motion JPEG) is
+// read undecoded and its frames decoded by the workers.
 //
 // Run stops at the first error, from src, a Detector or emit, and returns it.
 func Run(src frames.Source, bg gocv.Mat, opt Options, emit func(frame int, dets []Detection) error) error {
@@ -55,9 +56,13 @@ func Run(src frames.Source, bg gocv.Mat, opt Options, emit func(frame int, dets 
 	}
 
 	// The pool of frame buffers: each is read into, detected in, and
-	// returned. Two per worker keep the reader ahead.
+	// returned. Two per worker keep the reader ahead. A source of
+	// independent compressed frames hands over packets instead, which the
+	// workers decode: decoding then runs in parallel too.
+	packets, _ := src.(frames.Packets)
 	nbuf := 2*workers + 1
 	pool := make([]gocv.Mat, nbuf)
+	pktBuf := make([][]byte, nbuf)
 	for i := range pool {
 		pool[i] = gocv.NewMat()
 	}
@@ -70,16 +75,28 @@ func Run(src frames.Source, bg gocv.Mat, opt Options, emit func(frame int, dets 
 	for i := range pool {
 		free <- i
 	}
-	type job struct{ seq, index, buf int }
+	type job struct {
+		seq, index, buf int
+		packet          []byte // nil: the frame is in pool[buf]
+	}
 	type result struct {
 		seq, index int
 		dets       []Detection
 		err        error
 	}
+	// next reads the next frame of src into buffer b.
+	next := func(b int) (job, error) {
+		if packets != nil {
+			i, pk, err := packets.NextPacket(pktBuf[b])
+			pktBuf[b] = pk
+			return job{index: i, buf: b, packet: pk}, err
+		}
+		i, err := src.Next(&pool[b])
+		return job{index: i, buf: b}, err
+	}
 
 	// The first frame decides the polarity before the workers start.
-	first := <-free
-	firstIndex, err := src.Next(&pool[first])
+	firstJob, err := next(<-free)
 	if errors.Is(err, io.EOF) {
 		return nil
 	}
@@ -91,7 +108,15 @@ func Run(src frames.Source, bg gocv.Mat, opt Options, emit func(frame int, dets 
 		if err != nil {
 			return err
 		}
-		_, err = d.Frame(pool[first], firstIndex, nil)
+		img := pool[firstJob.buf]
+		if packets != nil {
+			img = gocv.NewMat()
+			defer img.Close()
+			err = packets.Decode(firstJob.index, firstJob.packet, &img)
+		}
+		if err == nil {
+			_, err = d.Frame(img, firstJob.index, nil)
+		}
 		opt.Polarity = d.Polarity()
 		d.Close()
 		if err != nil {
@@ -109,7 +134,7 @@ func Run(src frames.Source, bg gocv.Mat, opt Options, emit func(frame int, dets 
 	go func() {
 		defer wg.Done()
 		defer close(jobs)
-		jobs <- job{0, firstIndex, first}
+		jobs <- firstJob
 		for seq := 1; ; seq++ {
 			var b int
 			select {
@@ -117,7 +142,7 @@ func Run(src frames.Source, bg gocv.Mat, opt Options, emit func(frame int, dets 
 			case <-done:
 				return
 			}
-			i, err := src.Next(&pool[b])
+			j, err := next(b)
 			if errors.Is(err, io.EOF) {
 				return
 			}
@@ -128,8 +153,9 @@ func Run(src frames.Source, bg gocv.Mat, opt Options, emit func(frame int, dets 
 				}
 				return
 			}
+			j.seq = seq
 			select {
-			case jobs <- job{seq, i, b}:
+			case jobs <- j:
 			case <-done:
 				return
 			}
@@ -151,9 +177,21 @@ func Run(src frames.Source, bg gocv.Mat, opt Options, emit func(frame int, dets 
 				return
 			}
 			defer d.Close()
+			own := gocv.NewMat() // the decoded frame of a packet
+			defer own.Close()
 			for j := range jobs {
-				dets, err := d.Frame(pool[j.buf], j.index, nil)
-				free <- j.buf
+				var dets []Detection
+				var err error
+				if j.packet != nil {
+					err = packets.Decode(j.index, j.packet, &own)
+					free <- j.buf
+					if err == nil {
+						dets, err = d.Frame(own, j.index, nil)
+					}
+				} else {
+					dets, err = d.Frame(pool[j.buf], j.index, nil)
+					free <- j.buf
+				}
 				select {
 				case results <- result{j.seq, j.index, dets, err}:
 				case <-done:
@@ -169,7 +207,7 @@ func Run(src frames.Source, bg gocv.Mat, opt Options, emit func(frame int, dets 
 
 	// Merge in frame order.
 	pending := map[int]result{}
-	next := 0
+	want := 0
 	var runErr error
 	for res := range results {
 		if runErr != nil {
@@ -182,12 +220,12 @@ func Run(src frames.Source, bg gocv.Mat, opt Options, emit func(frame int, dets 
 		}
 		pending[res.seq] = res
 		for {
-			r, ok := pending[next]
+			r, ok := pending[want]
 			if !ok {
 				break
 			}
-			delete(pending, next)
-			next++
+			delete(pending, want)
+			want++
 			if r.err == nil {
 				r.err = emit(r.index, r.dets)
 			}

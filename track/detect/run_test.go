@@ -3,10 +3,12 @@ package detect
 import (
 	"errors"
 	"math/rand/v2"
+	"path/filepath"
 	"reflect"
 	"strings"
 	"testing"
 
+	"gaptrace/track/frames"
 	"gocv.io/x/gocv"
 )
 
@@ -97,5 +99,69 @@ func TestRunErrorsParallel(t *testing.T) {
 	defer small.Close()
 	if err := Run(newMemSource(imgs), small, Options{DiameterPx: 5}, func(int, []Detection) error { return nil }); err == nil || !strings.Contains(err.Error(), "background is 10x10 px") {
 		t.Errorf("wrong background size: got %v", err)
+	}
+}
+
+// plainSource hides the Packets methods of a source, so that Run reads
+// decoded frames from it.
+type plainSource struct{ frames.Source }
+
+// TestRunPacketsParallel runs an MJPEG video, whose frames the workers
+// decode from packets, with 1 and 3 workers, and as decoded frames: the
+// detections must be identical.
+func TestRunPacketsParallel(t *testing.T) {
+	imgs, _ := parallelFrames(t, 9)
+	defer closeAll(imgs)
+	path := filepath.Join(t.TempDir(), "v.avi")
+	vw, err := gocv.VideoWriterFile(path, "MJPG", 50, imgs[0].Cols(), imgs[0].Rows(), false)
+	if err != nil {
+		t.Skipf("cannot write MJPEG: %v", err)
+	}
+	for _, m := range imgs {
+		if err := vw.Write(m); err != nil {
+			t.Fatal(err)
+		}
+	}
+	vw.Close()
+	none := gocv.NewMat()
+	defer none.Close()
+	var ref [][]Detection
+	for _, tc := range []struct {
+		workers int
+		plain   bool
+	}{{1, false}, {3, false}, {2, true}} {
+		src, err := frames.Open(path, 0, frames.All)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if _, ok := src.(frames.Packets); !ok {
+			t.Fatal("MJPEG video not read as packets")
+		}
+		var s frames.Source = src
+		if tc.plain {
+			s = plainSource{src}
+		}
+		var got [][]Detection
+		err = Run(s, none, Options{DiameterPx: 5, Workers: tc.workers}, func(f int, d []Detection) error {
+			if f != len(got) {
+				t.Fatalf("frame %d emitted after %d frames", f, len(got))
+			}
+			got = append(got, d)
+			return nil
+		})
+		src.Close()
+		if err != nil {
+			t.Fatal(err)
+		}
+		if ref == nil {
+			ref = got
+			if len(ref) != len(imgs) || len(ref[0]) < 30 {
+				t.Fatalf("%d frames, %d detections in the first", len(ref), len(ref[0]))
+			}
+			continue
+		}
+		if !reflect.DeepEqual(ref, got) {
+			t.Errorf("%d workers, decoded frames %v: detections differ", tc.workers, tc.plain)
+		}
 	}
 }

@@ -293,7 +293,66 @@ func openVideo(path string, fps float64, r Range) (Source, error) {
 	if fps > 0 {
 		v.info.FPS = fps
 	}
+	if v.jpeg {
+		return &jpegVideo{v}, nil
+	}
 	return v, nil
+}
+
+// Packets is a Source whose frames are independent compressed images
+// (Motion JPEG): reading one is cheap, and decoding can run on other
+// goroutines. detect.Run uses it to decode in its workers.
+type Packets interface {
+	Source
+	// NextPacket reads the next frame of the range undecoded, into buf's
+	// memory when it is large enough, and returns the frame's index and
+	// its bytes; io.EOF at the end.
+	NextPacket(buf []byte) (index int, packet []byte, err error)
+	// Decode decodes the packet of frame index into dst as Next would. It
+	// may be called from several goroutines at once.
+	Decode(index int, packet []byte, dst *gocv.Mat) error
+}
+
+// jpegVideo is a video of independent JPEG frames.
+type jpegVideo struct{ *video }
+
+func (v *jpegVideo) NextPacket(buf []byte) (int, []byte, error) {
+	i, err := v.advance()
+	if err != nil {
+		return 0, nil, err
+	}
+	b, err := v.raw.DataPtrUint8()
+	if err != nil {
+		return 0, nil, fmt.Errorf("frames: %s: frame %d: %v", v.info.Path, i, err)
+	}
+	return i, append(buf[:0], b...), nil
+}
+
+func (v *jpegVideo) Decode(i int, packet []byte, dst *gocv.Mat) error {
+	g, err := gocv.IMDecode(packet, gocv.IMReadGrayScale)
+	if err != nil || g.Empty() {
+		g.Close()
+		return fmt.Errorf("frames: %s: cannot decode frame %d (damaged JPEG data)", v.info.Path, i)
+	}
+	defer g.Close()
+	if err := v.checkSize(g, i); err != nil {
+		return err
+	}
+	// Swap rather than copy: g's memory becomes dst's.
+	*dst, g = g, *dst
+	return nil
+}
+
+func (v *jpegVideo) Next(dst *gocv.Mat) (int, error) {
+	i, err := v.advance()
+	if err != nil {
+		return 0, err
+	}
+	b, err := v.raw.DataPtrUint8()
+	if err != nil {
+		return 0, fmt.Errorf("frames: %s: frame %d: %v", v.info.Path, i, err)
+	}
+	return i, v.Decode(i, b, dst)
 }
 
 // openCapture opens path; with jpeg it asks for the undecoded packets and
@@ -351,7 +410,9 @@ func openCapture(path string, jpeg bool) (*video, error) {
 
 func (v *video) Info() Info { return v.info }
 
-func (v *video) Next(dst *gocv.Mat) (int, error) {
+// advance reads up to the next frame of the range into v.raw and returns
+// its index.
+func (v *video) advance() (int, error) {
 	if v.closed {
 		return 0, fmt.Errorf("frames: %s: read after Close", v.info.Path)
 	}
@@ -371,24 +432,13 @@ func (v *video) Next(dst *gocv.Mat) (int, error) {
 		}
 		v.next++
 	}
-	i := v.next - 1
-	if v.jpeg {
-		b, err := v.raw.DataPtrUint8()
-		if err != nil {
-			return 0, fmt.Errorf("frames: %s: frame %d: %v", v.info.Path, i, err)
-		}
-		g, err := gocv.IMDecode(b, gocv.IMReadGrayScale)
-		if err != nil || g.Empty() {
-			g.Close()
-			return 0, fmt.Errorf("frames: %s: cannot decode frame %d (damaged JPEG data)", v.info.Path, i)
-		}
-		defer g.Close()
-		if err := v.checkSize(g, i); err != nil {
-			return 0, err
-		}
-		// Swap rather than copy: g's memory becomes dst's.
-		*dst, g = g, *dst
-		return i, nil
+	return v.next - 1, nil
+}
+
+func (v *video) Next(dst *gocv.Mat) (int, error) {
+	i, err := v.advance()
+	if err != nil {
+		return 0, err
 	}
 	if err := v.checkSize(v.raw, i); err != nil {
 		return 0, err

@@ -248,8 +248,8 @@ func TestVideo(t *testing.T) {
 			if info.Frames != n || info.WidthPx != w || info.HeightPx != h || info.BitDepth != 8 || info.FPS != 40 {
 				t.Errorf("info %+v", info)
 			}
-			if v, ok := s.(*video); !ok || v.jpeg != tc.jpeg {
-				t.Errorf("JPEG packet path %v, want %v", ok && v.jpeg, tc.jpeg)
+			if _, ok := s.(Packets); ok != tc.jpeg {
+				t.Errorf("JPEG packet path %v, want %v", ok, tc.jpeg)
 			}
 			idx, got := readAll(t, s)
 			if fmt.Sprint(idx) != "[2 7 12 17]" {
@@ -277,6 +277,74 @@ func TestVideo(t *testing.T) {
 				t.Errorf("indices %v, want [0 1 2 3]", idx)
 			}
 		})
+	}
+}
+
+// TestPackets reads an MJPEG video packet by packet, decodes the packets on
+// several goroutines, and compares with Next.
+func TestPackets(t *testing.T) {
+	const w, h, n = 64, 48, 12
+	path := filepath.Join(t.TempDir(), "v.avi")
+	writeVideo(t, path, "MJPG", n, w, h)
+	s, err := Open(path, 0, Range{First: 1, Last: -1, Step: 2})
+	if err != nil {
+		t.Fatal(err)
+	}
+	idx, want := readAll(t, s)
+	s.Close()
+	s, err = Open(path, 0, Range{First: 1, Last: -1, Step: 2})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer s.Close()
+	p, ok := s.(Packets)
+	if !ok {
+		t.Fatal("an MJPEG video is not read as packets")
+	}
+	type pkt struct {
+		i int
+		b []byte
+	}
+	var pkts []pkt
+	for {
+		i, b, err := p.NextPacket(nil)
+		if errors.Is(err, io.EOF) {
+			break
+		}
+		if err != nil {
+			t.Fatal(err)
+		}
+		pkts = append(pkts, pkt{i, b})
+	}
+	if len(pkts) != len(idx) {
+		t.Fatalf("%d packets, %d frames", len(pkts), len(idx))
+	}
+	got := make([][]int, len(pkts))
+	done := make(chan error)
+	for k := range pkts {
+		go func() {
+			m := gocv.NewMat()
+			defer m.Close()
+			err := p.Decode(pkts[k].i, pkts[k].b, &m)
+			if err == nil {
+				_, f := readAll(t, &single{m: m})
+				got[k] = f[0]
+			}
+			done <- err
+		}()
+	}
+	for range pkts {
+		if err := <-done; err != nil {
+			t.Fatal(err)
+		}
+	}
+	for k := range pkts {
+		if pkts[k].i != idx[k] || fmt.Sprint(got[k]) != fmt.Sprint(want[k]) {
+			t.Errorf("packet %d (frame %d) differs from frame %d read by Next", k, pkts[k].i, idx[k])
+		}
+	}
+	if err := p.Decode(3, []byte{0xff, 0xd8, 1, 2, 3}, new(gocv.Mat)); err == nil || !strings.Contains(err.Error(), "frame 3") {
+		t.Errorf("damaged packet: %v", err)
 	}
 }
 
