@@ -1,6 +1,7 @@
 package geometry_test
 
 import (
+	"fmt"
 	"math"
 	"testing"
 
@@ -132,4 +133,14 @@ func TestReferenceProfileHandbook(t *testing.T) {
 	if got, w := g.LocalRate(ro-rRep, vWall), g.NominalRate(vWall); math.Abs(got-w) > 1e-9*w {
 		t.Errorf("local rate at the representative radius %.9g, nominal %.9g", got, w)
 	}
+}
+
+// ExampleGeometry_NominalRate gives the nominal rate of a 25 mm cone of 4
+// degrees turning at 0.1 rad/s, from the rim's speed.
+func ExampleGeometry_NominalRate() {
+	g := geometry.Geometry{Kind: geometry.ConePlate, RadiusMM: 25, ConeAngleDeg: 4}
+	v := 0.1 * g.RotatingRadiusUM() // rim speed, um/s
+	fmt.Printf("gap %.0f um, rim %.0f um/s, rate %.3f 1/s\n", g.Gap(), v, g.NominalRate(v))
+	// Output:
+	// gap 1748 um, rim 2500 um/s, rate 1.430 1/s
 }

@@ -33,27 +33,36 @@ const (
 	sigmaMaxPx      = 2.05 //
 	sigmaStepPx     = 0.1  //
 	sigmaStrips     = 5    // strips used to choose the model's widths
-	sigmaCandidates = 3    // grid cells refined on every strip
+	sigmaCandidates = 3    // grid cells refined on many strips
+	refineStride    = 1    // every refineStride-th strip refines the widths
 	sigmaRounds     = 2    // rounds of width refinement off the grid
 	sigmaGoldenIter = 10   // golden-section steps per width: 0.2 px shrinks to 2e-3 px
 	sigmaFloorPx    = 0.1  // narrower than this a wall profile is not resolved
 	minRefineFrac   = 0.5  // at least this fraction of the strips must fit the model
 	// A reflection is on the wall when the model with it leaves at most
-	// lineGain of the step-only residual and its height is at least
-	// lineMinFrac of the step's.
-	lineGain = 0.5
+	// lineGain of the step-only residual, its height is at least
+	// lineMinFrac of the step's, and the step alone misses the profile by
+	// at least lineMinMisfit of the step's height (RMS): below that the
+	// profile is a plain edge and the reflection term would only soak up
+	// noise.
+	lineGain      = 0.5
+	lineMinFrac   = 0.2
+	lineMinMisfit = 0.02
 	// trimFrac of the strips with the largest residuals are left out when
 	// the widths are chosen.
-	trimFrac    = 0.2
-	lineMinFrac = 0.2
+	trimFrac = 0.2
 )
 
 // wallModel evaluates the model's basis on a window of rows.
 type wallModel struct {
 	se, sl float64
-	line   bool      // with the reflection term
-	rows   []float64 // y of each sample
-	vals   []float64 // profile values
+	line   bool    // with the reflection term
+	box    float64 // width of the box each sample integrates over, px
+	// Tables of the step and line bases against u, for the widths in key.
+	key              [4]float64
+	tabStep, tabLine []float64
+	rows             []float64 // y of each sample
+	vals             []float64 // profile values
 }
 
 // fit returns the least-squares levels and the residual sum of squares for
@@ -62,16 +71,13 @@ func (m *wallModel) fit(y0 float64) (a, b, c, sse float64) {
 	// Normal equations of the 3-term linear model.
 	var s [3][3]float64
 	var r [3]float64
-	k := 1 / (math.Sqrt2 * m.se)
-	lineOn := 0.0
-	if m.line {
-		lineOn = 1
-	} else {
+	if !m.line {
 		s[2][2] = 1 // c = 0
 	}
+	m.tables()
 	for i, y := range m.rows {
-		u := y - y0
-		f := [3]float64{1, 0.5 * math.Erfc(-u*k), lineOn * math.Exp(-u*u/(2*m.sl*m.sl))}
+		f := [3]float64{1, 0, 0}
+		f[1], f[2] = m.basis(y - y0)
 		for p := 0; p < 3; p++ {
 			for q := 0; q < 3; q++ {
 				s[p][q] += f[p] * f[q]
@@ -91,6 +97,70 @@ func (m *wallModel) fit(y0 float64) (a, b, c, sse float64) {
 	sse = math.Max(vv-(x[0]*r[0]+x[1]*r[1]+x[2]*r[2]), 0)
 	return x[0], x[1], x[2], sse
 }
+
+// Basis tables: the bases are sampled every 1/tabPerPx px over
+// +-tabHalfPx and interpolated linearly; the interpolation error is below
+// 1e-4 of the step for widths down to sigmaFloorPx.
+const (
+	tabPerPx  = 64
+	tabHalfPx = 11 // covers refineHalfPx + searchHalfPx + the box
+)
+
+// tables fills the basis tables for the model's current widths.
+func (m *wallModel) tables() {
+	line := 0.0
+	if m.line {
+		line = 1
+	}
+	key := [4]float64{m.se, m.sl, m.box, line}
+	if key == m.key && m.tabStep != nil {
+		return
+	}
+	m.key = key
+	n := 2*tabHalfPx*tabPerPx + 1
+	m.tabStep = growTab(m.tabStep, n)
+	m.tabLine = growTab(m.tabLine, n)
+	hb := m.box / 2
+	for i := 0; i < n; i++ {
+		u := float64(i)/tabPerPx - tabHalfPx
+		// The step and the line averaged over the sample's box: a pixel,
+		// widened by the wall's drift across the strip.
+		m.tabStep[i] = m.se / m.box * (psi((u+hb)/m.se) - psi((u-hb)/m.se))
+		if m.line {
+			m.tabLine[i] = phi((u+hb)/m.sl) - phi((u-hb)/m.sl)
+		} else {
+			m.tabLine[i] = 0
+		}
+	}
+}
+
+func growTab(t []float64, n int) []float64 {
+	if cap(t) < n {
+		return make([]float64, n)
+	}
+	return t[:n]
+}
+
+// basis returns the step and line bases at u px from the wall.
+func (m *wallModel) basis(u float64) (step, line float64) {
+	x := (u + tabHalfPx) * tabPerPx
+	if x <= 0 {
+		return m.tabStep[0], m.tabLine[0]
+	}
+	last := len(m.tabStep) - 1
+	if x >= float64(last) {
+		return m.tabStep[last], m.tabLine[last]
+	}
+	i := int(x)
+	f := x - float64(i)
+	return m.tabStep[i] + f*(m.tabStep[i+1]-m.tabStep[i]), m.tabLine[i] + f*(m.tabLine[i+1]-m.tabLine[i])
+}
+
+// phi is the standard normal distribution function.
+func phi(z float64) float64 { return 0.5 * math.Erfc(-z/math.Sqrt2) }
+
+// psi is the antiderivative z phi(z) + the normal density of phi.
+func psi(z float64) float64 { return z*phi(z) + math.Exp(-z*z/2)/math.Sqrt(2*math.Pi) }
 
 // locate finds the y0 near yc with the least residual.
 func (m *wallModel) locate(yc float64) (y0, b, c, sse float64) {
@@ -174,11 +244,20 @@ func (m *wallModel) window(p stripProfile, yc float64) bool {
 // refineWalls places both walls of r by fitting the wall model in every
 // strip, then a robust line through the strips' wall points.
 func refineWalls(r *Result, profs []stripProfile, opt Options) error {
+	// A pixel's box, widened by the wall's drift across a strip (the two
+	// boxes' convolution replaced by one box of the same variance).
+	box := func(w *Wall) float64 { return math.Hypot(1, w.Slope*float64(opt.StripPx)) }
+	mt := chooseModel(&r.Top, profs, box(&r.Top))
+	mb := chooseModel(&r.Bottom, profs, box(&r.Bottom))
+	if mt.line && mb.line {
+		shareWidths(&r.Top, &r.Bottom, mt, mb, profs)
+	}
 	for _, wl := range []struct {
 		name string
 		w    *Wall
-	}{{"top", &r.Top}, {"bottom", &r.Bottom}} {
-		if err := refineWall(wl.w, profs, opt); err != nil {
+		m    *wallModel
+	}{{"top", &r.Top, mt}, {"bottom", &r.Bottom, mb}} {
+		if err := placeWall(wl.w, wl.m, profs, opt); err != nil {
 			return fmt.Errorf("walls: %s wall: %w", wl.name, err)
 		}
 	}
@@ -193,23 +272,51 @@ func refineWalls(r *Result, profs []stripProfile, opt Options) error {
 	return nil
 }
 
+// shareWidths gives both walls the same blur and reflection widths, chosen
+// on both together: the two walls are seen through the same optics, and on
+// a wall with a strong reflection the step's blur is poorly determined
+// alone (the residual is nearly flat in it, and the wall's position is
+// not), so the other wall's data settle it. Each wall's own widths start a
+// refinement of the summed residual; the better result is kept.
+func shareWidths(top, bottom *Wall, mt, mb *wallModel, profs []stripProfile) {
+	sum := func(se, sl float64) float64 {
+		a, b := *mt, *mb
+		a.se, a.sl, b.se, b.sl = se, sl, se, sl
+		ea, _, _ := a.total(top, profs, refineStride)
+		eb, _, _ := b.total(bottom, profs, refineStride)
+		return ea + eb
+	}
+	bestSE, bestSL, bestSSE := mt.se, mt.sl, math.Inf(1)
+	for _, start := range [][2]float64{{mt.se, mt.sl}, {mb.se, mb.sl}} {
+		se, sl := start[0], start[1]
+		for round := 0; round < sigmaRounds; round++ {
+			se = goldenMin(se-sigmaStepPx, se+sigmaStepPx, func(v float64) float64 { return sum(v, sl) })
+			sl = goldenMin(sl-sigmaStepPx, sl+sigmaStepPx, func(v float64) float64 { return sum(se, v) })
+		}
+		if e := sum(se, sl); e < bestSSE {
+			bestSE, bestSL, bestSSE = se, sl, e
+		}
+	}
+	mt.se, mt.sl, mb.se, mb.sl = bestSE, bestSL, bestSE, bestSL
+}
+
 // chooseModel picks the model's widths, and whether it has the reflection
 // term, on a spread subset of the strips.
-func chooseModel(w *Wall, profs []stripProfile) *wallModel {
-	m := &wallModel{}
+func chooseModel(w *Wall, profs []stripProfile, box float64) *wallModel {
+	m := &wallModel{box: box}
 	step := max(1, len(profs)/sigmaStrips)
-	total := func() (sse, lineFrac float64) {
+	total := func() (sse, lineFrac, misfit float64) {
 		return m.total(w, profs, step)
 	}
 	all := func() float64 {
-		e, _ := m.total(w, profs, 1)
+		e, _, _ := m.total(w, profs, refineStride)
 		return e
 	}
-	stepSE, stepSSE := 1.0, math.Inf(1)
+	stepSE, stepSSE, stepMisfit := 1.0, math.Inf(1), 0.0
 	for se := sigmaMinPx; se <= sigmaMaxPx; se += sigmaStepPx {
 		m.se = se
-		if e, _ := total(); e < stepSSE {
-			stepSE, stepSSE = se, e
+		if e, _, mis := total(); e < stepSSE {
+			stepSE, stepSSE, stepMisfit = se, e, mis
 		}
 	}
 	m.line = true
@@ -220,12 +327,12 @@ func chooseModel(w *Wall, profs []stripProfile) *wallModel {
 	for se := sigmaMinPx; se <= sigmaMaxPx; se += sigmaStepPx {
 		for sl := sigmaMinPx; sl <= sigmaMaxPx; sl += sigmaStepPx {
 			m.se, m.sl = se, sl
-			e, fr := total()
+			e, fr, _ := total()
 			cells = append(cells, cell{se, sl, e, fr})
 		}
 	}
 	sort.Slice(cells, func(i, j int) bool { return cells[i].sse < cells[j].sse })
-	if c := cells[0]; c.sse <= lineGain*stepSSE && c.fr >= lineMinFrac {
+	if c := cells[0]; c.sse <= lineGain*stepSSE && c.fr >= lineMinFrac && stepMisfit >= lineMinMisfit {
 		best, bestSSE := c, math.Inf(1)
 		for _, c := range cells[:min(sigmaCandidates, len(cells))] {
 			m.se, m.sl = c.se, c.sl
@@ -247,8 +354,8 @@ func chooseModel(w *Wall, profs []stripProfile) *wallModel {
 
 // total returns the model's residual summed over every step-th strip and
 // the median height of the reflection relative to the step.
-func (m *wallModel) total(w *Wall, profs []stripProfile, step int) (sse, lineFrac float64) {
-	var fr, es []float64
+func (m *wallModel) total(w *Wall, profs []stripProfile, step int) (sse, lineFrac, misfit float64) {
+	var fr, es, mis []float64
 	for i := 0; i < len(profs); i += step {
 		yc := w.YAt(profs[i].xPx)
 		if !m.window(profs[i], yc) {
@@ -257,6 +364,7 @@ func (m *wallModel) total(w *Wall, profs []stripProfile, step int) (sse, lineFra
 		_, b, c, e := m.locate(yc)
 		es = append(es, e)
 		fr = append(fr, math.Abs(c)/math.Max(math.Abs(b), 1e-9))
+		mis = append(mis, math.Sqrt(e/float64(len(m.rows)))/math.Max(math.Abs(b), 1e-9))
 	}
 	// Trim the worst strips: a scratch or a stuck particle there must not
 	// choose the model's widths.
@@ -264,7 +372,7 @@ func (m *wallModel) total(w *Wall, profs []stripProfile, step int) (sse, lineFra
 	for _, e := range es[:len(es)-int(trimFrac*float64(len(es)))] {
 		sse += e
 	}
-	return sse, median(fr)
+	return sse, median(fr), median(mis)
 }
 
 // goldenMin returns the minimiser of f on [lo, hi] (clamped to positive
@@ -288,8 +396,9 @@ func goldenMin(lo, hi float64, f func(float64) float64) float64 {
 	return (lo + hi) / 2
 }
 
-func refineWall(w *Wall, profs []stripProfile, opt Options) error {
-	m := chooseModel(w, profs)
+// placeWall fits the model m in every strip and a robust line through the
+// strips' wall points.
+func placeWall(w *Wall, m *wallModel, profs []stripProfile, opt Options) error {
 	var xs, ys, bs []float64
 	for _, p := range profs {
 		yc := w.YAt(p.xPx)

@@ -224,10 +224,11 @@ func greyPixels(img gocv.Mat) ([]float32, int, int, error) {
 	scale := 1.0
 	switch src.Type() {
 	case gocv.MatTypeCV8U:
-	case gocv.MatTypeCV16U:
-		_, maxV, _, _ := gocv.MinMaxLoc(src)
-		scale = 1 / levelUnit16(float64(maxV))
-	case gocv.MatTypeCV32F:
+	case gocv.MatTypeCV16U, gocv.MatTypeCV32F:
+		// A float image (a temporal median) holds 8- or 16-bit levels.
+		if _, maxV, _, _ := gocv.MinMaxLoc(src); maxV > 255 {
+			scale = 1 / levelUnit16(float64(maxV))
+		}
 	default:
 		return nil, 0, 0, fmt.Errorf("walls: image type %v, need 8 or 16 bit grey", src.Type())
 	}

@@ -27,8 +27,6 @@ type gapImage struct {
 	seed       int64
 }
 
-func phi(x float64) float64 { return 0.5 * math.Erfc(-x/math.Sqrt2) }
-
 // render returns the image as 8-bit levels (float).
 func (g gapImage) render() []float32 {
 	r := rand.New(rand.NewSource(g.seed))
