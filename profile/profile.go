@@ -209,24 +209,42 @@ func Analyze(pts []tracks.Point, e *experiment.Experiment, c *calib.Calibration,
 	}
 	slices.SortFunc(all, func(a, b velocity.Sample) int { return cmpFloat(a.TS, b.TS) })
 
-	prof := func(w Window, reps int, seed uint64) (WindowProfile, error) {
-		lo, _ := slices.BinarySearchFunc(all, w.T0S, func(s velocity.Sample, t float64) int { return cmpFloat(s.TS, t) })
-		hi, _ := slices.BinarySearchFunc(all, w.T1S, func(s velocity.Sample, t float64) int { return cmpFloat(s.TS, t) })
+	// profOf is the profile of the samples of ss (sorted by time) whose
+	// midpoints lie in w; prof that of the phases' samples.
+	profOf := func(ss []velocity.Sample, w Window, reps int, seed uint64) (WindowProfile, error) {
+		lo, _ := slices.BinarySearchFunc(ss, w.T0S, func(s velocity.Sample, t float64) int { return cmpFloat(s.TS, t) })
+		hi, _ := slices.BinarySearchFunc(ss, w.T1S, func(s velocity.Sample, t float64) int { return cmpFloat(s.TS, t) })
 		obs := make([]layers.Obs, 0, hi-lo)
-		for _, s := range all[lo:hi] {
+		for _, s := range ss[lo:hi] {
 			obs = append(obs, layers.Obs{Group: s.Track, YUM: s.YUM, Value: s.VXUMPerS})
 		}
 		b, err := layers.Profile(obs, layers.Options{GapUM: gap, Bins: o.Bins, MinSamples: layers.DefaultMinSamples,
 			MinGroups: layers.DefaultMinGroups, Replicates: reps, Seed: seed})
 		return WindowProfile{Window: w, Bins: b}, err
 	}
+	prof := func(w Window, reps int, seed uint64) (WindowProfile, error) { return profOf(all, w, reps, seed) }
 
-	// Space-time map over the whole recording.
+	// Space-time map over the whole recording. Each map window takes its
+	// samples from its own points (split at the phases' edges), never from
+	// the phases' samples: a slow or resting layer asks for a lag longer
+	// than a map window, and the phase's samples of such a layer would
+	// bunch at the middle of the phase, leaving the other windows empty.
 	mapW := (t1 - t0) / float64(o.MapWindows)
 	var mapProfiles []WindowProfile
+	var own []velocity.Sample
 	for k := range o.MapWindows {
 		w := Window{Name: fmt.Sprintf("map%02d", k+1), T0S: t0 + float64(k)*mapW, T1S: t0 + float64(k+1)*mapW}
-		p, err := prof(w, mapReplicates, o.Seed+1000+uint64(k))
+		own = own[:0]
+		for _, ph := range r.Phases {
+			a, b := math.Max(w.T0S, ph.StartS), math.Min(w.T1S, ph.EndS)
+			if b > a {
+				own = append(own, velocity.Samples(ts, r.Lag, sigma, dt, a, b)...)
+			}
+		}
+		slices.SortFunc(own, func(a, b velocity.Sample) int { return cmpFloat(a.TS, b.TS) })
+		// Every midpoint lies inside w: strictly before its end, so profOf
+		// keeps them all.
+		p, err := profOf(own, w, mapReplicates, o.Seed+1000+uint64(k))
 		if err != nil {
 			return nil, err
 		}

@@ -3,6 +3,7 @@ package layers
 import (
 	"math"
 	"math/rand/v2"
+	"slices"
 	"testing"
 )
 
@@ -92,5 +93,42 @@ func TestOptionsErrors(t *testing.T) {
 		if _, err := Profile(nil, o); err == nil {
 			t.Errorf("options %+v accepted", o)
 		}
+	}
+}
+
+// A layer of a few tracks at different heights, its own trend removed, each
+// track's samples scattered about its own offset as much as the offsets
+// scatter (as resting tracers' overlapping samples are):
+// the error must allow for the two degrees of freedom the mean and the
+// trend take. The pull (value - truth) / error then follows Student's t
+// with tracks-2 degrees of freedom, whose median |t| for 4 degrees is
+// 0.741 (Student's t table, e.g. Abramowitz & Stegun 1964, table 26.10;
+// from memory); without the correction it would be 0.741 sqrt(6/4) = 0.91.
+func TestErrorFewTracks(t *testing.T) {
+	const tracks, per, runs = 6, 8, 2000
+	rng := rand.New(rand.NewPCG(5, 5))
+	abs := make([]float64, 0, runs)
+	for run := range runs {
+		var obs []Obs
+		for g := range tracks {
+			y := 10 * rng.Float64()
+			off := rng.NormFloat64()
+			for range per {
+				obs = append(obs, Obs{Group: g, YUM: y, Value: off + rng.NormFloat64()})
+			}
+		}
+		b, err := Profile(obs, Options{GapUM: 10, Bins: 1, MinSamples: 10, MinGroups: 3, Seed: uint64(run)})
+		if err != nil {
+			t.Fatal(err)
+		}
+		abs = append(abs, math.Abs(b[0].Value/b[0].Err))
+	}
+	slices.Sort(abs)
+	// 2000 runs give the median to about 3%; the bootstrap's own noise
+	// (100 replicates) widens the t a little.
+	med := abs[runs/2]
+	t.Logf("median |pull| %.3f over %d layers of %d tracks (Student 0.741)", med, runs, tracks)
+	if med < 0.66 || med > 0.84 {
+		t.Errorf("median |pull| %.3f over %d layers of %d tracks, want about 0.741", med, runs, tracks)
 	}
 }

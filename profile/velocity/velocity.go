@@ -231,10 +231,17 @@ type Sample struct {
 // Samples returns the velocity samples of the tracks whose both ends lie in
 // [t0S, t1S]. Each track's lag comes from rule with the track's own rough
 // speed there (its net displacement over its time in the interval), at most
-// the track's span in the interval; a
-// sample starts at every point of the track that has a partner exactly Lag
-// frames later, so samples of one track overlap and are correlated (treat
-// them per track when estimating errors).
+// half the track's span in the interval (rounded up); a sample starts at
+// every point of the track that has a partner exactly Lag frames later, so
+// samples of one track overlap and are correlated (treat them per track
+// when estimating errors).
+//
+// The cap at half the span is what keeps a slow or resting tracer in a
+// short interval: the rule asks for more frames than the interval holds,
+// and the samples over half the span average to the difference of the
+// means of the track's two halves, which for white localization noise is
+// more precise than its single end-to-end step (sqrt(2L)/(L+1) against
+// sqrt(2)/2 times sigma/(L dt) for a span of 2L frames).
 func Samples(ts []Track, rule LagRule, sigmaUM, dtS, t0S, t1S float64) []Sample {
 	var out []Sample
 	for _, t := range ts {
@@ -254,9 +261,9 @@ func Samples(ts []Track, rule LagRule, sigmaUM, dtS, t0S, t1S float64) []Sample 
 		p = p[lo : hi+1]
 		first, last := p[0], p[len(p)-1]
 		v := (last.XUM - first.XUM) / (last.TS - first.TS)
-		// No longer than the track's span here, so that a slow tracer seen
-		// briefly still gives its one, most precise, sample.
-		l := min(rule.Lag(v, sigmaUM, dtS), last.Frame-first.Frame)
+		// No longer than half the track's span here, so that a slow
+		// tracer seen briefly still gives samples (see above).
+		l := min(rule.Lag(v, sigmaUM, dtS), max(1, (last.Frame-first.Frame+1)/2))
 		j := 0
 		for i := range p {
 			for j < len(p) && p[j].Frame < p[i].Frame+l {

@@ -81,6 +81,41 @@ func TestSamples(t *testing.T) {
 	}
 }
 
+// A resting tracer in an interval shorter than the rule's lag still gives
+// samples, over half its span, and their mean has the spread derived in
+// Samples' comment: sqrt(2L)/(L+1) sigma/(L dt) for a span of 2L frames.
+func TestSamplesShortInterval(t *testing.T) {
+	const (
+		sigma  = 0.2
+		dt     = 0.01
+		frames = 11 // a span of 10 frames: the lag is 5
+		tracks = 4000
+	)
+	rng := rand.New(rand.NewPCG(9, 10))
+	rule := LagRule{SNR: DefaultSNR, MaxLag: CapFrames}
+	var s1, s2 float64
+	for i := range tracks {
+		s := Samples([]Track{line(i, frames, 0, 100, dt, sigma, rng)}, rule, sigma, dt, 0, float64(frames-1)*dt)
+		if len(s) != 6 || s[0].Lag != 5 {
+			t.Fatalf("%d samples of lag %d at rest over %d frames, want 6 of lag 5", len(s), s[0].Lag, frames)
+		}
+		var m float64
+		for _, x := range s {
+			m += x.VXUMPerS / float64(len(s))
+		}
+		s1 += m
+		s2 += m * m
+	}
+	mean := s1 / tracks
+	sd := math.Sqrt(s2/tracks - mean*mean)
+	const l = 5.0
+	want := math.Sqrt(2*l) / (l + 1) * sigma / (l * dt)
+	// 4000 tracks give the spread to 1/sqrt(2*4000) = 1.1%; 5% is ample.
+	if math.Abs(sd/want-1) > 0.05 || math.Abs(mean) > 4*want/math.Sqrt(tracks) {
+		t.Errorf("mean resting speed %.3g um/s with spread %.4g um/s, want 0 and %.4g um/s", mean, sd, want)
+	}
+}
+
 func TestSplit(t *testing.T) {
 	rng := rand.New(rand.NewPCG(5, 6))
 	tr := line(7, 60, 1000, 50, 0.005, 0.2, rng)
