@@ -1,7 +1,9 @@
 package calib_test
 
 import (
+	"encoding/binary"
 	"fmt"
+	"image/color"
 	"io"
 	"math"
 	"path/filepath"
@@ -263,4 +265,117 @@ func TestCalibrateWithCheckerboard(t *testing.T) {
 	// (small) correction; the scale agrees with the gap within the warning
 	// limit.
 	t.Logf("um_per_px %.5f from the target, warnings %q", cal.UMPerPx, cal.Warnings)
+}
+
+// distort resamples img as seen through lens: each output pixel takes the
+// value at its undistorted position (bilinear, OpenCV's remap).
+func distort(t *testing.T, img gocv.Mat, lens target.Lens) gocv.Mat {
+	t.Helper()
+	w, h := img.Cols(), img.Rows()
+	mx := make([]byte, 4*w*h)
+	my := make([]byte, 4*w*h)
+	for y := 0; y < h; y++ {
+		for x := 0; x < w; x++ {
+			ux, uy := lens.Undistort(float64(x), float64(y))
+			binary.LittleEndian.PutUint32(mx[4*(y*w+x):], math.Float32bits(float32(ux)))
+			binary.LittleEndian.PutUint32(my[4*(y*w+x):], math.Float32bits(float32(uy)))
+		}
+	}
+	m1, err := gocv.NewMatFromBytes(h, w, gocv.MatTypeCV32F, mx)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer m1.Close()
+	m2, err := gocv.NewMatFromBytes(h, w, gocv.MatTypeCV32F, my)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer m2.Close()
+	out := gocv.NewMat()
+	gocv.Remap(img, &out, &m1, &m2, gocv.InterpolationLinear, gocv.BorderReplicate, color.RGBA{})
+	return out
+}
+
+// TestCalibrateThroughLens films a rendered gap (track/synth) through a
+// lens with barrel distortion, calibrates it with a checkerboard seen
+// through the same lens, and checks that the walls, in undistorted pixels,
+// and the gap positions of the true tracers are right.
+func TestCalibrateThroughLens(t *testing.T) {
+	s, err := synth.Builtin("homogeneous", 13)
+	if err != nil {
+		t.Fatal(err)
+	}
+	s.Frames, s.TiltDeg, s.OmitScale = 30, 2.1, true
+	med := medianOf(t, s, 30)
+	defer med.Close()
+	// A made-up macro lens: k1 = -0.12 at a focal length of 900 px bends the
+	// walls by about 1.5 px across the image.
+	lens := target.Lens{Fx: 900, Fy: 900, Cx: 319.5, Cy: 239.5, K: [5]float64{-0.12}}
+	seen := distort(t, med, lens)
+	defer seen.Close()
+	b := testtarget.Board{W: 640, H: 480, Cols: 11, Rows: 8, SquarePx: 45, X0: 95, Y0: 82, Undistort: lens.Undistort, Noise: 2, PSFPx: 1}
+	img, err := b.Render()
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer img.Close()
+	dir := t.TempDir()
+	if !gocv.IMWrite(filepath.Join(dir, "board.png"), img) {
+		t.Fatal("cannot write the target")
+	}
+	e := s.Experiment()
+	e.Camera.Target = &experiment.Target{Image: "board.png", Kind: experiment.Checkerboard, PitchUM: 90, Corners: [2]int{11, 8}}
+	cal, err := calib.Calibrate(seen, e, calib.Options{BaseDir: dir})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if cal.Distortion == nil || cal.ScaleSource != calib.ScaleTarget {
+		t.Fatalf("distortion %v, scale source %q", cal.Distortion, cal.ScaleSource)
+	}
+	truth := s.Calibration()
+	var worst float64
+	for k, pair := range [][2]calib.Line{{cal.StationaryWallPx, truth.StationaryWallPx}, {cal.MovingWallPx, truth.MovingWallPx}} {
+		for j := range 2 {
+			d := pair[0][j][1] - pair[1][j][1]
+			worst = math.Max(worst, math.Abs(d))
+			if math.Abs(d) > lineTolPx {
+				t.Errorf("wall %d point %d: y off by %.3f px (undistorted)", k, j, d)
+			}
+		}
+	}
+	if d := cal.UMPerPx/s.UMPerPx - 1; math.Abs(d) > scaleTolFrac {
+		t.Errorf("um_per_px %.5f from the target, truth %g", cal.UMPerPx, s.UMPerPx)
+	}
+	// Tracers as the lens shows them map to their true heights.
+	var worstY float64
+	for _, tr := range s.Positions(15) {
+		jx, jy := s.JitterAt(15)
+		dx, dy := lens.Distort(tr.XPx-jx, tr.YPx-jy)
+		_, y := cal.ToGap(dx, dy)
+		worstY = math.Max(worstY, math.Abs(y-tr.YUM)/s.UMPerPx)
+	}
+	// Heights are off by the wall error plus the scale's error across the gap.
+	heightTol := lineTolPx + math.Abs(cal.UMPerPx/s.UMPerPx-1)*s.GapPx()
+	if worstY > heightTol {
+		t.Errorf("tracer heights off by up to %.3f px, want within %.3f", worstY, heightTol)
+	}
+	t.Logf("through the lens: walls within %.3f px, tracer heights within %.3f px, um_per_px %.5f, k1 %.4f", worst, worstY, cal.UMPerPx, cal.Distortion.K[0])
+	// Control: ignoring the lens puts the tracers off by more than the limit,
+	// so the check above can fail.
+	e.Camera.Target = nil
+	plain, err := calib.Calibrate(seen, e, calib.Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	var worstPlain float64
+	for _, tr := range s.Positions(15) {
+		jx, jy := s.JitterAt(15)
+		dx, dy := lens.Distort(tr.XPx-jx, tr.YPx-jy)
+		_, y := plain.ToGap(dx, dy)
+		worstPlain = math.Max(worstPlain, math.Abs(y-tr.YUM)/s.UMPerPx)
+	}
+	if worstPlain <= lineTolPx {
+		t.Errorf("without the lens the tracer heights are still within %.3f px: the lens is too weak to test", worstPlain)
+	}
+	t.Logf("ignoring the lens: tracer heights off by up to %.3f px", worstPlain)
 }
