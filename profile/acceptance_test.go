@@ -101,8 +101,22 @@ func TestSlipBothWalls(t *testing.T) {
 		if sp.Verdict != tp.Verdict || sp.Banded {
 			t.Errorf("seed %d: verdict %s with %d bands, truth %s", 100+seed, sp.Verdict, len(sp.Bands), tp.Verdict)
 		}
+		// The slip lengths come with errors that cover the truth.
+		for _, c := range []struct {
+			wall           string
+			got, err, want summary.Num
+		}{{"stationary", sp.SlipLengthStationaryUM, sp.SlipLengthStationaryErrUM, tp.SlipLengthStationaryUM},
+			{"moving", sp.SlipLengthMovingUM, sp.SlipLengthMovingErrUM, tp.SlipLengthMovingUM}} {
+			if !c.err.Known() || !(c.err > 0) || math.Abs(float64(c.got-c.want)) > slipLengthPulls*float64(c.err) {
+				t.Errorf("seed %d: slip length at the %s wall %.2f ± %v um, truth %.2f um", 100+seed, c.wall, float64(c.got), c.err, float64(c.want))
+			}
+		}
 	}
 }
+
+// slipLengthPulls standard errors cover a true slip length with a chance
+// of 99.99% for a normal error (common practice).
+const slipLengthPulls = 4
 
 // checkBands compares the bands found with the truth.
 func checkBands(t *testing.T, seed int64, h float64, got, want []summary.Band) {

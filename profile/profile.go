@@ -295,7 +295,8 @@ func Analyze(pts []tracks.Point, e *experiment.Experiment, c *calib.Calibration,
 			WallSpeedUMPerS: summary.Num(st.WallSpeedUMPerS), NominalRatePerS: summary.Num(st.RatePerS),
 			BulkRatePerS: summary.Null, BulkRateErrPerS: summary.Null, SlipStationaryUMPerS: summary.Null,
 			SlipStationaryErrUMPerS: summary.Null, SlipMovingUMPerS: summary.Null, SlipMovingErrUMPerS: summary.Null,
-			SlipLengthStationaryUM: summary.Null, SlipLengthMovingUM: summary.Null, SlipFraction: summary.Null,
+			SlipLengthStationaryUM: summary.Null, SlipLengthStationaryErrUM: summary.Null,
+			SlipLengthMovingUM: summary.Null, SlipLengthMovingErrUM: summary.Null, SlipFraction: summary.Null,
 			SlipFractionErr: summary.Null, Bands: []summary.Band{}}
 		d, err := rheometry.Decompose(steady.Bins, geom, st.WallSpeedUMPerS, rheometry.Options{})
 		if err != nil {
@@ -399,7 +400,8 @@ func fillShear(sp *summary.ShearPhase, d *rheometry.Decomposition) {
 	sp.BulkRatePerS, sp.BulkRateErrPerS = summary.Num(d.BulkRatePerS), summary.Num(d.BulkRateErrPerS)
 	sp.SlipStationaryUMPerS, sp.SlipStationaryErrUMPerS = summary.Num(d.SlipStationaryUMPerS), summary.Num(d.SlipStationaryErrUMPerS)
 	sp.SlipMovingUMPerS, sp.SlipMovingErrUMPerS = summary.Num(d.SlipMovingUMPerS), summary.Num(d.SlipMovingErrUMPerS)
-	sp.SlipLengthStationaryUM, sp.SlipLengthMovingUM = summary.Num(d.SlipLengthStationaryUM), summary.Num(d.SlipLengthMovingUM)
+	sp.SlipLengthStationaryUM, sp.SlipLengthStationaryErrUM = summary.Num(d.SlipLengthStationaryUM), summary.Num(d.SlipLengthStationaryErrUM)
+	sp.SlipLengthMovingUM, sp.SlipLengthMovingErrUM = summary.Num(d.SlipLengthMovingUM), summary.Num(d.SlipLengthMovingErrUM)
 	sp.SlipFraction, sp.SlipFractionErr = summary.Num(d.SlipFraction), summary.Num(d.SlipFractionErr)
 	sp.WallSlip, sp.Bands, sp.Banded, sp.Verdict = d.WallSlip, d.Bands, d.Banded, d.Verdict
 }

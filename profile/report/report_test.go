@@ -175,6 +175,7 @@ func TestContentInWords(t *testing.T) {
 		// Verdicts with numbers and uncertainties, as computed from scenario.Summary.
 		"Wall slip at the moving wall: 300 ± 9 µm/s, 25.0 ± 0.8 % of the wall speed",
 		"Wall slip at the stationary wall: 50 ± 6 µm/s",
+		"Navier slip length 20.0 ± 3.4 µm.", "<td class=\"num\">20.0 ± 3.4 / 1500 ± 21</td>",
 		"Bulk shear rate 1.062 ± 0.012 1/s against a nominal 1.50 1/s",
 		"split into 2 shear bands",
 		"band 1 from 0 to 300 ± 11 µm at 2.50 ± 0.04 1/s",

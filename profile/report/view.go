@@ -133,7 +133,8 @@ func newView(d *Data, figs []shownFigure, notShown []string) *view {
 			formatPM(num(sp.BulkRatePerS), num(sp.BulkRateErrPerS), ""),
 			formatPM(num(sp.SlipStationaryUMPerS), num(sp.SlipStationaryErrUMPerS), ""),
 			formatPM(num(sp.SlipMovingUMPerS), num(sp.SlipMovingErrUMPerS), ""),
-			formatValue(num(sp.SlipLengthStationaryUM), "") + " / " + formatValue(num(sp.SlipLengthMovingUM), ""),
+			formatPM(num(sp.SlipLengthStationaryUM), num(sp.SlipLengthStationaryErrUM), "") + " / " +
+				formatPM(num(sp.SlipLengthMovingUM), num(sp.SlipLengthMovingErrUM), ""),
 			formatPercent(num(sp.SlipFraction), num(sp.SlipFractionErr)),
 			verdictWords(sp.Verdict),
 		})

@@ -41,10 +41,10 @@ func phaseFindings(i int, sp *summary.ShearPhase) (headline string, lines []stri
 	lines = append(lines,
 		"Wall slip at the moving wall: "+formatPM(num(sp.SlipMovingUMPerS), num(sp.SlipMovingErrUMPerS), unitSpeed)+
 			frac(num(sp.SlipMovingUMPerS), num(sp.SlipMovingErrUMPerS))+
-			"; Navier slip length "+formatValue(num(sp.SlipLengthMovingUM), unitLen)+".",
+			"; Navier slip length "+formatPM(num(sp.SlipLengthMovingUM), num(sp.SlipLengthMovingErrUM), unitLen)+".",
 		"Wall slip at the stationary wall: "+formatPM(num(sp.SlipStationaryUMPerS), num(sp.SlipStationaryErrUMPerS), unitSpeed)+
 			frac(num(sp.SlipStationaryUMPerS), num(sp.SlipStationaryErrUMPerS))+
-			"; Navier slip length "+formatValue(num(sp.SlipLengthStationaryUM), unitLen)+".",
+			"; Navier slip length "+formatPM(num(sp.SlipLengthStationaryUM), num(sp.SlipLengthStationaryErrUM), unitLen)+".",
 		"Bulk shear rate "+formatPM(num(sp.BulkRatePerS), num(sp.BulkRateErrPerS), unitRate)+
 			" against a nominal "+formatValue(num(sp.NominalRatePerS), unitRate)+
 			" (wall speed "+formatValue(v, unitSpeed)+"); slip takes "+

@@ -123,25 +123,27 @@ const (
 
 // ShearPhase is the rheometric decomposition of one shear phase.
 type ShearPhase struct {
-	StartS                  float64    `json:"start_s"`
-	EndS                    float64    `json:"end_s"`
-	WindowS                 [2]float64 `json:"window_s"`
-	WallSpeedUMPerS         Num        `json:"wall_speed_um_per_s"`
-	NominalRatePerS         Num        `json:"nominal_rate_per_s"`
-	BulkRatePerS            Num        `json:"bulk_rate_per_s"`
-	BulkRateErrPerS         Num        `json:"bulk_rate_err_per_s"`
-	SlipStationaryUMPerS    Num        `json:"slip_stationary_um_per_s"`
-	SlipStationaryErrUMPerS Num        `json:"slip_stationary_err_um_per_s"`
-	SlipMovingUMPerS        Num        `json:"slip_moving_um_per_s"`
-	SlipMovingErrUMPerS     Num        `json:"slip_moving_err_um_per_s"`
-	SlipLengthStationaryUM  Num        `json:"slip_length_stationary_um"`
-	SlipLengthMovingUM      Num        `json:"slip_length_moving_um"`
-	SlipFraction            Num        `json:"slip_fraction"`
-	SlipFractionErr         Num        `json:"slip_fraction_err"`
-	WallSlip                bool       `json:"wall_slip"`
-	Bands                   []Band     `json:"bands"`
-	Banded                  bool       `json:"banded"`
-	Verdict                 string     `json:"verdict"`
+	StartS                    float64    `json:"start_s"`
+	EndS                      float64    `json:"end_s"`
+	WindowS                   [2]float64 `json:"window_s"`
+	WallSpeedUMPerS           Num        `json:"wall_speed_um_per_s"`
+	NominalRatePerS           Num        `json:"nominal_rate_per_s"`
+	BulkRatePerS              Num        `json:"bulk_rate_per_s"`
+	BulkRateErrPerS           Num        `json:"bulk_rate_err_per_s"`
+	SlipStationaryUMPerS      Num        `json:"slip_stationary_um_per_s"`
+	SlipStationaryErrUMPerS   Num        `json:"slip_stationary_err_um_per_s"`
+	SlipMovingUMPerS          Num        `json:"slip_moving_um_per_s"`
+	SlipMovingErrUMPerS       Num        `json:"slip_moving_err_um_per_s"`
+	SlipLengthStationaryUM    Num        `json:"slip_length_stationary_um"`
+	SlipLengthStationaryErrUM Num        `json:"slip_length_stationary_err_um"`
+	SlipLengthMovingUM        Num        `json:"slip_length_moving_um"`
+	SlipLengthMovingErrUM     Num        `json:"slip_length_moving_err_um"`
+	SlipFraction              Num        `json:"slip_fraction"`
+	SlipFractionErr           Num        `json:"slip_fraction_err"`
+	WallSlip                  bool       `json:"wall_slip"`
+	Bands                     []Band     `json:"bands"`
+	Banded                    bool       `json:"banded"`
+	Verdict                   string     `json:"verdict"`
 }
 
 // After-stop verdicts and modes.
