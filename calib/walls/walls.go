@@ -7,10 +7,17 @@
 // horizontal edge gives a candidate point, located to a fraction of a pixel
 // by a three-point Gaussian fit of the gradient peak. Candidate points of
 // the same sign are grouped into lines by an exhaustive consensus search over
-// pairs of strips, and each line is then refined by iteratively reweighted
-// least squares with Tukey's biweight, so a stuck particle, a scratch or a
-// tracer left in the median does not pull the line. The two walls are the
-// strongest pair of such lines at least MinGapPx apart.
+// pairs of strips and a robust fit (iteratively reweighted least squares with
+// Tukey's biweight), so a stuck particle, a scratch or a tracer left in the
+// median does not pull the line. Lines closer than MinGapPx are one wall
+// (the two flanks of a reflection line, say); the two strongest walls are
+// kept.
+//
+// Each wall is then placed by a model of its profile: a blurred step from
+// the plate's level to the sample's, plus an optional thin reflection line
+// on the wall, both integrated over the pixel. The model is
+// fitted in every strip and a second robust line through the strips' wall
+// positions is the wall.
 //
 // Image coordinates are pixels with the origin at the top-left pixel's
 // centre, x to the right and y down. Edge contrasts are reported in grey
@@ -499,31 +506,10 @@ func refine(cands []candidate, used []bool, l Line, sign float64) (fitted, []int
 	}
 	x := make([]float64, n)
 	y := make([]float64, n)
-	wt := make([]float64, n)
-	res := make([]float64, n)
 	for i, k := range idx {
-		x[i], y[i], wt[i] = cands[k].xPx, cands[k].yPx, 1
+		x[i], y[i] = cands[k].xPx, cands[k].yPx
 	}
-	var sigma float64
-	for it := 0; it < irlsIter; it++ {
-		nl, ok := weightedLine(x, y, wt)
-		if !ok {
-			break
-		}
-		l = nl
-		for i := range x {
-			res[i] = math.Abs(y[i] - l.YAt(x[i]))
-		}
-		sigma = math.Max(1.4826*median(res), minSigmaPx)
-		for i := range wt {
-			u := res[i] / (tukeyC * sigma)
-			if u < 1 {
-				wt[i] = (1 - u*u) * (1 - u*u)
-			} else {
-				wt[i] = 0
-			}
-		}
-	}
+	l, sigma, wt := robustLine(x, y)
 	f.Line = l
 	f.ResidualPx = sigma
 	contr := make([]float64, 0, n)
