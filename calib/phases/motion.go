@@ -6,11 +6,13 @@ import (
 	"fmt"
 	"image"
 	"image/color"
+	"io"
 	"math"
 
 	"gocv.io/x/gocv"
 
 	"gaptrace/calib"
+	"gaptrace/track/frames"
 )
 
 // WallMotion measures, frame by frame, how far the tracers next to the
@@ -148,4 +150,31 @@ func (w *WallMotion) Close() {
 			m.Close()
 		}
 	}
+}
+
+// Measure reads every remaining frame of src through a WallMotion for cal
+// and returns the signal for Detect. progress, when not nil, is called with
+// the number of frames read so far.
+func Measure(src frames.Source, cal *calib.Calibration, progress func(done int)) ([]float64, error) {
+	wm, err := NewWallMotion(cal)
+	if err != nil {
+		return nil, err
+	}
+	defer wm.Close()
+	fr := gocv.NewMat()
+	defer fr.Close()
+	for n := 1; ; n++ {
+		if _, err := src.Next(&fr); errors.Is(err, io.EOF) {
+			break
+		} else if err != nil {
+			return nil, err
+		}
+		if err := wm.Add(fr); err != nil {
+			return nil, err
+		}
+		if progress != nil {
+			progress(n)
+		}
+	}
+	return wm.Signal(), nil
 }

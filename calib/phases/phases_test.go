@@ -184,25 +184,14 @@ func TestDetectOnSynth(t *testing.T) {
 				t.Fatal(err)
 			}
 			s.MovingSide, s.FlowSign, s.Frames = c.moving, c.flow, c.frames
-			wm, err := phases.NewWallMotion(s.Calibration())
+			signal, err := phases.Measure(&synthSource{s: s, step: 1}, s.Calibration(), nil)
 			if err != nil {
 				t.Fatal(err)
 			}
-			defer wm.Close()
-			src := &synthSource{s: s, step: 1}
-			fr := gocv.NewMat()
-			defer fr.Close()
-			for {
-				if _, err := src.Next(&fr); err == io.EOF {
-					break
-				} else if err != nil {
-					t.Fatal(err)
-				}
-				if err := wm.Add(fr); err != nil {
-					t.Fatal(err)
-				}
+			if len(signal) != s.Frames {
+				t.Fatalf("%d samples for %d frames", len(signal), s.Frames)
 			}
-			d, err := phases.Detect(wm.Signal(), s.FPS)
+			d, err := phases.Detect(signal, s.FPS)
 			if err != nil {
 				t.Fatal(err)
 			}

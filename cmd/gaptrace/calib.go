@@ -1,7 +1,6 @@
 package main
 
 import (
-	"errors"
 	"fmt"
 	"image"
 	"image/color"
@@ -102,29 +101,14 @@ func (c *chain) wallMotion(program experiment.Program) error {
 	}
 	defer src.Close()
 	info := src.Info()
-	wm, err := phases.NewWallMotion(c.cal)
-	if err != nil {
-		return err
-	}
-	defer wm.Close()
-	fr := gocv.NewMat()
-	defer fr.Close()
 	pr := newProgress(c.stderr, c.progress, "motion", info.Frames)
-	n := 0
-	for {
-		if _, err := src.Next(&fr); errors.Is(err, io.EOF) {
-			break
-		} else if err != nil {
-			return badInput(err)
-		}
-		if err := wm.Add(fr); err != nil {
-			return err
-		}
-		n++
-		pr.update(n)
+	signal, err := phases.Measure(src, c.cal, pr.update)
+	if err != nil {
+		return badInput(err)
 	}
 	pr.done()
-	d, err := phases.Detect(wm.Signal(), info.FPS)
+	n := len(signal)
+	d, err := phases.Detect(signal, info.FPS)
 	if err != nil {
 		fmt.Fprintf(c.stderr, "calib: no phases detected: %v\n", err)
 		return nil
