@@ -175,6 +175,17 @@ func TestFindMat8And16(t *testing.T) {
 			t.Errorf("16 bit %v: top contrast %.1f levels, want about 180", sixteen, c)
 		}
 	}
+	// A colour image is read as grey.
+	m := toMat(t, pix, g.w, g.h, false)
+	defer m.Close()
+	bgr := gocv.NewMat()
+	defer bgr.Close()
+	gocv.CvtColor(m, &bgr, gocv.ColorGrayToBGR)
+	r, err := Find(bgr, Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	checkWalls(t, g, r)
 }
 
 func TestFindErrors(t *testing.T) {
