@@ -608,10 +608,14 @@ func (d *Detector) findCandidates(c gocv.Mat, y0, h, thr int) error {
 }
 
 // rows returns the range of image rows [lo, hi) the mask can reach in an
-// image w px wide, widened by a pixel.
+// image w px wide, widened by a pixel. For walls closer to the columns than
+// to the rows it is every row.
 func (m *Mask) rows(w int) (lo, hi int) {
 	a, b := math.Inf(1), math.Inf(-1)
 	for _, l := range [...][2][2]float64{m.Stationary, m.Moving} {
+		if math.Abs(l[1][0]-l[0][0]) < math.Abs(l[1][1]-l[0][1]) {
+			return math.MinInt32, math.MaxInt32
+		}
 		for _, x := range []float64{0, float64(w - 1)} {
 			y := lineY(l, x)
 			a, b = math.Min(a, y), math.Max(b, y)

@@ -136,6 +136,14 @@ func TestMask(t *testing.T) {
 			t.Errorf("Contains(%g, %g) = %v, want %v", tc.x, tc.y, got, tc.in)
 		}
 	}
+	// Walls along the columns: all rows are searched.
+	vm := &Mask{Stationary: [2][2]float64{{100, 0}, {102, 200}}, Moving: [2][2]float64{{20, 0}, {22, 200}}, MarginPx: 4}
+	if lo, hi := vm.rows(300); lo > 0 || hi < 200 {
+		t.Errorf("vertical walls: rows %d to %d, want all", lo, hi)
+	}
+	if lo, hi := m.rows(200); lo != 19 || hi != 112 {
+		t.Errorf("rows %d to %d, want 19 to 112", lo, hi)
+	}
 	// Swapping the walls changes nothing.
 	sw := &Mask{Stationary: m.Moving, Moving: m.Stationary, MarginPx: 4}
 	if !sw.Contains(100, 60) || sw.Contains(100, 28.9) {
