@@ -177,7 +177,8 @@ type Options struct {
 	// more (default DefaultMaxEccentricity).
 	MaxEccentricity float64
 	// OverlapRatio rejects a spot when a dropped maximum within
-	// MinSeparationPx of it is stronger than this fraction of its own
+	// MinSeparationPx of it, and more than 2 sds away (a distinct spot, not
+	// a ripple of the same one), is stronger than this fraction of its own
 	// band-passed peak: the two overlap and neither position can be trusted
 	// (default DefaultOverlapRatio).
 	OverlapRatio float64

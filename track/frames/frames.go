@@ -410,6 +410,12 @@ func openCapture(path string, jpeg bool) (*video, error) {
 
 func (v *video) Info() Info { return v.info }
 
+// countSlack is how many frames short of the container's count a video may
+// end without being called truncated: some containers give the count as
+// duration times frame rate, off by a frame or two, or by rounding on long
+// recordings (common practice); 1%, at least 2.
+func countSlack(frames int) int { return max(2, frames/100) }
+
 // advance reads up to the next frame of the range into v.raw and returns
 // its index.
 func (v *video) advance() (int, error) {
@@ -425,7 +431,7 @@ func (v *video) advance() (int, error) {
 	}
 	for v.next <= target {
 		if !v.cap.Read(&v.raw) || v.raw.Empty() {
-			if v.info.Frames >= 0 && v.next < v.info.Frames {
+			if v.info.Frames >= 0 && v.next < v.info.Frames-countSlack(v.info.Frames) {
 				return 0, fmt.Errorf("frames: %s: cannot read frame %d of %d (file truncated or damaged)", v.info.Path, v.next, v.info.Frames)
 			}
 			return 0, io.EOF
