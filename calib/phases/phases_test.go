@@ -102,6 +102,29 @@ func TestDetectSignal(t *testing.T) {
 			t.Errorf("case %d: phases %+v", i, d.Phases)
 		}
 	}
+	// Two steps, forth and back, with a pause: two shear phases, rest
+	// between them, flow sign from the first.
+	two := stepSignal(400, 40.4, 90.2, -2.5, 0.02, 5)
+	back := stepSignal(400, 150.6, 220.3, 2.5, 0.02, 6)
+	for i := range two {
+		two[i] += back[i]
+	}
+	d2, err := phases.Detect(two, fps)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var kinds []string
+	for _, p := range d2.Phases {
+		kinds = append(kinds, p.Kind)
+	}
+	if got := strings.Join(kinds, " "); got != "rest shear rest shear after_stop" || d2.FlowSign != -1 {
+		t.Errorf("two steps: phases %s, flow sign %g", got, d2.FlowSign)
+	}
+	for k, want := range [][2]float64{{40.4, 90.2}, {150.6, 220.3}} {
+		if len(d2.Segments) == 2 && (math.Abs(d2.Segments[k].StartS*fps-want[0]) > subFrameTol || math.Abs(d2.Segments[k].EndS*fps-want[1]) > subFrameTol) {
+			t.Errorf("two steps: segment %d at frames %.3f-%.3f, want %v", k, d2.Segments[k].StartS*fps, d2.Segments[k].EndS*fps, want)
+		}
+	}
 	// Still: no motion, one rest phase.
 	d, err := phases.Detect(stepSignal(300, 0, 0, 0, 0.02, 9), fps)
 	if err != nil {
