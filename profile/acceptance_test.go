@@ -4,6 +4,8 @@ import (
 	"fmt"
 	"math"
 	"math/rand/v2"
+	"slices"
+	"strings"
 	"testing"
 
 	"gaptrace/calib/experiment"
@@ -376,32 +378,86 @@ func TestTwoSteps(t *testing.T) {
 	}
 }
 
-// Phases found in the video (here synth's true phases) with an experiment
-// file that has no motion program: the wall speed is unknown, so what
-// needs it is null, and the rest is measured.
+// Phases found in the video with an experiment file that has no motion
+// program: synth's true phases, each edge moved by a frame (later or,
+// for the second scenario, earlier) as a detection may place it (calib/phases agrees with the program to
+// phases.MaxDisagreeFrames). The wall speed is then the fluid's at the
+// moving wall, with a warning; the slip there is unknown (null), and the
+// rest of the analysis, the after-stop part too, is as with the program.
 func TestDetectedPhasesWithoutProgram(t *testing.T) {
-	s, err := synth.Builtin("slip", 910)
-	if err != nil {
-		t.Fatal(err)
-	}
-	truth := s.Truth().Summary
-	e := s.Experiment()
-	e.Motion = nil
-	r, err := Analyze(observe(s, 910), e, s.Calibration(), Options{Phases: truth.Phases, Seed: 910})
-	if err != nil {
-		t.Fatal(err)
-	}
-	if len(r.ShearPhases) != 1 {
-		t.Fatalf("%d shear phases, want 1", len(r.ShearPhases))
-	}
-	sp, tp := r.ShearPhases[0], truth.ShearPhases[0]
-	v := float64(tp.WallSpeedUMPerS)
-	if sp.WallSpeedUMPerS.Known() || sp.SlipMovingUMPerS.Known() || sp.SlipFraction.Known() {
-		t.Errorf("wall speed %v, moving slip %v, slip fraction %v: want null without a program", sp.WallSpeedUMPerS, sp.SlipMovingUMPerS, sp.SlipFraction)
-	}
-	if math.Abs(float64(sp.SlipStationaryUMPerS-tp.SlipStationaryUMPerS))/v > slipTol || math.Abs(float64(sp.BulkRatePerS/tp.BulkRatePerS)-1) > bulkRateTol || !sp.WallSlip {
-		t.Errorf("stationary slip %.2f (truth %.2f), bulk rate %.4f (truth %.4f), wall slip %v", float64(sp.SlipStationaryUMPerS),
-			float64(tp.SlipStationaryUMPerS), float64(sp.BulkRatePerS), float64(tp.BulkRatePerS), sp.WallSlip)
+	for i, name := range []string{"slip", "demo", "step-plane"} {
+		t.Run(name, func(t *testing.T) {
+			s, err := synth.Builtin(name, 910)
+			if err != nil {
+				t.Fatal(err)
+			}
+			truth := s.Truth().Summary
+			e := s.Experiment()
+			e.Motion = nil
+			ph := slices.Clone(truth.Phases)
+			frame := 1 / s.FPS
+			if i == 1 {
+				frame = -frame
+			}
+			for i := range ph {
+				ph[i].Source = "detected"
+				if i > 0 {
+					ph[i].StartS += frame
+					ph[i-1].EndS = ph[i].StartS
+				}
+			}
+			r, err := Analyze(observe(s, 910), e, s.Calibration(), Options{Phases: ph, Seed: 910})
+			if err != nil {
+				t.Fatal(err)
+			}
+			if len(r.ShearPhases) != 1 {
+				t.Fatalf("%d shear phases, want 1", len(r.ShearPhases))
+			}
+			sp, tp := r.ShearPhases[0], truth.ShearPhases[0]
+			v := float64(tp.WallSpeedUMPerS)
+			fluidMoving := v - float64(tp.SlipMovingUMPerS)
+			t.Logf("wall speed %.2f um/s (fluid at the moving wall %.2f, wall %.2f), nominal rate %.4f, slip fraction %.4f (truth %.4f for the stationary wall), verdict %s; warnings %q",
+				float64(sp.WallSpeedUMPerS), fluidMoving, v, float64(sp.NominalRatePerS), float64(sp.SlipFraction),
+				float64(tp.SlipStationaryUMPerS)/fluidMoving, sp.Verdict, r.Warnings)
+			if math.Abs(float64(sp.WallSpeedUMPerS)-fluidMoving)/v > slipTol || !sp.NominalRatePerS.Known() {
+				t.Errorf("wall speed %v um/s, want the fluid's at the moving wall, %.2f um/s; nominal rate %v", sp.WallSpeedUMPerS, fluidMoving, sp.NominalRatePerS)
+			}
+			if sp.SlipMovingUMPerS.Known() || sp.SlipLengthMovingUM.Known() {
+				t.Errorf("moving slip %v, slip length %v: want null without a program", sp.SlipMovingUMPerS, sp.SlipLengthMovingUM)
+			}
+			if f := float64(tp.SlipStationaryUMPerS) / fluidMoving; math.Abs(float64(sp.SlipFraction)-f) > slipFractionTol {
+				t.Errorf("slip fraction %v, want the stationary wall's share %.4f", sp.SlipFraction, f)
+			}
+			if !slices.ContainsFunc(r.Warnings, func(w string) bool { return strings.Contains(w, "no motion program gives the wall speed") }) {
+				t.Errorf("no warning on the wall speed: %q", r.Warnings)
+			}
+			if math.Abs(float64(sp.SlipStationaryUMPerS-tp.SlipStationaryUMPerS))/v > slipTol || math.Abs(float64(sp.BulkRatePerS/tp.BulkRatePerS)-1) > bulkRateTol ||
+				sp.WallSlip != tp.WallSlip || sp.Verdict != tp.Verdict {
+				t.Errorf("stationary slip %.2f (truth %.2f), bulk rate %.4f (truth %.4f), wall slip %v (truth %v), verdict %s (truth %s)", float64(sp.SlipStationaryUMPerS),
+					float64(tp.SlipStationaryUMPerS), float64(sp.BulkRatePerS), float64(tp.BulkRatePerS), sp.WallSlip, tp.WallSlip, sp.Verdict, tp.Verdict)
+			}
+			if tp.Banded {
+				checkBands(t, 910, s.GapUM(), sp.Bands, tp.Bands)
+			}
+			a, ta := r.AfterStop, truth.AfterStop
+			if (a == nil) != (ta == nil) {
+				t.Fatalf("after stop %+v, truth %+v", a, ta)
+			}
+			if a == nil {
+				return
+			}
+			if a.Verdict != ta.Verdict || (ta.Mode != nil && (a.Mode == nil || *a.Mode != *ta.Mode)) {
+				t.Errorf("after stop %s mode %v, truth %s mode %v", a.Verdict, a.Mode, ta.Verdict, ta.Mode)
+			}
+			if ta.PlaneUM.Known() {
+				if dp := math.Abs(float64(a.PlaneUM-ta.PlaneUM)) / s.GapUM(); dp > planeTol {
+					t.Errorf("plane at %v um, truth %v um", a.PlaneUM, ta.PlaneUM)
+				}
+				if df := math.Abs(float64(a.OnsetAfterStopS-ta.OnsetAfterStopS)) * s.FPS; df > onsetFrames {
+					t.Errorf("onset %v s after the stop, truth %v s", a.OnsetAfterStopS, ta.OnsetAfterStopS)
+				}
+			}
+		})
 	}
 }
 

@@ -181,7 +181,7 @@ func Analyze(pts []tracks.Point, e *experiment.Experiment, c *calib.Calibration,
 	r.Phases = Phases(prog, t0, t1)
 	steps := shearSteps(prog)
 	if o.Phases != nil {
-		r.Phases = o.Phases
+		r.Phases = slices.Clone(o.Phases)
 		steps = stepsOf(o.Phases, prog)
 	}
 	if len(steps) == 0 {
@@ -199,6 +199,7 @@ func Analyze(pts []tracks.Point, e *experiment.Experiment, c *calib.Calibration,
 		lastStop = st.EndS
 	}
 	ts = velocity.Split(ts, sigma, maxChange, lastStop+dt/2)
+	r.refineStops(ts, steps, dt, sigma)
 	layer := gap / float64(o.Bins)
 	r.Lag = velocity.LagRule{SNR: velocity.DefaultSNR, MaxLag: velocity.MaxLagInLayer(ts, sigma, layer, t0, t1)}
 
@@ -304,6 +305,9 @@ func Analyze(pts []tracks.Point, e *experiment.Experiment, c *calib.Calibration,
 		} else {
 			sh.Decomposition = d
 			fillShear(&sp, d)
+			if math.IsNaN(st.WallSpeedUMPerS) {
+				r.Warnings = append(r.Warnings, wallFromFluid(&sp, &sh, d, geom, n))
+			}
 			for k := 0; k <= curvePoints; k++ {
 				y := gap * float64(k) / curvePoints
 				v, ve := d.FitAt(y)
@@ -406,6 +410,67 @@ func fillShear(sp *summary.ShearPhase, d *rheometry.Decomposition) {
 	sp.WallSlip, sp.Bands, sp.Banded, sp.Verdict = d.WallSlip, d.Bands, d.Banded, d.Verdict
 }
 
+// refineStops places the end of each shear phase not taken from the
+// experiment file (one found in the video, to about a frame) where the
+// tracks show the stop (cessation.RefineStop), moving the start of the
+// phase after it along, and says so in a warning.
+func (r *Result) refineStops(ts []velocity.Track, steps []experiment.Step, dt, sigma float64) {
+	k := 0
+	for i, ph := range r.Phases {
+		if ph.Kind != summary.Shear || k >= len(steps) {
+			continue
+		}
+		st := &steps[k]
+		k++
+		if ph.Source == sourceExperiment {
+			continue
+		}
+		stop, err := cessation.RefineStop(ts, ph.EndS, dt, sigma)
+		if err != nil {
+			r.Warnings = append(r.Warnings, fmt.Sprintf("the stop at %.4g s is kept as given: %v", ph.EndS, err))
+			continue
+		}
+		r.Warnings = append(r.Warnings, fmt.Sprintf("the stop given at %.4g s (%s) is placed at %.4f s, where the tracks stop", ph.EndS, ph.Source, stop))
+		r.Phases[i].EndS, st.EndS = stop, stop
+		if !math.IsNaN(st.RatePerS) {
+			st.Strain = st.RatePerS * st.DurationS()
+		}
+		if i+1 < len(r.Phases) {
+			r.Phases[i+1].StartS = stop
+		}
+	}
+}
+
+// sourceExperiment is the phase source of times taken from the experiment
+// file's motion program.
+const sourceExperiment = "experiment"
+
+// wallFromFluid fills in the wall speed of a shear phase that no motion
+// program gives: the fluid's speed at the moving wall, extrapolated from the
+// tracers next to it, which is the wall's speed if the fluid does not slip
+// there. The nominal rate and strain follow from it, the slip fraction
+// counts the stationary wall alone (a lower bound), and the moving wall's
+// slip stays unknown. It returns the warning that says so.
+func wallFromFluid(sp *summary.ShearPhase, sh *Shear, d *rheometry.Decomposition, g geometry.Geometry, n int) string {
+	v, ve := d.FluidMovingUMPerS, d.FluidMovingErrUMPerS
+	sp.WallSpeedUMPerS = summary.Num(v)
+	sp.NominalRatePerS = summary.Num(g.NominalRate(v))
+	sh.NominalStrain = g.NominalRate(v) * sh.Step.DurationS()
+	// f = s / v for the fluid's speeds s at the stationary wall and v at
+	// the moving one, correlated through the fit: first-order propagation
+	// with the fit's covariance.
+	s, se := d.FluidStationaryUMPerS, d.FluidStationaryErrUMPerS
+	if v != 0 {
+		c := d.Model.Cov(0, d.GapUM)
+		f := s / v
+		fe := math.Sqrt(math.Max(0, (se*se-2*f*c+f*f*ve*ve)/(v*v)))
+		sp.SlipFraction, sp.SlipFractionErr = summary.Num(f), summary.Num(fe)
+	}
+	return fmt.Sprintf("shear phase %d (%.4g-%.4g s): no motion program gives the wall speed, so it is taken as the fluid's speed at the moving wall, "+
+		"%.4g ± %.2g um/s from the tracers next to it: slip at the moving wall is not measured and the slip fraction counts the stationary wall only",
+		n, sp.StartS, sp.EndS, v, ve)
+}
+
 // Phases splits [t0S, t1S] by the motion program: rest before and between
 // shear steps (and during steps of zero speed), shear during each step, and
 // after_stop from the end of the last shear step to t1S.
@@ -414,7 +479,7 @@ func Phases(p experiment.Program, t0S, t1S float64) []summary.Phase {
 	add := func(kind string, a, b float64) {
 		a, b = math.Max(a, t0S), math.Min(b, t1S)
 		if b > a {
-			out = append(out, summary.Phase{Kind: kind, StartS: a, EndS: b, Source: "experiment"})
+			out = append(out, summary.Phase{Kind: kind, StartS: a, EndS: b, Source: sourceExperiment})
 		}
 	}
 	last := -1
