@@ -3,6 +3,7 @@ package main
 import (
 	"encoding/json"
 	"errors"
+	"fmt"
 	"io"
 	"math"
 	"os"
@@ -13,6 +14,7 @@ import (
 
 	"gaptrace/calib"
 	"gaptrace/calib/experiment"
+	"gaptrace/calib/phases"
 	"gaptrace/profile/summary"
 	"gaptrace/track/detect"
 	"gaptrace/track/flowprior"
@@ -229,38 +231,68 @@ func writeCalibJSON(path string, cal *calib.Calibration) error {
 	return summary.WriteFileAtomic(path, append(b, '\n'))
 }
 
-// flowSenseFraction is the part of the gap next to the moving wall whose
-// tracks decide which way the moving wall travels in the image.
-const flowSenseFraction = 0.25
+// wallStripFraction is the part of the gap next to the moving wall whose
+// tracks give the wall-motion signal that the phases and the direction of
+// the flow are detected from.
+const wallStripFraction = 0.2
 
-// orientFlow makes x_um positive in the direction the moving wall travels
-// during the first shear phase: if the tracks near the moving wall go the
-// other way in the image, the calibration's flow sign and every x_um flip.
-func (c *chain) orientFlow(pts []tracks.Point) {
-	p := c.exp.Program()
-	if len(p) == 0 {
-		return
+// wallSignal returns, for each frame, the median displacement along the
+// walls (px, towards +x of the image) since the previous frame of the tracks
+// next to the moving wall; 0 where no track crosses the strip.
+func (c *chain) wallSignal(pts []tracks.Point, nFrames int) []float64 {
+	ex, ey := c.cal.StationaryWallPx[1][0]-c.cal.StationaryWallPx[0][0], c.cal.StationaryWallPx[1][1]-c.cal.StationaryWallPx[0][1]
+	n := math.Hypot(ex, ey)
+	ex, ey = ex/n, ey/n
+	if ex < 0 {
+		ex, ey = -ex, -ey
 	}
-	first := p[0]
-	last := map[int]tracks.Point{}
-	var sum float64
-	for _, q := range pts {
-		if q.Track == tracks.Unlinked || q.TS < first.StartS || q.TS > first.EndS ||
-			q.YUM < (1-flowSenseFraction)*c.cal.GapUM {
+	steps := make([][]float64, nFrames)
+	for i := 1; i < len(pts); i++ {
+		p, q := pts[i-1], pts[i]
+		if q.Track == tracks.Unlinked || q.Track != p.Track || q.Frame != p.Frame+1 ||
+			q.YUM < (1-wallStripFraction)*c.cal.GapUM || q.Frame >= nFrames {
 			continue
 		}
-		if prev, ok := last[q.Track]; ok && q.Frame > prev.Frame {
-			sum += q.XUM - prev.XUM
+		steps[q.Frame] = append(steps[q.Frame], (q.XPx-p.XPx)*ex+(q.YPx-p.YPx)*ey)
+	}
+	sig := make([]float64, nFrames)
+	for f, st := range steps {
+		if len(st) > 0 {
+			sort.Float64s(st)
+			sig[f] = st[len(st)/2]
 		}
-		last[q.Track] = q
 	}
-	if sum*math.Copysign(1, first.WallSpeedUMPerS) >= 0 {
-		return
+	return sig
+}
+
+// detectPhases finds the phases of wall motion in the tracks, sets the
+// direction of the flow from them (flipping x_um when the moving wall
+// travels towards -x of the image), and reconciles them with the motion
+// program. It returns the phases to pass to the analysis (nil: the
+// program's) and warnings.
+func (c *chain) detectPhases(pts []tracks.Point, nFrames int) ([]summary.Phase, []string) {
+	prog := c.exp.Program()
+	det, err := phases.Detect(c.wallSignal(pts, nFrames), c.info.FPS)
+	if err != nil {
+		if len(prog) == 0 {
+			return nil, []string{fmt.Sprintf("no motion program and no wall motion detected in the video: %v", err)}
+		}
+		return nil, []string{fmt.Sprintf("phases not detected in the video: %v", err)}
 	}
-	c.cal.FlowSign = -c.cal.FlowSign
-	for i := range pts {
-		pts[i].XUM = -pts[i].XUM
+	// +x of the gap is the direction the moving wall travels in the first
+	// shear phase (the contract's convention).
+	if det.FlowSign != 0 && det.FlowSign != c.cal.FlowSign {
+		c.cal.FlowSign = det.FlowSign
+		for i := range pts {
+			pts[i].XUM = -pts[i].XUM
+		}
 	}
+	durS := float64(nFrames) / c.info.FPS
+	use, warn := phases.Reconcile(phases.FromProgram(prog, durS), det.Phases, c.info.FPS)
+	if len(prog) > 0 {
+		return nil, warn
+	}
+	return use, warn
 }
 
 // jitterWindowFrames is the running-median window that splits the measured

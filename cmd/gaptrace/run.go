@@ -88,14 +88,14 @@ func runChain(o runOptions, stderr io.Writer) (*summary.Summary, error) {
 	if err != nil {
 		return nil, err
 	}
-	c.orientFlow(pts)
+	detected, phaseWarnings := c.detectPhases(pts, len(dets))
 	if err := writeCalibJSON(filepath.Join(o.outDir, "calibration.json"), c.cal); err != nil {
 		return nil, err
 	}
 	if err := writeTracks(filepath.Join(o.outDir, "tracks.csv"), pts); err != nil {
 		return nil, err
 	}
-	r, err := profile.Analyze(pts, exp, c.cal, profile.Options{Bins: o.bins, Windows: o.windows, Seed: o.seed})
+	r, err := profile.Analyze(pts, exp, c.cal, profile.Options{Bins: o.bins, Windows: o.windows, Seed: o.seed, Phases: detected})
 	if err != nil {
 		return nil, badInput(err)
 	}
@@ -105,6 +105,8 @@ func runChain(o runOptions, stderr io.Writer) (*summary.Summary, error) {
 	s.Calibration = c.cal
 	s.Tracking = profile.TrackingCounts(pts)
 	s.Tracking.Detections = c.detections
+	s.Warnings = append(s.Warnings, c.cal.Warnings...)
+	s.Warnings = append(s.Warnings, phaseWarnings...)
 	r.Fill(s)
 	if err := summary.WriteFileAtomic(filepath.Join(o.outDir, profileTableName), r.ProfilesCSV()); err != nil {
 		return nil, err

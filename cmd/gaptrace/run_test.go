@@ -36,11 +36,14 @@ const (
 
 // renderScenario writes a built-in scenario into a temporary folder and
 // returns the experiment file, the video and the truth.
-func renderScenario(t *testing.T, name string, seed int64) (expPath, video string, truth *summary.Summary) {
+func renderScenario(t *testing.T, name string, seed int64, change ...func(*synth.Scenario)) (expPath, video string, truth *summary.Summary) {
 	t.Helper()
 	sc, err := synth.Builtin(name, seed)
 	if err != nil {
 		t.Fatal(err)
+	}
+	for _, f := range change {
+		f(sc)
 	}
 	dir := filepath.Join(t.TempDir(), "in")
 	tr, err := sc.Write(dir, synth.Output{Format: synth.FormatMJPEG})
@@ -59,9 +62,27 @@ func runGaptrace(args ...string) (int, string) {
 }
 
 func TestRunEndToEnd(t *testing.T) {
-	for _, name := range []string{"homogeneous", "slip", "banded2", "step-quiescent", "step-plane", "step-wallslip"} {
-		t.Run(name, func(t *testing.T) {
-			exp, video, want := renderScenario(t, name, 3)
+	cases := []struct {
+		name, scenario string
+		change         func(*synth.Scenario)
+	}{
+		{"homogeneous", "homogeneous", nil},
+		{"slip", "slip", nil},
+		{"banded2", "banded2", nil},
+		{"step-quiescent", "step-quiescent", nil},
+		{"step-plane", "step-plane", nil},
+		{"step-wallslip", "step-wallslip", nil},
+		// The moving wall at the bottom of the image, travelling to -x: the
+		// gap coordinates must come out the same.
+		{"slip reversed", "slip", func(s *synth.Scenario) { s.FlowSign, s.MovingSide = -1, "bottom" }},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			var change []func(*synth.Scenario)
+			if c.change != nil {
+				change = append(change, c.change)
+			}
+			exp, video, want := renderScenario(t, c.scenario, 3, change...)
 			out := filepath.Join(t.TempDir(), "out")
 			if code, errs := runGaptrace("run", "-e", exp, "-o", out, video); code != 0 {
 				t.Fatalf("exit %d: %s", code, errs)
