@@ -2,10 +2,7 @@ package main
 
 import (
 	"fmt"
-	"image"
-	"image/color"
 	"io"
-	"math"
 	"os"
 	"path/filepath"
 	"strings"
@@ -15,6 +12,7 @@ import (
 	"gaptrace/calib"
 	"gaptrace/calib/experiment"
 	"gaptrace/calib/phases"
+	"gaptrace/profile/report/figure"
 	"gaptrace/profile/summary"
 	"gaptrace/track/frames"
 )
@@ -129,32 +127,10 @@ func (c *chain) wallMotion(program experiment.Program) error {
 	return nil
 }
 
-// Overlay style: colours and sizes of calibration.png.
-var (
-	overlayStationary = color.RGBA{R: 60, G: 200, B: 255}  // stationary wall: light blue
-	overlayMoving     = color.RGBA{R: 255, G: 150, B: 40}  // moving wall: orange
-	overlayAxes       = color.RGBA{R: 120, G: 255, B: 120} // gap axes: green
-	overlayText       = color.RGBA{R: 255, G: 255, B: 255}
-	overlayBox        = color.RGBA{}
-)
-
-const (
-	overlayLinePx   = 1
-	overlayFont     = gocv.FontHersheySimplex
-	overlayFontSize = 0.45
-	overlayMarginPx = 12
-	// overlayBarFrac: the scale bar is the round length nearest to this
-	// fraction of the image width.
-	overlayBarFrac = 0.2
-	// overlayAxisFrac: the gap axes are drawn this fraction of the gap long.
-	overlayAxisFrac = 0.3
-)
-
 // writeCalibOverlay draws the walls, the gap axes and a scale bar on the
-// median image and writes it as a PNG, atomically.
+// median image (figure.DrawOverlay, as in the report's frame figure) and
+// writes it as calibration.png, atomically.
 func writeCalibOverlay(path string, med gocv.Mat, cal *calib.Calibration) error {
-	img := gocv.NewMat()
-	defer img.Close()
 	grey := gocv.NewMat()
 	defer grey.Close()
 	if med.Type() == gocv.MatTypeCV8U {
@@ -163,90 +139,15 @@ func writeCalibOverlay(path string, med gocv.Mat, cal *calib.Calibration) error 
 		gocv.Normalize(med, &grey, 0, 255, gocv.NormMinMax)
 		grey.ConvertTo(&grey, gocv.MatTypeCV8U)
 	}
-	gocv.CvtColor(grey, &img, gocv.ColorGrayToBGR)
-	pt := func(x, y float64) image.Point { return image.Pt(int(math.Round(x)), int(math.Round(y))) }
-	// Text with a dark outline, readable on bright and dark images.
-	text := func(s string, at image.Point, col color.RGBA) {
-		gocv.PutText(&img, s, at, overlayFont, overlayFontSize, overlayBox, 3)
-		gocv.PutText(&img, s, at, overlayFont, overlayFontSize, col, 1)
+	img, err := figure.DrawOverlay(&figure.Overlay{Frame: grey, Calibration: cal})
+	if err != nil {
+		return fmt.Errorf("calibration.png: %w", err)
 	}
-	midY := func(l calib.Line) float64 { return (l[0][1] + l[1][1]) / 2 }
-	// Wall lines, through the lens when there is one: drawn as short
-	// segments of the undistorted line mapped back into the image. Labels
-	// go on the gap side of each line.
-	wall := func(l calib.Line, other calib.Line, col color.RGBA, label string) {
-		const segs = 32
-		var prev image.Point
-		for i := 0; i <= segs; i++ {
-			f := float64(i) / segs
-			x := l[0][0] + f*(l[1][0]-l[0][0])
-			y := l[0][1] + f*(l[1][1]-l[0][1])
-			if cal.Distortion != nil {
-				x, y = cal.Distortion.Distort(x, y)
-			}
-			p := pt(x, y)
-			if i > 0 {
-				gocv.Line(&img, prev, p, col, overlayLinePx)
-			}
-			prev = p
-		}
-		at := 0.6 // along the line, away from the axes and the scale bar
-		p := pt(l[0][0]+at*(l[1][0]-l[0][0]), l[0][1]+at*(l[1][1]-l[0][1]))
-		off := -8
-		if midY(l) < midY(other) {
-			off = 18
-		}
-		text(label, image.Pt(p.X, p.Y+off), col)
-	}
-	wall(cal.StationaryWallPx, cal.MovingWallPx, overlayStationary, "stationary wall, y = 0")
-	wall(cal.MovingWallPx, cal.StationaryWallPx, overlayMoving, fmt.Sprintf("moving wall, y = %.0f um", cal.GapUM))
-	// Gap axes from a point on the stationary wall a tenth into the image.
-	axisUM := overlayAxisFrac * cal.GapUM
-	x0UM := 0.1 * float64(cal.WidthPx) * cal.UMPerPx
-	if cal.FlowSign < 0 {
-		x0UM = -0.9 * float64(cal.WidthPx) * cal.UMPerPx
-	}
-	ox, oy := cal.ToImage(x0UM, 0)
-	xx, xy := cal.ToImage(x0UM+axisUM, 0)
-	yx, yy := cal.ToImage(x0UM, axisUM)
-	// Start the axes a little inside the gap so the wall line stays visible.
-	inset := 0.02 * cal.GapUM
-	ox, oy = cal.ToImage(x0UM, inset)
-	xx, xy = cal.ToImage(x0UM+axisUM, inset)
-	gocv.ArrowedLine(&img, pt(ox, oy), pt(xx, xy), overlayAxes, overlayLinePx+1)
-	gocv.ArrowedLine(&img, pt(ox, oy), pt(yx, yy), overlayAxes, overlayLinePx+1)
-	text("x (flow)", pt(xx+6, xy+5), overlayAxes)
-	text("y", pt(yx+6, yy+5), overlayAxes)
-	// Scale bar and the numbers, bottom left, on a dark box.
-	barUM := roundLength(overlayBarFrac * float64(cal.WidthPx) * cal.UMPerPx)
-	barPx := int(math.Round(barUM / cal.UMPerPx))
-	y := cal.HeightPx - overlayMarginPx
-	label := fmt.Sprintf("%g um   %.4g um/px (%s)   tilt %.2f deg   gap %.1f px", barUM, cal.UMPerPx, cal.ScaleSource, cal.TiltDeg, cal.GapPx)
-	ts := gocv.GetTextSize(label, overlayFont, overlayFontSize, 1)
-	boxW := max(barPx, ts.X) + overlayMarginPx
-	gocv.Rectangle(&img, image.Rect(overlayMarginPx/2, y-ts.Y-18, overlayMarginPx/2+boxW, y+6), overlayBox, -1)
-	gocv.Line(&img, image.Pt(overlayMarginPx, y), image.Pt(overlayMarginPx+barPx, y), overlayText, 3)
-	gocv.PutText(&img, label, image.Pt(overlayMarginPx, y-10), overlayFont, overlayFontSize, overlayText, 1)
+	defer img.Close()
 	buf, err := gocv.IMEncode(gocv.PNGFileExt, img)
 	if err != nil {
 		return fmt.Errorf("calibration.png: %w", err)
 	}
 	defer buf.Close()
 	return summary.WriteFileAtomic(path, append([]byte(nil), buf.GetBytes()...))
-}
-
-// roundLength returns 1, 2 or 5 times a power of ten, the one nearest to
-// v (v > 0).
-func roundLength(v float64) float64 {
-	if !(v > 0) {
-		return 1
-	}
-	p := math.Pow(10, math.Floor(math.Log10(v)))
-	best := p
-	for _, m := range []float64{1, 2, 5, 10} {
-		if math.Abs(m*p-v) < math.Abs(best-v) {
-			best = m * p
-		}
-	}
-	return best
 }

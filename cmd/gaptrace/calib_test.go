@@ -142,11 +142,3 @@ func TestCalibCommandBadInput(t *testing.T) {
 		}
 	}
 }
-
-func TestRoundLength(t *testing.T) {
-	for _, c := range [][2]float64{{256, 200}, {380, 500}, {0.7, 0.5}, {1300, 1000}, {8, 10}} {
-		if got := roundLength(c[0]); got != c[1] {
-			t.Errorf("roundLength(%g) = %g, want %g", c[0], got, c[1])
-		}
-	}
-}
