@@ -123,6 +123,17 @@ func (s *Scenario) shearTruth(startS, endS, vUMPerS, nominalPerS float64) summar
 	} else {
 		sp.Bands = s.bandsTruth(vUMPerS)
 	}
+	// Navier slip lengths: each slip over the shear rate of the band at
+	// its wall (dv/dy between plates; in a Couette cell, whose true rate
+	// at a wall is r d(v/r)/dr, the mean rate stands in).
+	if n := len(sp.Bands); n > 0 && s.Geometry.Kind != geometry.Couette {
+		if r0 := float64(sp.Bands[0].RatePerS); r0 != 0 {
+			sp.SlipLengthStationaryUM = summary.Num(slipS / r0)
+		}
+		if r1 := float64(sp.Bands[n-1].RatePerS); r1 != 0 {
+			sp.SlipLengthMovingUM = summary.Num(slipM / r1)
+		}
+	}
 	sp.Banded = len(sp.Bands) > 1
 	switch {
 	case sp.WallSlip && sp.Banded:

@@ -1,0 +1,10 @@
+package report_test
+
+import (
+	"testing"
+
+	"gaptrace/track/matleak"
+)
+
+// TestMain fails the package when a test leaves an OpenCV Mat open.
+func TestMain(m *testing.M) { matleak.Main(m) }
