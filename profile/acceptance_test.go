@@ -153,6 +153,14 @@ func TestBands(t *testing.T) {
 					t.Errorf("seed %d: bulk rate %.4f (truth %.4f), verdict %s (truth %s)", 200+seed,
 						float64(sp.BulkRatePerS), float64(tp.BulkRatePerS), sp.Verdict, tp.Verdict)
 				}
+				// With slip (the demo), Navier slip lengths over the rate
+				// of the band at each wall.
+				for _, c := range [][3]summary.Num{{sp.SlipLengthStationaryUM, sp.SlipLengthStationaryErrUM, tp.SlipLengthStationaryUM},
+					{sp.SlipLengthMovingUM, sp.SlipLengthMovingErrUM, tp.SlipLengthMovingUM}} {
+					if c[2] != 0 && !(math.Abs(float64(c[0]-c[2])) <= slipLengthPulls*float64(c[1])) {
+						t.Errorf("seed %d: slip length %.2f ± %.2f um, truth %.2f um", 200+seed, float64(c[0]), float64(c[1]), float64(c[2]))
+					}
+				}
 			}
 		})
 	}

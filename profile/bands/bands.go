@@ -69,6 +69,14 @@ func (m *Model) Cov(u1, u2 float64) float64 {
 	return mat.Inner(m.gradient(u1), m.cov, m.gradient(u2))
 }
 
+// CovRate returns the covariance of the model's velocity at u with the
+// rate of band k (from 0), in um/s times 1/s.
+func (m *Model) CovRate(u float64, k int) float64 {
+	e := mat.NewVecDense(m.cov.SymmetricDim(), nil)
+	e.SetVec(1+k, 1)
+	return mat.Inner(m.gradient(u), m.cov, e)
+}
+
 func (m *Model) gradient(u float64) *mat.VecDense {
 	k := len(m.Rates)
 	row := make([]float64, 2*k)

@@ -54,8 +54,11 @@ type Decomposition struct {
 	// BulkRatePerS is the mean rate of the sample, (v(H) - v(0)) / H from
 	// the fit, signed like the wall speed.
 	BulkRatePerS, BulkRateErrPerS float64
-	// Navier slip lengths b = v_s / bulk rate, um: positive when the fluid
-	// lags, in either direction.
+	// Navier slip lengths b = v_s / (shear rate of the fluid at the
+	// wall), um: the rate is that of the band touching the wall (times
+	// du/dy there in a Couette cell), not the mean rate, so that a slow
+	// band by a wall gives the long slip length it has. Positive when the
+	// fluid lags, in either direction.
 	SlipLengthStationaryUM, SlipLengthStationaryErrUM float64
 	SlipLengthMovingUM, SlipLengthMovingErrUM         float64
 	// SlipFraction is (V - bulk rate * H) / V.
@@ -115,9 +118,8 @@ func Decompose(bins []layers.Bin, g geometry.Geometry, wallSpeedUMPerS float64, 
 	dvErr := math.Sqrt(math.Max(0, m.Cov(0, 0)+m.Cov(h, h)-2*m.Cov(0, h)))
 	d.BulkRatePerS, d.BulkRateErrPerS = dv/h, dvErr/h
 	d.SlipFraction, d.SlipFractionErr = (v-dv)/v, dvErr/math.Abs(v)
-	rate := d.BulkRatePerS
-	d.SlipLengthStationaryUM, d.SlipLengthStationaryErrUM = ratioErr(d.SlipStationaryUMPerS, d.SlipStationaryErrUMPerS, rate, d.BulkRateErrPerS)
-	d.SlipLengthMovingUM, d.SlipLengthMovingErrUM = ratioErr(d.SlipMovingUMPerS, d.SlipMovingErrUMPerS, rate, d.BulkRateErrPerS)
+	d.SlipLengthStationaryUM, d.SlipLengthStationaryErrUM = slipLength(m, g, 0, 0, d.SlipStationaryUMPerS, d.SlipStationaryErrUMPerS, 1)
+	d.SlipLengthMovingUM, d.SlipLengthMovingErrUM = slipLength(m, g, h, len(m.Rates)-1, d.SlipMovingUMPerS, d.SlipMovingErrUMPerS, -1)
 	if math.IsNaN(v) {
 		// Unknown wall speed: the moving wall's slip and the slip fraction
 		// stay unknown; the stationary wall's slip is judged against the
@@ -158,14 +160,60 @@ func significant(s, e, v float64) bool {
 	return math.Abs(s) > SlipSigma*e && math.Abs(s) > MinSlipFraction*math.Abs(v)
 }
 
-// ratioErr returns a/b and its first-order error (errors taken independent).
-func ratioErr(a, ea, b, eb float64) (float64, float64) {
-	if b == 0 {
+// slipLength returns the Navier slip length b = s / rate at the wall at u
+// (0 or H) and its first-order error: s is the slip velocity there with
+// error se, the rate the fitted profile's shear rate at the wall (see
+// wallRate), from band k next to the wall. The slip is sign times the
+// fluid's velocity at the wall plus a constant (the wall speed); its
+// covariances with the rate come from the fit's.
+func slipLength(m *bands.Model, g geometry.Geometry, u float64, k int, s, se, sign float64) (float64, float64) {
+	if math.IsNaN(s) {
 		return math.NaN(), math.NaN()
 	}
-	r := a / b
-	return r, math.Hypot(ea/b, r*eb/b)
+	vw := m.At(u)
+	alpha, beta := wallRate(g, u)
+	// rate = alpha vw + beta' R with beta' = beta - alpha u (the band's
+	// velocity at u = 0 is vw - R u).
+	bp := beta - alpha*u
+	r := alpha*vw + bp*m.Rates[k]
+	if r == 0 {
+		return math.NaN(), math.NaN()
+	}
+	b := s / r
+	vv, vr, rr := m.Cov(u, u), m.CovRate(u, k), m.RateErrs[k]*m.RateErrs[k]
+	a := sign - b*alpha // db = (a dvw - b bp dR) / r
+	return b, math.Sqrt(math.Max(0, a*a*vv+b*b*bp*bp*rr-2*a*b*bp*vr)) / math.Abs(r)
 }
+
+// wallRate returns alpha and beta such that the shear rate at the wall at
+// u (0 or H) of a profile v = c + R u in the Newtonian coordinate is
+// alpha c + beta R, signed like dv/dy. Between plates (and for cones and
+// parallel plates at the rim) it is dv/dy = R. In a Couette cell the shear
+// rate is r d(v/r)/dr (Bird, Stewart & Lightfoot 2002, Transport
+// Phenomena, table B.1; from memory), taken along y: with u = H A (r/Rs -
+// Rs/r), A = 1 / (Rm/Rs - Rs/Rm), for the stationary and moving radii Rs
+// and Rm, it is -c s/r + R H A 2 Rs s / r^2 at the wall's radius r, where
+// s = dr/dy is +1 when the inner cylinder stands still and -1 otherwise.
+func wallRate(g geometry.Geometry, u float64) (alpha, beta float64) {
+	if g.Kind != geometry.Couette {
+		return 0, 1
+	}
+	rm := g.RotatingRadiusUM()
+	in, out := g.InnerRadiusMM*umPerMM, g.OuterRadiusMM*umPerMM
+	rs, s := in, 1.0
+	if math.Abs(rm-in) < math.Abs(rm-out) {
+		rs, s = out, -1
+	}
+	r := rs
+	if u > 0 {
+		r = rm
+	}
+	a := 1 / (rm/rs - rs/rm)
+	return -s / r, g.Gap() * a * 2 * rs * s / (r * r)
+}
+
+// umPerMM converts the geometry's radii in mm to um.
+const umPerMM = 1000
 
 // FitAt returns the fitted velocity at height yUM and its standard error,
 // in um/s.

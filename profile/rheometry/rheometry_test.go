@@ -84,3 +84,51 @@ func TestDecomposeErrors(t *testing.T) {
 		t.Error("no layers accepted")
 	}
 }
+
+// Navier's slip condition v_s = b * (shear rate at the wall) (Navier 1823;
+// Lauga, Brenner & Stone 2007, Handbook of Experimental Fluid Mechanics,
+// ch. 19; from memory): the rate is the fluid's own next to each wall, not
+// the mean rate. Two bands between plates, and a Couette cell, where the
+// shear rate r d(v/r)/dr is differentiated here numerically from the
+// profile itself.
+func TestSlipLengthAtWallRate(t *testing.T) {
+	near := func(a, b float64) bool { return math.Abs(a-b) < 1e-6*math.Max(1, math.Abs(b)) }
+	// Plates: 50 um/s of slip under a band of 2.5/s up to 300 um, then
+	// 0.5/s up to 800 um, and 200 um/s of slip at the moving wall.
+	plates := geometry.Geometry{Kind: geometry.Plates, GapUM: 800}
+	v := func(y float64) float64 { return 50 + 2.5*math.Min(y, 300) + 0.5*math.Max(0, y-300) }
+	wall := v(800) + 200
+	d, err := Decompose(bins(800, v), plates, wall, Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !near(d.SlipLengthStationaryUM, 50/2.5) || !near(d.SlipLengthMovingUM, 200/0.5) || !(d.SlipLengthStationaryErrUM > 0) {
+		t.Errorf("plates, two bands: slip lengths %g ± %g, %g ± %g um, want 20 and 400", d.SlipLengthStationaryUM,
+			d.SlipLengthStationaryErrUM, d.SlipLengthMovingUM, d.SlipLengthMovingErrUM)
+	}
+	// Couette: either cylinder rotating at 1000 um/s, 100 um/s of slip at
+	// the stationary wall and 150 um/s at the moving one.
+	for _, rot := range []string{geometry.InnerRotates, geometry.OuterRotates} {
+		g := geometry.Geometry{Kind: geometry.Couette, InnerRadiusMM: 5, OuterRadiusMM: 6, Rotating: rot}
+		h := g.Gap()
+		prof := func(y float64) float64 { return 100 + g.Reference(y, 1000-100-150) }
+		radius := func(y float64) float64 { // y from the stationary wall
+			if rot == geometry.InnerRotates {
+				return 6000 - y
+			}
+			return 5000 + y
+		}
+		rate := func(y float64) float64 { // r d(v/r)/dy, signed like dv/dy
+			const dy = 1e-3
+			return radius(y) * (prof(y+dy)/radius(y+dy) - prof(y-dy)/radius(y-dy)) / (2 * dy)
+		}
+		d, err := Decompose(bins(h, prof), g, 1000, Options{})
+		if err != nil {
+			t.Fatal(err)
+		}
+		bs, bm := 100/rate(0), 150/rate(h)
+		if math.Abs(d.SlipLengthStationaryUM/bs-1) > 1e-5 || math.Abs(d.SlipLengthMovingUM/bm-1) > 1e-5 {
+			t.Errorf("Couette, %s rotating: slip lengths %g, %g um, want %g, %g", rot, d.SlipLengthStationaryUM, d.SlipLengthMovingUM, bs, bm)
+		}
+	}
+}
