@@ -249,3 +249,27 @@ func checkBadInput(t *testing.T, code int, stderr, want string) {
 		t.Errorf("message %q does not mention %q", last, want)
 	}
 }
+
+// TestStages runs the stage commands one after the other, track then
+// profile, on a recording whose moving wall travels to -x of the image:
+// their summary must agree with the truth as run's does.
+func TestStages(t *testing.T) {
+	exp, video, want := renderScenario(t, "slip", 2, func(s *synth.Scenario) { s.FlowSign = -1 })
+	out := filepath.Join(t.TempDir(), "stages")
+	if code, errs := runGaptrace("track", "-e", exp, "-o", out, video); code != 0 {
+		t.Fatalf("track: exit %d: %s", code, errs)
+	}
+	for _, f := range []string{"calibration.json", "tracks.csv"} {
+		if _, err := os.Stat(filepath.Join(out, f)); err != nil {
+			t.Fatalf("track wrote no %s", f)
+		}
+	}
+	if code, errs := runGaptrace("profile", "-e", exp, "-o", out, filepath.Join(out, "tracks.csv")); code != 0 {
+		t.Fatalf("profile: exit %d: %s", code, errs)
+	}
+	got, err := summary.Read(filepath.Join(out, "summary.json"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	compareSummaries(t, got, want)
+}

@@ -32,22 +32,27 @@ func runTrack(args []string, stderr io.Writer) error {
 	if err := ensureDir(*outDir); err != nil {
 		return err
 	}
-	removeStale(*outDir, "tracks.csv")
+	removeStale(*outDir, "tracks.csv", "calibration.json")
 	c := &chain{expPath: *expPath, exp: exp, input: fs.Arg(0), progress: *prog, stderr: stderr}
 	med, err := c.calibrate()
 	if err != nil {
 		return err
 	}
 	med.Close()
-	if err := writeCalibJSON(filepath.Join(*outDir, "calibration.json"), c.cal); err != nil {
-		return err
-	}
 	dets, err := c.detectAll()
 	if err != nil {
 		return err
 	}
 	pts, st, err := c.linkAll(dets)
 	if err != nil {
+		return err
+	}
+	// The direction of the flow comes from the tracks by the moving wall.
+	_, warnings := c.detectPhases(pts, len(dets))
+	for _, w := range append(c.cal.Warnings, warnings...) {
+		fmt.Fprintf(stderr, "track: warning: %s\n", w)
+	}
+	if err := writeCalibJSON(filepath.Join(*outDir, "calibration.json"), c.cal); err != nil {
 		return err
 	}
 	if err := writeTracks(filepath.Join(*outDir, "tracks.csv"), pts); err != nil {
