@@ -49,8 +49,10 @@ type Options struct {
 	// Phases, when not nil, is the time line to use instead of the one
 	// derived from the motion program (for instance phases found in the
 	// video, calib/phases). A shear phase takes the wall speed of the
-	// program step it overlaps; without one the wall speed is unknown and
-	// what depends on it is null.
+	// program step it overlaps; without one the wall speed is taken as the
+	// fluid's at the moving wall (with a warning), and the slip there is
+	// null. The end of a shear phase whose source is not "experiment" is
+	// placed where the tracks stop (cessation.RefineStop).
 	Phases []summary.Phase
 	Seed   uint64
 }
@@ -430,7 +432,9 @@ func (r *Result) refineStops(ts []velocity.Track, steps []experiment.Step, dt, s
 			r.Warnings = append(r.Warnings, fmt.Sprintf("the stop at %.4g s is kept as given: %v", ph.EndS, err))
 			continue
 		}
-		r.Warnings = append(r.Warnings, fmt.Sprintf("the stop given at %.4g s (%s) is placed at %.4f s, where the tracks stop", ph.EndS, ph.Source, stop))
+		if math.Abs(stop-ph.EndS) > stopNoteFrames*dt {
+			r.Warnings = append(r.Warnings, fmt.Sprintf("the stop given at %.4g s (%s) is placed at %.4f s, where the tracks stop", ph.EndS, ph.Source, stop))
+		}
 		r.Phases[i].EndS, st.EndS = stop, stop
 		if !math.IsNaN(st.RatePerS) {
 			st.Strain = st.RatePerS * st.DurationS()
@@ -440,6 +444,10 @@ func (r *Result) refineStops(ts []velocity.Track, steps []experiment.Step, dt, s
 		}
 	}
 }
+
+// stopNoteFrames is the least move of a stop, in frames, worth a warning:
+// less is within what a detection in the video promises.
+const stopNoteFrames = 0.25
 
 // sourceExperiment is the phase source of times taken from the experiment
 // file's motion program.
