@@ -13,6 +13,7 @@ import (
 	"fmt"
 	"math"
 	"slices"
+	"sort"
 
 	"gaptrace/track/tracks"
 )
@@ -245,20 +246,16 @@ type Sample struct {
 func Samples(ts []Track, rule LagRule, sigmaUM, dtS, t0S, t1S float64) []Sample {
 	var out []Sample
 	for _, t := range ts {
+		// Points are in frame order, so in time order: the interval's
+		// points are found by bisection, which keeps many short intervals
+		// (the map's windows) cheap.
 		p := t.Points
-		lo, hi := -1, -1
-		for i := range p {
-			if p[i].TS >= t0S && p[i].TS <= t1S {
-				if lo < 0 {
-					lo = i
-				}
-				hi = i
-			}
-		}
-		if lo < 0 || hi == lo {
+		lo := sort.Search(len(p), func(i int) bool { return p[i].TS >= t0S })
+		hi := sort.Search(len(p), func(i int) bool { return p[i].TS > t1S })
+		if hi-lo < 2 {
 			continue
 		}
-		p = p[lo : hi+1]
+		p = p[lo:hi]
 		first, last := p[0], p[len(p)-1]
 		v := (last.XUM - first.XUM) / (last.TS - first.TS)
 		// No longer than half the track's span here, so that a slow
