@@ -29,6 +29,13 @@ const (
 	searchHalfPx    = 2.5  // y0 is searched this far from the coarse wall
 	searchStepPx    = 0.2  // grid step of the y0 search before golden-section refinement
 	goldenIter      = 25   // golden-section steps: the bracket shrinks to 1e-6 px
+	// The width refinements move the widths by at most sigmaRounds *
+	// sigmaStepPx, which moves a strip's best y0 by a fraction of that, so
+	// they search y0 within warmHalfPx of where it was at their start.
+	// warmGoldenIter steps shrink the bracket to 4e-4 px, where the
+	// residual, quadratic about its minimum, is within 1e-6 of it.
+	warmHalfPx     = 0.6
+	warmGoldenIter = 15
 	sigmaMinPx      = 0.2  // blur and line widths tried for the wall model, px
 	sigmaMaxPx      = 2.05 //
 	sigmaStepPx     = 0.1  //
@@ -58,44 +65,90 @@ type wallModel struct {
 	se, sl float64
 	line   bool    // with the reflection term
 	box    float64 // width of the box each sample integrates over, px
-	// Tables of the step and line bases against u, for the widths in key.
-	key              [4]float64
+	// Tables of the step and line bases against u, for the widths and box
+	// in stepKey and lineKey.
+	stepKey, lineKey [2]float64
 	tabStep, tabLine []float64
 	rows             []float64 // y of each sample
 	vals             []float64 // profile values
+	sumV, sumVV      float64   // sum and sum of squares of vals
+	// hint[i], when not nil, is strip i's wall position found at the
+	// start of a width refinement (NaN: none), where total searches.
+	hint []float64
+}
+
+// setHints records each strip's wall position for the model's current
+// widths, for the width refinement that follows (nil profs clears them).
+func (m *wallModel) setHints(w *Wall, profs []stripProfile) {
+	if profs == nil {
+		m.hint = nil
+		return
+	}
+	m.hint = make([]float64, len(profs))
+	for i, p := range profs {
+		m.hint[i] = math.NaN()
+		if yc := w.YAt(p.xPx); m.window(p, yc) {
+			m.hint[i], _, _, _ = m.locate(yc)
+		}
+	}
+}
+
+// clone returns a copy of m with its own tables, for another goroutine or
+// another set of widths.
+func (m *wallModel) clone() *wallModel {
+	c := *m
+	c.tabStep, c.tabLine, c.rows, c.vals, c.hint = nil, nil, nil, nil, nil
+	return &c
 }
 
 // fit returns the least-squares levels and the residual sum of squares for
 // a wall at y0.
 func (m *wallModel) fit(y0 float64) (a, b, c, sse float64) {
-	// Normal equations of the 3-term linear model.
-	var s [3][3]float64
-	var r [3]float64
-	if !m.line {
-		s[2][2] = 1 // c = 0
-	}
 	m.tables()
+	// Normal equations of the linear model 1, step, line: only the sums
+	// that depend on y0 are accumulated (the row count, the sum and the
+	// sum of squares of the values are the window's).
+	var s01, s02, s11, s12, s22, r1, r2 float64
 	for i, y := range m.rows {
-		f := [3]float64{1, 0, 0}
-		f[1], f[2] = m.basis(y - y0)
-		for p := 0; p < 3; p++ {
-			for q := 0; q < 3; q++ {
-				s[p][q] += f[p] * f[q]
-			}
-			r[p] += f[p] * m.vals[i]
+		f1, f2 := m.basis(y - y0)
+		v := m.vals[i]
+		s01 += f1
+		s11 += f1 * f1
+		r1 += f1 * v
+		if m.line {
+			s02 += f2
+			s12 += f1 * f2
+			s22 += f2 * f2
+			r2 += f2 * v
 		}
 	}
-	x, ok := solve3(s, r)
-	if !ok {
-		return 0, 0, 0, math.Inf(1)
+	// The level a is eliminated by centring: a = mean(v) - b mean(step) -
+	// c mean(line), and b, c solve the centred 2x2 system (c = 0 without
+	// the reflection term).
+	n := float64(len(m.rows))
+	c11 := s11 - s01*s01/n
+	q1 := r1 - s01*m.sumV/n
+	svv := m.sumVV - m.sumV*m.sumV/n
+	if m.line {
+		c12 := s12 - s01*s02/n
+		c22 := s22 - s02*s02/n
+		q2 := r2 - s02*m.sumV/n
+		det := c11*c22 - c12*c12
+		if !(det > solveTiny*c11*c22) {
+			return 0, 0, 0, math.Inf(1)
+		}
+		b = (q1*c22 - c12*q2) / det
+		c = (c11*q2 - c12*q1) / det
+		sse = svv - (b*q1 + c*q2)
+	} else {
+		if !(c11 > solveTiny) {
+			return 0, 0, 0, math.Inf(1)
+		}
+		b = q1 / c11
+		sse = svv - b*q1
 	}
-	// At the least-squares solution the residual is v.v - x.r.
-	var vv float64
-	for _, v := range m.vals {
-		vv += v * v
-	}
-	sse = math.Max(vv-(x[0]*r[0]+x[1]*r[1]+x[2]*r[2]), 0)
-	return x[0], x[1], x[2], sse
+	a = (m.sumV - b*s01 - c*s02) / n
+	return a, b, c, math.Max(sse, 0)
 }
 
 // Basis tables: the bases are sampled every 1/tabPerPx px over
@@ -106,30 +159,31 @@ const (
 	tabHalfPx = 11 // covers refineHalfPx + searchHalfPx + the box
 )
 
-// tables fills the basis tables for the model's current widths.
+// tables fills the basis tables for the model's current widths. The step
+// table depends on se and the box, the line table on sl and the box, so a
+// search over one width rebuilds only its own table.
 func (m *wallModel) tables() {
-	line := 0.0
-	if m.line {
-		line = 1
+	n := 2*tabHalfPx*tabPerPx + 1
+	hb := m.box / 2
+	if k := [2]float64{m.se, m.box}; k != m.stepKey || m.tabStep == nil {
+		m.stepKey = k
+		m.tabStep = growTab(m.tabStep, n)
+		for i := 0; i < n; i++ {
+			u := float64(i)/tabPerPx - tabHalfPx
+			// The step averaged over the sample's box: a pixel, widened
+			// by the wall's drift across the strip.
+			m.tabStep[i] = m.se / m.box * (psi((u+hb)/m.se) - psi((u-hb)/m.se))
+		}
 	}
-	key := [4]float64{m.se, m.sl, m.box, line}
-	if key == m.key && m.tabStep != nil {
+	if !m.line {
 		return
 	}
-	m.key = key
-	n := 2*tabHalfPx*tabPerPx + 1
-	m.tabStep = growTab(m.tabStep, n)
-	m.tabLine = growTab(m.tabLine, n)
-	hb := m.box / 2
-	for i := 0; i < n; i++ {
-		u := float64(i)/tabPerPx - tabHalfPx
-		// The step and the line averaged over the sample's box: a pixel,
-		// widened by the wall's drift across the strip.
-		m.tabStep[i] = m.se / m.box * (psi((u+hb)/m.se) - psi((u-hb)/m.se))
-		if m.line {
+	if k := [2]float64{m.sl, m.box}; k != m.lineKey || m.tabLine == nil {
+		m.lineKey = k
+		m.tabLine = growTab(m.tabLine, n)
+		for i := 0; i < n; i++ {
+			u := float64(i)/tabPerPx - tabHalfPx
 			m.tabLine[i] = phi((u+hb)/m.sl) - phi((u-hb)/m.sl)
-		} else {
-			m.tabLine[i] = 0
 		}
 	}
 }
@@ -144,16 +198,24 @@ func growTab(t []float64, n int) []float64 {
 // basis returns the step and line bases at u px from the wall.
 func (m *wallModel) basis(u float64) (step, line float64) {
 	x := (u + tabHalfPx) * tabPerPx
-	if x <= 0 {
-		return m.tabStep[0], m.tabLine[0]
-	}
 	last := len(m.tabStep) - 1
-	if x >= float64(last) {
-		return m.tabStep[last], m.tabLine[last]
+	if x <= 0 || x >= float64(last) {
+		i := 0
+		if x > 0 {
+			i = last
+		}
+		if m.line {
+			line = m.tabLine[i]
+		}
+		return m.tabStep[i], line
 	}
 	i := int(x)
 	f := x - float64(i)
-	return m.tabStep[i] + f*(m.tabStep[i+1]-m.tabStep[i]), m.tabLine[i] + f*(m.tabLine[i+1]-m.tabLine[i])
+	step = m.tabStep[i] + f*(m.tabStep[i+1]-m.tabStep[i])
+	if m.line {
+		line = m.tabLine[i] + f*(m.tabLine[i+1]-m.tabLine[i])
+	}
+	return step, line
 }
 
 // phi is the standard normal distribution function.
@@ -162,10 +224,23 @@ func phi(z float64) float64 { return 0.5 * math.Erfc(-z/math.Sqrt2) }
 // psi is the antiderivative z phi(z) + the normal density of phi.
 func psi(z float64) float64 { return z*phi(z) + math.Exp(-z*z/2)/math.Sqrt(2*math.Pi) }
 
-// locate finds the y0 near yc with the least residual.
+// locate finds the y0 near yc with the least residual: a grid over
+// +-searchHalfPx, then golden-section refinement of the best cell.
 func (m *wallModel) locate(yc float64) (y0, b, c, sse float64) {
+	return m.search(yc, searchHalfPx, goldenIter)
+}
+
+// locateNear is locate for a wall known to lie within warmHalfPx of hint,
+// with a coarser final bracket: it serves the width searches, which need
+// the least residual, not the position.
+func (m *wallModel) locateNear(hint float64) (y0, b, c, sse float64) {
+	return m.search(hint, warmHalfPx, warmGoldenIter)
+}
+
+// search is locate over +-halfPx with iter golden-section steps.
+func (m *wallModel) search(yc, halfPx float64, iter int) (y0, b, c, sse float64) {
 	best, bestSSE := yc, math.Inf(1)
-	for d := -searchHalfPx; d <= searchHalfPx+1e-9; d += searchStepPx {
+	for d := -halfPx; d <= halfPx+1e-9; d += searchStepPx {
 		if _, _, _, e := m.fit(yc + d); e < bestSSE {
 			best, bestSSE = yc+d, e
 		}
@@ -175,7 +250,7 @@ func (m *wallModel) locate(yc float64) (y0, b, c, sse float64) {
 	c, d := hi-g*(hi-lo), lo+g*(hi-lo)
 	_, _, _, fc := m.fit(c)
 	_, _, _, fd := m.fit(d)
-	for i := 0; i < goldenIter; i++ {
+	for i := 0; i < iter; i++ {
 		if fc < fd {
 			hi, d, fd = d, c, fc
 			c = hi - g*(hi-lo)
@@ -191,40 +266,11 @@ func (m *wallModel) locate(yc float64) (y0, b, c, sse float64) {
 	return y0, b, c, sse
 }
 
-// solve3 solves the 3x3 system s x = r by Gaussian elimination with partial
-// pivoting.
-func solve3(s [3][3]float64, r [3]float64) ([3]float64, bool) {
-	const tiny = 1e-12
-	for col := 0; col < 3; col++ {
-		p := col
-		for i := col + 1; i < 3; i++ {
-			if math.Abs(s[i][col]) > math.Abs(s[p][col]) {
-				p = i
-			}
-		}
-		if math.Abs(s[p][col]) < tiny {
-			return [3]float64{}, false
-		}
-		s[col], s[p] = s[p], s[col]
-		r[col], r[p] = r[p], r[col]
-		for i := col + 1; i < 3; i++ {
-			f := s[i][col] / s[col][col]
-			for j := col; j < 3; j++ {
-				s[i][j] -= f * s[col][j]
-			}
-			r[i] -= f * r[col]
-		}
-	}
-	var x [3]float64
-	for i := 2; i >= 0; i-- {
-		v := r[i]
-		for j := i + 1; j < 3; j++ {
-			v -= s[i][j] * x[j]
-		}
-		x[i] = v / s[i][i]
-	}
-	return x, true
-}
+// solveTiny bounds the normal equations away from singular: a step
+// basis with less spread than this over the window (the wall far outside
+// it), or step and line bases collinear to this relative precision, leave
+// the levels undetermined and the fit is refused.
+const solveTiny = 1e-12
 
 // window fills the model's samples from a strip profile around yc; it
 // reports false when the window leaves the image.
@@ -234,9 +280,13 @@ func (m *wallModel) window(p stripProfile, yc float64) bool {
 		return false
 	}
 	m.rows, m.vals = m.rows[:0], m.vals[:0]
+	m.sumV, m.sumVV = 0, 0
 	for y := lo; y <= hi; y++ {
+		v := p.v[y]
 		m.rows = append(m.rows, float64(y))
-		m.vals = append(m.vals, p.v[y])
+		m.vals = append(m.vals, v)
+		m.sumV += v
+		m.sumVV += v * v
 	}
 	return true
 }
@@ -247,8 +297,10 @@ func refineWalls(r *Result, profs []stripProfile, opt Options) error {
 	// A pixel's box, widened by the wall's drift across a strip (the two
 	// boxes' convolution replaced by one box of the same variance).
 	box := func(w *Wall) float64 { return math.Hypot(1, w.Slope*float64(opt.StripPx)) }
-	mt := chooseModel(&r.Top, profs, box(&r.Top))
-	mb := chooseModel(&r.Bottom, profs, box(&r.Bottom))
+	// The two walls' models are chosen independently, on both cores.
+	var mt, mb *wallModel
+	both(func() { mt = chooseModel(&r.Top, profs, box(&r.Top)) },
+		func() { mb = chooseModel(&r.Bottom, profs, box(&r.Bottom)) })
 	if mt.line && mb.line {
 		shareWidths(&r.Top, &r.Bottom, mt, mb, profs)
 	}
@@ -279,16 +331,19 @@ func refineWalls(r *Result, profs []stripProfile, opt Options) error {
 // not), so the other wall's data settle it. Each wall's own widths start a
 // refinement of the summed residual; the better result is kept.
 func shareWidths(top, bottom *Wall, mt, mb *wallModel, profs []stripProfile) {
+	a, b := mt.clone(), mb.clone()
 	sum := func(se, sl float64) float64 {
-		a, b := *mt, *mb
 		a.se, a.sl, b.se, b.sl = se, sl, se, sl
-		ea, _, _ := a.total(top, profs, refineStride)
-		eb, _, _ := b.total(bottom, profs, refineStride)
+		var ea, eb float64
+		both(func() { ea, _, _ = a.total(top, profs, refineStride) },
+			func() { eb, _, _ = b.total(bottom, profs, refineStride) })
 		return ea + eb
 	}
 	bestSE, bestSL, bestSSE := mt.se, mt.sl, math.Inf(1)
 	for _, start := range [][2]float64{{mt.se, mt.sl}, {mb.se, mb.sl}} {
 		se, sl := start[0], start[1]
+		a.se, a.sl, b.se, b.sl = se, sl, se, sl
+		both(func() { a.setHints(top, profs) }, func() { b.setHints(bottom, profs) })
 		for round := 0; round < sigmaRounds; round++ {
 			se = goldenMin(se-sigmaStepPx, se+sigmaStepPx, func(v float64) float64 { return sum(v, sl) })
 			sl = goldenMin(sl-sigmaStepPx, sl+sigmaStepPx, func(v float64) float64 { return sum(se, v) })
@@ -298,6 +353,17 @@ func shareWidths(top, bottom *Wall, mt, mb *wallModel, profs []stripProfile) {
 		}
 	}
 	mt.se, mt.sl, mb.se, mb.sl = bestSE, bestSL, bestSE, bestSL
+}
+
+// both runs f and g at the same time and returns when both are done.
+func both(f, g func()) {
+	done := make(chan struct{})
+	go func() {
+		defer close(done)
+		g()
+	}()
+	f()
+	<-done
 }
 
 // chooseModel picks the model's widths, and whether it has the reflection
@@ -336,6 +402,7 @@ func chooseModel(w *Wall, profs []stripProfile, box float64) *wallModel {
 		best, bestSSE := c, math.Inf(1)
 		for _, c := range cells[:min(sigmaCandidates, len(cells))] {
 			m.se, m.sl = c.se, c.sl
+			m.setHints(w, profs)
 			for round := 0; round < sigmaRounds; round++ {
 				m.se = goldenMin(m.se-sigmaStepPx, m.se+sigmaStepPx, func(v float64) float64 { m.se = v; return all() })
 				m.sl = goldenMin(m.sl-sigmaStepPx, m.sl+sigmaStepPx, func(v float64) float64 { m.sl = v; return all() })
@@ -345,10 +412,14 @@ func chooseModel(w *Wall, profs []stripProfile, box float64) *wallModel {
 			}
 		}
 		m.se, m.sl = best.se, best.sl
+		m.setHints(w, nil)
 		return m
 	}
 	m.line = false
+	m.se = stepSE
+	m.setHints(w, profs)
 	m.se = goldenMin(stepSE-sigmaStepPx, stepSE+sigmaStepPx, func(v float64) float64 { m.se = v; return all() })
+	m.setHints(w, nil)
 	return m
 }
 
@@ -361,7 +432,12 @@ func (m *wallModel) total(w *Wall, profs []stripProfile, step int) (sse, lineFra
 		if !m.window(profs[i], yc) {
 			continue
 		}
-		_, b, c, e := m.locate(yc)
+		var b, c, e float64
+		if m.hint != nil && !math.IsNaN(m.hint[i]) {
+			_, b, c, e = m.locateNear(m.hint[i])
+		} else {
+			_, b, c, e = m.locate(yc)
+		}
 		es = append(es, e)
 		fr = append(fr, math.Abs(c)/math.Max(math.Abs(b), 1e-9))
 		mis = append(mis, math.Sqrt(e/float64(len(m.rows)))/math.Max(math.Abs(b), 1e-9))
