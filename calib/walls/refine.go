@@ -25,17 +25,17 @@ import (
 // the step's): then the reflection's odd-symmetric flanks fix y0. Otherwise
 // the wall is the centre of the step alone (c = 0).
 const (
-	refineHalfPx    = 6    // rows on each side of the coarse wall that the model sees
-	searchHalfPx    = 2.5  // y0 is searched this far from the coarse wall
-	searchStepPx    = 0.2  // grid step of the y0 search before golden-section refinement
-	goldenIter      = 25   // golden-section steps: the bracket shrinks to 1e-6 px
+	refineHalfPx = 6   // rows on each side of the coarse wall that the model sees
+	searchHalfPx = 2.5 // y0 is searched this far from the coarse wall
+	searchStepPx = 0.2 // grid step of the y0 search before golden-section refinement
+	goldenIter   = 25  // golden-section steps: the bracket shrinks to 1e-6 px
 	// The width refinements move the widths by at most sigmaRounds *
 	// sigmaStepPx, which moves a strip's best y0 by a fraction of that, so
 	// they search y0 within warmHalfPx of where it was at their start.
 	// warmGoldenIter steps shrink the bracket to 4e-4 px, where the
 	// residual, quadratic about its minimum, is within 1e-6 of it.
-	warmHalfPx     = 0.6
-	warmGoldenIter = 15
+	warmHalfPx      = 0.6
+	warmGoldenIter  = 15
 	sigmaMinPx      = 0.2  // blur and line widths tried for the wall model, px
 	sigmaMaxPx      = 2.05 //
 	sigmaStepPx     = 0.1  //
