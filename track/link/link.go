@@ -60,8 +60,10 @@ type Options struct {
 	// px; it is subtracted before linking. Frames past its end use zero.
 	CommonMode []flowprior.Shift
 	// MeasureCommonMode makes Link measure the common-mode motion from the
-	// tracks of its first pass (flowprior.CommonModeFromTracks) and add it
-	// to CommonMode for the final pass. The Linker ignores it.
+	// tracks of its first pass (flowprior.CommonModeFromTracks), keep its
+	// part across the flow and the part along the flow faster than
+	// JitterWindowFrames, and add it to CommonMode for the final pass when
+	// its RMS exceeds JitterMinRMSPx. The Linker ignores it.
 	MeasureCommonMode bool
 }
 

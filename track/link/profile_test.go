@@ -9,6 +9,7 @@ import (
 
 	"gaptrace/calib"
 	"gaptrace/calib/experiment"
+	"gaptrace/track/flowprior"
 	"gaptrace/track/synth"
 	"gaptrace/track/tracks"
 )
@@ -171,12 +172,18 @@ func TestLinkCommonMode(t *testing.T) {
 	}
 	// A steady drift cannot be told from flow by tracks (CommonModeFromTracks
 	// removes the linear trend), so the error is taken after removing the
-	// least-squares line from the difference to the truth.
+	// least-squares line from the difference to the truth; along the flow
+	// only the jitter's fast part is removed (jitterOnly), so the truth there
+	// is the rendered jitter less its own running median.
 	n := len(st.CommonMode)
+	truth := make([]flowprior.Shift, n)
+	for f := range truth {
+		truth[f].DXPx, truth[f].DYPx = sm.s.JitterAt(f)
+	}
+	truth = jitterOnly(truth, JitterWindowFrames)
 	ex, ey := make([]float64, n), make([]float64, n)
 	for f, sh := range st.CommonMode {
-		jx, jy := sm.s.JitterAt(f)
-		ex[f], ey[f] = sh.DXPx-jx, sh.DYPx-jy
+		ex[f], ey[f] = sh.DXPx-truth[f].DXPx, sh.DYPx-truth[f].DYPx
 	}
 	var se float64
 	for _, e := range [][]float64{ex, ey} {

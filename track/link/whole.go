@@ -2,6 +2,7 @@ package link
 
 import (
 	"math"
+	"sort"
 
 	"gaptrace/calib"
 	"gaptrace/track/flowprior"
@@ -21,7 +22,8 @@ const PriorWindowFrames = 50
 // tracks (flowprior.SeriesFromTracks) for the final pass. Without a
 // measurable prior it links on the tracks' own motion only. With
 // MeasureCommonMode, the common-mode motion measured on the first pass's
-// tracks is removed in the final pass; Stats.CommonMode holds what was
+// tracks (its fast part along the flow, jitterOnly) is removed in the final
+// pass when its RMS exceeds JitterMinRMSPx; Stats.CommonMode holds what was
 // removed.
 func Link(frames [][]Detection, cal *calib.Calibration, opt Options) ([]tracks.Point, Stats, error) {
 	if _, err := NewLinker(cal, opt); err != nil {
@@ -59,13 +61,16 @@ func Link(frames [][]Detection, cal *calib.Calibration, opt Options) ([]tracks.P
 			if err != nil {
 				return nil, Stats{}, err
 			}
-			for f := range cm {
-				if f < len(opt.CommonMode) {
-					cm[f].DXPx += opt.CommonMode[f].DXPx
-					cm[f].DYPx += opt.CommonMode[f].DYPx
+			cm = jitterOnly(cm, JitterWindowFrames)
+			if rx, ry := rmsShift(cm); math.Max(rx, ry) > JitterMinRMSPx {
+				for f := range cm {
+					if f < len(opt.CommonMode) {
+						cm[f].DXPx += opt.CommonMode[f].DXPx
+						cm[f].DYPx += opt.CommonMode[f].DYPx
+					}
 				}
+				opt.CommonMode = cm
 			}
-			opt.CommonMode = cm
 		}
 	}
 	pts, st, err := linkAll(frames, cal, opt)
@@ -88,6 +93,56 @@ func linkAll(frames [][]Detection, cal *calib.Calibration, opt Options) ([]track
 	}
 	rest, st := l.Close()
 	return append(out, rest...), st, nil
+}
+
+// JitterWindowFrames is the running-median window that splits the measured
+// common-mode motion along the flow into slow drift and frame-to-frame
+// jitter: camera vibration changes within a few frames, while a slow
+// uniform motion of the tracers along the flow cannot be told from wall slip
+// without a textured wall, and tracks measured during shear confound it with
+// the flow (it showed as a false uniform displacement after cessation).
+const JitterWindowFrames = 11
+
+// JitterMinRMSPx is the camera jitter worth removing, px RMS: below it the
+// shake is smaller than one tracer's localization noise at high SNR (about
+// 0.05 px, track/detect's TestLocalizationPrecision), and a correction would
+// mostly add the estimator's own error, which shows as a uniform
+// displacement after cessation.
+const JitterMinRMSPx = 0.05
+
+// rmsShift returns the root-mean-square common-mode shift along image x and
+// y, px.
+func rmsShift(cm []flowprior.Shift) (xPx, yPx float64) {
+	if len(cm) == 0 {
+		return 0, 0
+	}
+	for _, s := range cm {
+		xPx += s.DXPx * s.DXPx
+		yPx += s.DYPx * s.DYPx
+	}
+	n := float64(len(cm))
+	return math.Sqrt(xPx / n), math.Sqrt(yPx / n)
+}
+
+// jitterOnly keeps the whole common-mode motion across the flow (image y,
+// where the sample does not move) but only the part along the flow (image
+// x) that changes faster than a running median over window frames.
+func jitterOnly(cm []flowprior.Shift, window int) []flowprior.Shift {
+	out := make([]flowprior.Shift, len(cm))
+	buf := make([]float64, 0, window)
+	for i := range cm {
+		buf = buf[:0]
+		for k := max(0, i-window/2); k <= min(len(cm)-1, i+window/2); k++ {
+			buf = append(buf, cm[k].DXPx)
+		}
+		sort.Float64s(buf)
+		med := buf[len(buf)/2]
+		if len(buf)%2 == 0 {
+			med = (buf[len(buf)/2-1] + buf[len(buf)/2]) / 2
+		}
+		out[i] = flowprior.Shift{DXPx: cm[i].DXPx - med, DYPx: cm[i].DYPx}
+	}
+	return out
 }
 
 // Settings of MaxStepFor.
