@@ -12,6 +12,7 @@ import (
 	"gaptrace/calib/experiment"
 	"gaptrace/profile"
 	"gaptrace/profile/summary"
+	"gaptrace/track/frames"
 	"gaptrace/track/tracks"
 )
 
@@ -45,6 +46,21 @@ func (w *windowList) Set(v string) error {
 	}
 	*w = append(*w, profile.Window{Name: fmt.Sprintf("user%d", len(*w)+1), T0S: t0, T1S: t1})
 	return nil
+}
+
+// fpsOf returns the frame rate implied by the tracks' times, frame / t_s
+// of the latest point (0 when no point is past the first frame).
+func fpsOf(pts []tracks.Point) float64 {
+	var last tracks.Point
+	for _, p := range pts {
+		if p.Frame > last.Frame {
+			last = p
+		}
+	}
+	if last.Frame == 0 || !(last.TS > 0) {
+		return 0
+	}
+	return float64(last.Frame) / last.TS
 }
 
 // Files written by the profile stage.
@@ -103,7 +119,23 @@ func runProfile(args []string, stderr io.Writer) error {
 	if len(pts) == 0 {
 		return badInputf("%s: no detections", in)
 	}
-	r, err := profile.Analyze(pts, e, c, profile.Options{Bins: *bins, Windows: windows, Seed: *seed})
+	maxFrame := 0
+	for _, p := range pts {
+		maxFrame = max(maxFrame, p.Frame)
+	}
+	fps := e.Camera.FPS
+	if !(fps > 0) {
+		fps = fpsOf(pts)
+	}
+	// Without a motion program the phases come from the tracks beside the
+	// moving wall, as in run.
+	var detected []summary.Phase
+	var phaseWarnings []string
+	if len(e.Program()) == 0 && fps > 0 {
+		ch := &chain{exp: e, cal: c, info: frames.Info{FPS: fps}}
+		detected, phaseWarnings = ch.detectPhases(pts, maxFrame+1)
+	}
+	r, err := profile.Analyze(pts, e, c, profile.Options{Bins: *bins, Windows: windows, Seed: *seed, Phases: detected})
 	if err != nil {
 		return badInput(err)
 	}
@@ -111,11 +143,7 @@ func runProfile(args []string, stderr io.Writer) error {
 	s.Experiment = e.Name
 	s.Calibration = c
 	s.Tracking = profile.TrackingCounts(pts)
-	maxFrame := 0
-	for _, p := range pts {
-		maxFrame = max(maxFrame, p.Frame)
-	}
-	fps := e.Camera.FPS
+	s.Warnings = append(s.Warnings, phaseWarnings...)
 	if !(fps > 0) {
 		fps = 1 / r.FrameIntervalS
 	}
