@@ -56,9 +56,10 @@ type Bin struct {
 	// YUM is the mean height of the layer's samples (NaN when empty): the
 	// place to plot the value, which need not be the layer's centre.
 	YUM float64
-	// Value is the robust mean at YUM and Err its bootstrap standard error,
-	// in the unit of Obs.Value; both NaN when the layer has too few
-	// samples. The estimate is taken after removing the layer's own
+	// Value is the robust mean at YUM and Err its bootstrap standard error
+	// over tracks, corrected for the degrees of freedom the mean and the
+	// trend take (see dofFactor), in the unit of Obs.Value; both NaN when
+	// the layer has too few samples. The estimate is taken after removing the layer's own
 	// least-squares trend in height, Slope (unit of Value per um), so that
 	// the spread of heights inside the layer neither biases it nor
 	// inflates its error.
