@@ -17,7 +17,6 @@ import (
 	"gaptrace/calib/phases"
 	"gaptrace/profile/summary"
 	"gaptrace/track/detect"
-	"gaptrace/track/flowprior"
 	"gaptrace/track/frames"
 	"gaptrace/track/link"
 	"gaptrace/track/tracks"
@@ -192,22 +191,12 @@ func (c *chain) linkAll(dets [][]link.Detection) ([]tracks.Point, link.Stats, er
 		// of the image per frame.
 		v = 0.2 * float64(c.info.WidthPx) * c.cal.UMPerPx * c.info.FPS
 	}
+	// The camera's jitter is measured on the tracks of the linker's first
+	// pass and removed in its final pass (link.Options.MeasureCommonMode,
+	// which keeps only the fast part along the flow).
 	opt := link.Options{FPS: c.info.FPS, MaxStepPx: link.MaxStepFor(v, c.info.FPS, c.cal.UMPerPx),
-		GapFrames: link.DefaultGapFrames}
-	// A first pass without correction gives the tracks that the camera's
-	// common-mode motion is measured on; its slow part is dropped (see
-	// jitterOnly), then the final pass removes the rest.
+		GapFrames: link.DefaultGapFrames, MeasureCommonMode: !c.noJitter}
 	pts, st, err := link.Link(dets, c.cal, opt)
-	if err == nil && st.Tracks > 0 && !c.noJitter {
-		cm, cmErr := flowprior.CommonModeFromTracks(pts, c.cal, len(dets))
-		if cmErr == nil {
-			cm = jitterOnly(cm, jitterWindowFrames)
-			if rx, ry := rmsShift(cm); math.Max(rx, ry) > jitterMinRMSPx {
-				opt.CommonMode = cm
-				pts, st, err = link.Link(dets, c.cal, opt)
-			}
-		}
-	}
 	if err != nil {
 		return nil, st, err
 	}
@@ -293,53 +282,4 @@ func (c *chain) detectPhases(pts []tracks.Point, nFrames int) ([]summary.Phase, 
 		return nil, warn
 	}
 	return use, warn
-}
-
-// jitterWindowFrames is the running-median window that splits the measured
-// common-mode motion along the flow into slow drift and frame-to-frame
-// jitter: camera vibration changes within a few frames, while a slow
-// uniform motion of the tracers along the flow cannot be told from wall slip
-// without a textured wall, and tracks measured during shear confound it with
-// the flow.
-const jitterWindowFrames = 11
-
-// jitterMinRMSPx is the camera jitter worth removing: below it the shake is
-// smaller than one tracer's localization noise at high SNR (about 0.05 px,
-// track/detect's TestLocalizationPrecision), and a correction would mostly add
-// the estimator's own error, which shows as a uniform displacement after
-// cessation.
-const jitterMinRMSPx = 0.05
-
-// rmsShift returns the root-mean-square common-mode shift along x and y, px.
-func rmsShift(cm []flowprior.Shift) (xPx, yPx float64) {
-	if len(cm) == 0 {
-		return 0, 0
-	}
-	for _, s := range cm {
-		xPx += s.DXPx * s.DXPx
-		yPx += s.DYPx * s.DYPx
-	}
-	n := float64(len(cm))
-	return math.Sqrt(xPx / n), math.Sqrt(yPx / n)
-}
-
-// jitterOnly keeps the whole common-mode motion across the flow (image y,
-// where the sample does not move) but only the part along the flow that
-// changes faster than a running median over window frames.
-func jitterOnly(cm []flowprior.Shift, window int) []flowprior.Shift {
-	out := make([]flowprior.Shift, len(cm))
-	buf := make([]float64, 0, window)
-	for i := range cm {
-		buf = buf[:0]
-		for k := max(0, i-window/2); k <= min(len(cm)-1, i+window/2); k++ {
-			buf = append(buf, cm[k].DXPx)
-		}
-		sort.Float64s(buf)
-		med := buf[len(buf)/2]
-		if len(buf)%2 == 0 {
-			med = (buf[len(buf)/2-1] + buf[len(buf)/2]) / 2
-		}
-		out[i] = flowprior.Shift{DXPx: cm[i].DXPx - med, DYPx: cm[i].DYPx}
-	}
-	return out
 }
