@@ -17,6 +17,7 @@ package flowprior
 import (
 	"fmt"
 	"math"
+	"math/bits"
 	"sort"
 
 	"gaptrace/calib"
@@ -150,18 +151,76 @@ func binOf(yUM, gapUM float64, n int) int {
 // normally distributed values (Rousseeuw and Croux, 1993).
 const madScale = 1.4826
 
-// median returns the median of v, reordering v; NaN for no values.
+// median returns the median of v, reordering v; NaN for no values. It
+// selects rather than sorts: linear time on average.
 func median(v []float64) float64 {
-	if len(v) == 0 {
+	n := len(v)
+	if n == 0 {
 		return math.NaN()
 	}
-	sort.Float64s(v)
-	n := len(v)
+	hi := selectKth(v, n/2)
 	if n%2 == 1 {
-		return v[n/2]
+		return hi
 	}
-	return (v[n/2-1] + v[n/2]) / 2
+	// The lower middle value is the largest of those left of n/2.
+	lo := v[0]
+	for _, x := range v[1 : n/2] {
+		lo = math.Max(lo, x)
+	}
+	return (lo + hi) / 2
 }
+
+// selectKth reorders v so that v[k] holds the value it would hold sorted,
+// with no larger value before it and no smaller after, and returns it
+// (quickselect with a median-of-three pivot; it sorts a part whose
+// partitions stay lopsided, so the worst case stays n log n).
+func selectKth(v []float64, k int) float64 {
+	lo, hi := 0, len(v)-1
+	for budget := 2 * bits.Len(uint(len(v))); hi > lo; budget-- {
+		if budget == 0 || hi-lo < selectSortBelow {
+			sort.Float64s(v[lo : hi+1])
+			break
+		}
+		m := lo + (hi-lo)/2
+		if v[m] < v[lo] {
+			v[m], v[lo] = v[lo], v[m]
+		}
+		if v[hi] < v[lo] {
+			v[hi], v[lo] = v[lo], v[hi]
+		}
+		if v[hi] < v[m] {
+			v[hi], v[m] = v[m], v[hi]
+		}
+		p := v[m]
+		i, j := lo, hi
+		for i <= j {
+			for v[i] < p {
+				i++
+			}
+			for v[j] > p {
+				j--
+			}
+			if i <= j {
+				v[i], v[j] = v[j], v[i]
+				i++
+				j--
+			}
+		}
+		switch {
+		case k <= j:
+			hi = j
+		case k >= i:
+			lo = i
+		default:
+			return v[k]
+		}
+	}
+	return v[k]
+}
+
+// selectSortBelow is the part size below which selectKth sorts: insertion
+// sort beats partitioning on a few values.
+const selectSortBelow = 16
 
 // medianSpread returns the median of v and 1.4826 times its median absolute
 // deviation, reordering v.
