@@ -519,3 +519,41 @@ func TestNaturalOrder(t *testing.T) {
 		}
 	}
 }
+
+// nextOnly hides a source's Packets methods, so Median reads it by Next.
+type nextOnly struct{ Source }
+
+// TestMedianPackets checks that the median of an MJPEG video decoded on
+// several workers is the median of the same frames read one by one, also
+// when the range ends before maxFrames.
+func TestMedianPackets(t *testing.T) {
+	const w, h, n = 64, 48, 9
+	path := filepath.Join(t.TempDir(), "v.avi")
+	writeVideo(t, path, "MJPG", n, w, h)
+	for _, maxFrames := range []int{5, 100} {
+		var meds [2][]float32
+		for k, wrap := range []func(Source) Source{func(s Source) Source { return s }, func(s Source) Source { return nextOnly{s} }} {
+			s, err := Open(path, 0, All)
+			if err != nil {
+				t.Fatal(err)
+			}
+			if _, ok := wrap(s).(Packets); ok != (k == 0) {
+				t.Fatalf("wrapper %d: packets %v", k, ok)
+			}
+			m, err := Median(wrap(s), maxFrames)
+			s.Close()
+			if err != nil {
+				t.Fatal(err)
+			}
+			d, err := m.DataPtrFloat32()
+			if err != nil {
+				t.Fatal(err)
+			}
+			meds[k] = append([]float32(nil), d...)
+			m.Close()
+		}
+		if fmt.Sprint(meds[0]) != fmt.Sprint(meds[1]) {
+			t.Errorf("max %d frames: median from packets differs from the median by Next", maxFrames)
+		}
+	}
+}

@@ -19,7 +19,8 @@ import (
 // walls, reflections, dust and stuck particles, without the moving tracers.
 // To spread the frames over a long recording, open src with a Range whose
 // Step is the recording's length divided by maxFrames. Memory is maxFrames
-// times the frame size (one or two bytes per pixel).
+// times the frame size (one or two bytes per pixel). A Packets source
+// (Motion JPEG) is decoded on all cores.
 func Median(src Source, maxFrames int) (gocv.Mat, error) {
 	if maxFrames < 1 {
 		return gocv.NewMat(), fmt.Errorf("frames: median of %d frames: need at least 1", maxFrames)
@@ -33,41 +34,11 @@ func Median(src Source, maxFrames int) (gocv.Mat, error) {
 
 func median[T uint8 | uint16](src Source, info Info, maxFrames int, data func(*gocv.Mat) ([]T, error)) (gocv.Mat, error) {
 	nPx := info.WidthPx * info.HeightPx
-	n := maxFrames
-	if c := info.Frames; c > 0 && c < n {
-		n = c
+	stack, err := readStack(src, info, maxFrames, data)
+	if err != nil {
+		return gocv.NewMat(), err
 	}
-	// stack holds frame k of pixel p at p*maxFrames+k, so that the values of
-	// one pixel are contiguous for the selection.
-	stride := n
-	stack := make([]T, nPx*stride)
-	frame := gocv.NewMat()
-	defer frame.Close()
-	k := 0
-	for k < maxFrames {
-		i, err := src.Next(&frame)
-		if errors.Is(err, io.EOF) {
-			break
-		}
-		if err != nil {
-			return gocv.NewMat(), err
-		}
-		px, err := data(&frame)
-		if err != nil || len(px) != nPx {
-			return gocv.NewMat(), fmt.Errorf("frames: %s: frame %d: not a %dx%d %d-bit grey image", info.Path, i, info.WidthPx, info.HeightPx, info.BitDepth)
-		}
-		if k == stride { // more frames than the container said
-			grown := make([]T, nPx*maxFrames)
-			for p := 0; p < nPx; p++ {
-				copy(grown[p*maxFrames:], stack[p*stride:p*stride+stride])
-			}
-			stack, stride = grown, maxFrames
-		}
-		for p, v := range px {
-			stack[p*stride+k] = v
-		}
-		k++
-	}
+	k := len(stack)
 	if k == 0 {
 		return gocv.NewMat(), fmt.Errorf("frames: %s: median: %w in the range", info.Path, errEmpty)
 	}
@@ -88,21 +59,125 @@ func median[T uint8 | uint16](src Source, info Info, maxFrames int, data func(*g
 		wg.Add(1)
 		go func() {
 			defer wg.Done()
+			// One pixel's values gathered from the frames: k streams read
+			// in step, so every frame is read once, in order.
 			buf := make([]T, k)
-			if b8, ok := any(stack).([]uint8); ok {
-				for p := lo; p < hi; p++ {
-					dst[p] = medianU8(b8[p*stride : p*stride+k])
-				}
-				return
-			}
+			_, is8 := any(buf).([]uint8)
 			for p := lo; p < hi; p++ {
-				copy(buf, stack[p*stride:p*stride+k])
-				dst[p] = medianOf(buf)
+				for f, fr := range stack {
+					buf[f] = fr[p]
+				}
+				if is8 {
+					dst[p] = medianU8(any(buf).([]uint8))
+				} else {
+					dst[p] = medianOf(buf)
+				}
 			}
 		}()
 	}
 	wg.Wait()
 	return out, nil
+}
+
+// readStack reads at most maxFrames frames of src and returns a copy of
+// each frame's pixels, in reading order. A Packets source is decoded on all
+// cores.
+func readStack[T uint8 | uint16](src Source, info Info, maxFrames int, data func(*gocv.Mat) ([]T, error)) ([][]T, error) {
+	nPx := info.WidthPx * info.HeightPx
+	keep := func(m *gocv.Mat, i int) ([]T, error) {
+		px, err := data(m)
+		if err != nil || len(px) != nPx {
+			return nil, fmt.Errorf("frames: %s: frame %d: not a %dx%d %d-bit grey image", info.Path, i, info.WidthPx, info.HeightPx, info.BitDepth)
+		}
+		return append([]T(nil), px...), nil
+	}
+	var stack [][]T
+	if pk, ok := src.(Packets); ok {
+		return readPackets(pk, maxFrames, keep)
+	}
+	frame := gocv.NewMat()
+	defer frame.Close()
+	for len(stack) < maxFrames {
+		i, err := src.Next(&frame)
+		if errors.Is(err, io.EOF) {
+			break
+		}
+		if err != nil {
+			return nil, err
+		}
+		px, err := keep(&frame, i)
+		if err != nil {
+			return nil, err
+		}
+		stack = append(stack, px)
+	}
+	return stack, nil
+}
+
+// readPackets reads at most maxFrames packets of src and decodes them on
+// GOMAXPROCS workers, each with its own Mat; keep copies a decoded frame's
+// pixels. The first error in reading order is returned.
+func readPackets[T uint8 | uint16](src Packets, maxFrames int, keep func(*gocv.Mat, int) ([]T, error)) ([][]T, error) {
+	type job struct {
+		k, index int
+		packet   []byte
+	}
+	var (
+		out  [][]T
+		errs []error
+	)
+	jobs := make(chan job)
+	var mu sync.Mutex
+	put := func(k int, px []T, err error) {
+		mu.Lock()
+		defer mu.Unlock()
+		for len(out) <= k {
+			out, errs = append(out, nil), append(errs, nil)
+		}
+		out[k], errs[k] = px, err
+	}
+	var wg sync.WaitGroup
+	for w := 0; w < runtime.GOMAXPROCS(0); w++ {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			m := gocv.NewMat()
+			defer m.Close()
+			for j := range jobs {
+				if err := src.Decode(j.index, j.packet, &m); err != nil {
+					put(j.k, nil, err)
+					continue
+				}
+				px, err := keep(&m, j.index)
+				put(j.k, px, err)
+			}
+		}()
+	}
+	var readErr error
+	n := 0
+	for n < maxFrames {
+		i, pkt, err := src.NextPacket(nil)
+		if errors.Is(err, io.EOF) {
+			break
+		}
+		if err != nil {
+			readErr = err
+			break
+		}
+		jobs <- job{n, i, pkt}
+		n++
+	}
+	close(jobs)
+	wg.Wait()
+	for k := 0; k < n; k++ {
+		if errs[k] != nil {
+			return nil, errs[k]
+		}
+	}
+	if readErr != nil {
+		return nil, readErr
+	}
+	return out[:n], nil
 }
 
 // medianOf returns the median of v, reordering v.
