@@ -120,6 +120,21 @@ func (c *Calibration) ToGap(xPx, yPx float64) (xUM, yUM float64) {
 	return (dx*exx + dy*exy) * c.UMPerPx, (dx*eyx + dy*eyy) * c.UMPerPx
 }
 
+// GapMapper returns ToGap with the wall frame computed once, for mapping
+// many points with a calibration that does not change meanwhile: same
+// results, without recomputing the frame per point.
+func (c *Calibration) GapMapper() func(xPx, yPx float64) (xUM, yUM float64) {
+	ox, oy, exx, exy, eyx, eyy := c.frame()
+	d, s := c.Distortion, c.UMPerPx
+	return func(xPx, yPx float64) (float64, float64) {
+		if d != nil {
+			xPx, yPx = d.Undistort(xPx, yPx)
+		}
+		dx, dy := xPx-ox, yPx-oy
+		return (dx*exx + dy*exy) * s, (dx*eyx + dy*eyy) * s
+	}
+}
+
 // ToImage maps gap coordinates in um back to image pixels (through the
 // lens distortion when the calibration has one), for drawing overlays.
 func (c *Calibration) ToImage(xUM, yUM float64) (xPx, yPx float64) {

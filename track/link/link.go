@@ -160,6 +160,7 @@ type edge struct {
 // tracks plus the points of finished tracks not yet taken by Flush.
 type Linker struct {
 	cal      *calib.Calibration
+	toGap    func(xPx, yPx float64) (xUM, yUM float64) // cal.ToGap
 	opt      Options
 	searchPx float64
 	active   []*track
@@ -169,6 +170,7 @@ type Linker struct {
 	stats    Stats
 
 	// Buffers reused from frame to frame.
+	block   []tracks.Point // unused room for new tracks' points
 	p       []pos
 	curDets []Detection
 	g       grid
@@ -206,7 +208,7 @@ func NewLinker(cal *calib.Calibration, opt Options) (*Linker, error) {
 	if opt.MinPoints == 0 {
 		opt.MinPoints = 2
 	}
-	l := &Linker{cal: cal, opt: opt, searchPx: math.Min(opt.SearchPx, opt.MaxStepPx)}
+	l := &Linker{cal: cal, toGap: cal.GapMapper(), opt: opt, searchPx: math.Min(opt.SearchPx, opt.MaxStepPx)}
 	return l, nil
 }
 
@@ -252,12 +254,30 @@ func (l *Linker) Add(frame int, dets []Detection) error {
 		if l.dTaken[i] {
 			continue
 		}
-		t := &track{}
+		t := &track{pts: l.newPoints()}
 		l.append(t, frame, d, l.p[i])
 		l.active = append(l.active, t)
 	}
 	l.curDets = nil
 	return nil
+}
+
+// Point storage of new tracks: each starts with room for trackStartPoints
+// points cut from a shared block of blockTracks tracks' worth, so that most
+// tracks never grow their slice (a track lasts tens to hundreds of frames).
+const (
+	trackStartPoints = 16
+	blockTracks      = 64
+)
+
+// newPoints returns an empty point slice with room for trackStartPoints.
+func (l *Linker) newPoints() []tracks.Point {
+	if len(l.block) < trackStartPoints {
+		l.block = make([]tracks.Point, trackStartPoints*blockTracks)
+	}
+	p := l.block[:0:trackStartPoints]
+	l.block = l.block[trackStartPoints:]
+	return p
 }
 
 // retire ends the tracks that cannot be continued at frame or later.
@@ -276,7 +296,7 @@ func (l *Linker) retire(frame int) {
 
 // append adds a detection to a track.
 func (l *Linker) append(t *track, frame int, d Detection, p pos) {
-	xUM, yUM := l.cal.ToGap(p.XPx, p.YPx)
+	xUM, yUM := l.toGap(p.XPx, p.YPx)
 	t.pts = append(t.pts, tracks.Point{Track: tracks.Unlinked, Frame: frame, TS: float64(frame) / l.opt.FPS,
 		XPx: d.XPx, YPx: d.YPx, XUM: xUM, YUM: yUM, Brightness: d.Brightness, SizePx: d.SizePx})
 	t.push(frame, p.XPx, p.YPx)
@@ -303,7 +323,7 @@ func (l *Linker) finish(t *track) {
 func (l *Linker) predict(t *track) (vx, vy float64, ok bool, px, py float64, pok bool) {
 	n := t.newest()
 	if l.opt.Prior != nil {
-		_, yUM := l.cal.ToGap(t.hx[n], t.hy[n])
+		_, yUM := l.toGap(t.hx[n], t.hy[n])
 		px, py, pok = l.opt.Prior.Step(t.last, yUM)
 	}
 	if t.nh < 2 {
@@ -352,7 +372,7 @@ func (l *Linker) candidates(frame int) {
 		// the sample stops or starts: around the prior's and the
 		// motionless prediction, at a price.
 		for _, alt := range [2][3]float64{{px, py, b2f(pok)}, {0, 0, 1}} {
-			if alt[2] == 0 || math.Hypot(alt[0]-vx, alt[1]-vy)*float64(k) < r*altApart {
+			if ax, ay := alt[0]-vx, alt[1]-vy; alt[2] == 0 || (ax*ax+ay*ay)*float64(k*k) < r*r*altApart*altApart {
 				continue
 			}
 			l.near(ti, lx, ly, alt[0], alt[1], k, r, penalty+AltPenalty, first)

@@ -84,15 +84,20 @@ func linkAll(frames [][]Detection, cal *calib.Calibration, opt Options) ([]track
 	if err != nil {
 		return nil, Stats{}, err
 	}
-	var out []tracks.Point
+	// Every detection becomes one point: the output is sized once and the
+	// finished tracks are taken at the end.
+	n := 0
+	for _, ds := range frames {
+		n += len(ds)
+	}
+	l.done = make([]tracks.Point, 0, n)
 	for f, ds := range frames {
 		if err := l.Add(f, ds); err != nil {
 			return nil, Stats{}, err
 		}
-		out = append(out, l.Flush()...)
 	}
-	rest, st := l.Close()
-	return append(out, rest...), st, nil
+	out, st := l.Close()
+	return out, st, nil
 }
 
 // JitterWindowFrames is the running-median window that splits the measured
