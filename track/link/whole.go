@@ -20,7 +20,9 @@ const PriorWindowFrames = 50
 // detections alone (flowprior.SeriesFromDetections, windows of
 // PriorWindowFrames), a first linking pass with it, then a prior from those
 // tracks (flowprior.SeriesFromTracks) for the final pass. Without a
-// measurable prior it links on the tracks' own motion only. With
+// measurable prior it links on the tracks' own motion only. When the second
+// prior agrees with the first within PriorReusePx and no common-mode motion
+// is removed, the first pass is the result. With
 // MeasureCommonMode, the common-mode motion measured on the first pass's
 // tracks (its fast part along the flow, jitterOnly) is removed in the final
 // pass when its RMS exceeds JitterMinRMSPx; Stats.CommonMode holds what was
@@ -30,29 +32,33 @@ func Link(frames [][]Detection, cal *calib.Calibration, opt Options) ([]tracks.P
 		return nil, Stats{}, err
 	}
 	if opt.Prior == nil || opt.MeasureCommonMode {
-		pts := make([][]flowprior.Point, len(frames))
-		for f, ds := range frames {
-			var sh flowprior.Shift
-			if f < len(opt.CommonMode) {
-				sh = opt.CommonMode[f]
-			}
-			pts[f] = make([]flowprior.Point, len(ds))
-			for i, d := range ds {
-				pts[f][i] = flowprior.Point{XPx: d.XPx - sh.DXPx, YPx: d.YPx - sh.DYPx}
-			}
-		}
 		built := opt.Prior == nil
 		if built {
+			pts := make([][]flowprior.Point, len(frames))
+			for f, ds := range frames {
+				var sh flowprior.Shift
+				if f < len(opt.CommonMode) {
+					sh = opt.CommonMode[f]
+				}
+				pts[f] = make([]flowprior.Point, len(ds))
+				for i, d := range ds {
+					pts[f][i] = flowprior.Point{XPx: d.XPx - sh.DXPx, YPx: d.YPx - sh.DYPx}
+				}
+			}
 			if s, err := flowprior.SeriesFromDetections(pts, cal, flowprior.HistOptions{MaxStepPx: opt.MaxStepPx}, PriorWindowFrames); err == nil {
 				opt.Prior = s
 			}
 		}
-		first, _, err := linkAll(frames, cal, opt)
+		first, firstSt, err := linkAll(frames, cal, opt)
 		if err != nil {
 			return nil, Stats{}, err
 		}
+		// The final pass repeats the first unless the prior or the
+		// common-mode correction changes.
+		same := true
 		if built {
 			if s, err := flowprior.SeriesFromTracks(first, cal, flowprior.TrackOptions{}, len(frames), PriorWindowFrames); err == nil {
+				same = priorsAgree(opt.Prior, s, PriorReusePx)
 				opt.Prior = s
 			}
 		}
@@ -70,12 +76,61 @@ func Link(frames [][]Detection, cal *calib.Calibration, opt Options) ([]tracks.P
 					}
 				}
 				opt.CommonMode = cm
+				same = false
 			}
+		}
+		if same {
+			firstSt.CommonMode = opt.CommonMode
+			return first, firstSt, nil
 		}
 	}
 	pts, st, err := linkAll(frames, cal, opt)
 	st.CommonMode = opt.CommonMode
 	return pts, st, err
+}
+
+// PriorReusePx is how far, px per frame, the prior from the first pass's
+// tracks may differ from the prior the first pass was linked with, at every
+// height and window, for Link to keep the first pass as the final one: below
+// a detection's localization noise at high SNR (about 0.05 px,
+// track/detect's TestLocalizationPrecision), the change moves no prediction
+// by more than the noise already in it.
+const PriorReusePx = 0.05
+
+// priorsAgree reports whether the flow priors a and b give displacements
+// within tolPx of each other along both image axes, and know the same
+// heights, in every window. Both are interpolated linearly between their
+// bins, so comparing at every bin centre of either, in every window,
+// finds the largest difference.
+func priorsAgree(a, b flowprior.Field, tolPx float64) bool {
+	sa, ok1 := a.(*flowprior.Series)
+	sb, ok2 := b.(*flowprior.Series)
+	if !ok1 || !ok2 || len(sa.Start) != len(sb.Start) {
+		return false
+	}
+	for i, f := range sa.Start {
+		if sb.Start[i] != f {
+			return false
+		}
+		for _, s := range []*flowprior.Series{sa, sb} {
+			for _, p := range s.Profiles {
+				if p == nil {
+					continue
+				}
+				for k, y := range p.YUM {
+					if p.N[k] == 0 {
+						continue
+					}
+					ax, ay, oka := sa.Step(f, y)
+					bx, by, okb := sb.Step(f, y)
+					if oka != okb || math.Abs(ax-bx) > tolPx || math.Abs(ay-by) > tolPx {
+						return false
+					}
+				}
+			}
+		}
+	}
+	return true
 }
 
 // linkAll runs one Linker over all frames.
