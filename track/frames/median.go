@@ -243,25 +243,41 @@ func medianU8(v []uint8) float32 {
 	return (float32(kthU8(v, n/2-1)) + float32(hi)) / 2
 }
 
-// kthU8 returns the k-th smallest value of v (k from 0).
+// kthU8 returns the k-th smallest value of v (k from 0). Each histogram is
+// counted in two interleaved halves, so that runs of equal values (the
+// usual case: a pixel's level changes little from frame to frame) do not
+// make every increment wait for the previous one.
 func kthU8(v []uint8, k int) uint8 {
-	var coarse [16]int
-	for _, x := range v {
-		coarse[x>>4]++
+	var c0, c1 [16]int32
+	i := 0
+	for ; i+1 < len(v); i += 2 {
+		c0[v[i]>>4]++
+		c1[v[i+1]>>4]++
+	}
+	if i < len(v) {
+		c0[v[i]>>4]++
 	}
 	b := 0
-	for ; b < 15 && k >= coarse[b]; b++ {
-		k -= coarse[b]
+	for ; b < 15 && k >= int(c0[b]+c1[b]); b++ {
+		k -= int(c0[b] + c1[b])
 	}
-	var fine [16]int
-	for _, x := range v {
-		if int(x>>4) == b {
-			fine[x&15]++
+	var f0, f1 [16]int32
+	hb := uint8(b)
+	for i = 0; i+1 < len(v); i += 2 {
+		x, y := v[i], v[i+1]
+		if x>>4 == hb {
+			f0[x&15]++
+		}
+		if y>>4 == hb {
+			f1[y&15]++
 		}
 	}
+	if i < len(v) && v[i]>>4 == hb {
+		f0[v[i]&15]++
+	}
 	f := 0
-	for ; f < 15 && k >= fine[f]; f++ {
-		k -= fine[f]
+	for ; f < 15 && k >= int(f0[f]+f1[f]); f++ {
+		k -= int(f0[f] + f1[f])
 	}
 	return uint8(b<<4 | f)
 }
