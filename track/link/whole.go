@@ -56,17 +56,31 @@ func Link(frames [][]Detection, cal *calib.Calibration, opt Options) ([]tracks.P
 		// The final pass repeats the first unless the prior or the
 		// common-mode correction changes.
 		same := true
-		if built {
-			if s, err := flowprior.SeriesFromTracks(first, cal, flowprior.TrackOptions{}, len(frames), PriorWindowFrames); err == nil {
-				same = priorsAgree(opt.Prior, s, PriorReusePx)
-				opt.Prior = s
+		// The second prior and the common-mode motion both read the first
+		// pass only: they are measured at the same time.
+		var prior2 *flowprior.Series
+		var prior2Err error
+		done := make(chan struct{})
+		go func() {
+			defer close(done)
+			if built {
+				prior2, prior2Err = flowprior.SeriesFromTracks(first, cal, flowprior.TrackOptions{}, len(frames), PriorWindowFrames)
 			}
-		}
+		}()
+		var cm []flowprior.Shift
+		var cmErr error
 		if opt.MeasureCommonMode && len(frames) > 0 {
-			cm, err := flowprior.CommonModeFromTracks(first, cal, len(frames))
-			if err != nil {
-				return nil, Stats{}, err
-			}
+			cm, cmErr = flowprior.CommonModeFromTracks(first, cal, len(frames))
+		}
+		<-done
+		if built && prior2Err == nil {
+			same = priorsAgree(opt.Prior, prior2, PriorReusePx)
+			opt.Prior = prior2
+		}
+		if cmErr != nil {
+			return nil, Stats{}, cmErr
+		}
+		if cm != nil {
 			cm = jitterOnly(cm, JitterWindowFrames)
 			if rx, ry := rmsShift(cm); math.Max(rx, ry) > JitterMinRMSPx {
 				for f := range cm {
