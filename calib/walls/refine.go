@@ -72,6 +72,8 @@ type wallModel struct {
 	rows             []float64 // y of each sample
 	vals             []float64 // profile values
 	sumV, sumVV      float64   // sum and sum of squares of vals
+	// cache holds the tables built so far, by basis, width and box.
+	cache map[[3]float64][]float64
 	// hint[i], when not nil, is strip i's wall position found at the
 	// start of a width refinement (NaN: none), where total searches.
 	hint []float64
@@ -97,7 +99,7 @@ func (m *wallModel) setHints(w *Wall, profs []stripProfile) {
 // another set of widths.
 func (m *wallModel) clone() *wallModel {
 	c := *m
-	c.tabStep, c.tabLine, c.rows, c.vals, c.hint = nil, nil, nil, nil, nil
+	c.tabStep, c.tabLine, c.rows, c.vals, c.hint, c.cache = nil, nil, nil, nil, nil, nil
 	return &c
 }
 
@@ -163,36 +165,59 @@ const (
 // table depends on se and the box, the line table on sl and the box, so a
 // search over one width rebuilds only its own table.
 func (m *wallModel) tables() {
-	n := 2*tabHalfPx*tabPerPx + 1
-	hb := m.box / 2
 	if k := [2]float64{m.se, m.box}; k != m.stepKey || m.tabStep == nil {
 		m.stepKey = k
-		m.tabStep = growTab(m.tabStep, n)
-		for i := 0; i < n; i++ {
-			u := float64(i)/tabPerPx - tabHalfPx
-			// The step averaged over the sample's box: a pixel, widened
-			// by the wall's drift across the strip.
-			m.tabStep[i] = m.se / m.box * (psi((u+hb)/m.se) - psi((u-hb)/m.se))
-		}
+		m.tabStep = m.table(false, m.se)
 	}
 	if !m.line {
 		return
 	}
 	if k := [2]float64{m.sl, m.box}; k != m.lineKey || m.tabLine == nil {
 		m.lineKey = k
-		m.tabLine = growTab(m.tabLine, n)
-		for i := 0; i < n; i++ {
-			u := float64(i)/tabPerPx - tabHalfPx
-			m.tabLine[i] = phi((u+hb)/m.sl) - phi((u-hb)/m.sl)
-		}
+		m.tabLine = m.table(true, m.sl)
 	}
 }
 
-func growTab(t []float64, n int) []float64 {
-	if cap(t) < n {
-		return make([]float64, n)
+// tabCacheMax bounds the tables a model keeps: the width grids of
+// chooseModel repeat each of their 19 widths per basis, the golden-section
+// searches seldom repeat one.
+const tabCacheMax = 64
+
+// table returns the step (or, with line, the line) basis table for width
+// sigma and the model's box, from the model's cache when it was built
+// before. A returned table is never written again.
+func (m *wallModel) table(line bool, sigma float64) []float64 {
+	key := [3]float64{b2f(line), sigma, m.box}
+	if t, ok := m.cache[key]; ok {
+		return t
 	}
-	return t[:n]
+	n := 2*tabHalfPx*tabPerPx + 1
+	t := make([]float64, n)
+	hb := m.box / 2
+	for i := range t {
+		u := float64(i)/tabPerPx - tabHalfPx
+		if line {
+			t[i] = phi((u+hb)/sigma) - phi((u-hb)/sigma)
+		} else {
+			// The step averaged over the sample's box: a pixel, widened
+			// by the wall's drift across the strip.
+			t[i] = sigma / m.box * (psi((u+hb)/sigma) - psi((u-hb)/sigma))
+		}
+	}
+	if m.cache == nil {
+		m.cache = make(map[[3]float64][]float64)
+	}
+	if len(m.cache) < tabCacheMax {
+		m.cache[key] = t
+	}
+	return t
+}
+
+func b2f(b bool) float64 {
+	if b {
+		return 1
+	}
+	return 0
 }
 
 // basis returns the step and line bases at u px from the wall.
