@@ -263,17 +263,16 @@ func kthU8(v []uint8, k int) uint8 {
 	}
 	var f0, f1 [16]int32
 	hb := uint8(b)
+	// in is 1 for a value in the chosen sixteenth, else 0, without a
+	// branch: the values straddle the boundary unpredictably.
+	in := func(x uint8) int32 { return int32((uint32(x>>4^hb) - 1) >> 31) }
 	for i = 0; i+1 < len(v); i += 2 {
 		x, y := v[i], v[i+1]
-		if x>>4 == hb {
-			f0[x&15]++
-		}
-		if y>>4 == hb {
-			f1[y&15]++
-		}
+		f0[x&15] += in(x)
+		f1[y&15] += in(y)
 	}
-	if i < len(v) && v[i]>>4 == hb {
-		f0[v[i]&15]++
+	if i < len(v) {
+		f0[v[i]&15] += in(v[i])
 	}
 	f := 0
 	for ; f < 15 && k >= int(f0[f]+f1[f]); f++ {
