@@ -46,11 +46,16 @@ func renderScenario(t *testing.T, name string, seed int64, change ...func(*synth
 		f(sc)
 	}
 	dir := filepath.Join(t.TempDir(), "in")
-	tr, err := sc.Write(dir, synth.Output{Format: synth.FormatMJPEG})
+	// Video holds 8-bit frames only: 16-bit scenarios go to PNG frames.
+	format, input := synth.FormatMJPEG, filepath.Join(dir, "video.avi")
+	if sc.BitDepth == 16 {
+		format, input = synth.FormatPNG, filepath.Join(dir, synth.FramesDir)
+	}
+	tr, err := sc.Write(dir, synth.Output{Format: format})
 	if err != nil {
 		t.Fatal(err)
 	}
-	return filepath.Join(dir, synth.ExperimentFile), filepath.Join(dir, "video.avi"), tr.Summary
+	return filepath.Join(dir, synth.ExperimentFile), input, tr.Summary
 }
 
 // runGaptrace runs the command with args and returns its exit status and
@@ -75,6 +80,10 @@ func TestRunEndToEnd(t *testing.T) {
 		// The moving wall at the bottom of the image, travelling to -x: the
 		// gap coordinates must come out the same.
 		{"slip reversed", "slip", func(s *synth.Scenario) { s.FlowSign, s.MovingSide = -1, "bottom" }},
+		// Dark tracers on a bright field, 16-bit PNG frames, camera jitter.
+		{"dark", "dark", nil},
+		// The exact Newtonian Couette profile is homogeneous, not banded.
+		{"couette", "couette", nil},
 	}
 	for _, c := range cases {
 		t.Run(c.name, func(t *testing.T) {
