@@ -445,12 +445,21 @@ func TestMedian(t *testing.T) {
 // TestMedianU8 compares the counting median with sorting on random stacks.
 func TestMedianU8(t *testing.T) {
 	rng := rand.New(rand.NewPCG(1, 1))
-	for trial := 0; trial < 2000; trial++ {
-		n := 1 + rng.IntN(70)
+	for trial := 0; trial < 3000; trial++ {
+		// Up to 300 values anywhere in the range; the last trials are 255
+		// equal values at either end of it.
+		n := 1 + rng.IntN(300)
 		v := make([]uint8, n)
-		spread := 1 + rng.IntN(256)
+		spread, base := 1+rng.IntN(256), rng.IntN(256)
 		for i := range v {
-			v[i] = uint8(rng.IntN(spread))
+			v[i] = uint8(min(255, base+rng.IntN(spread)))
+		}
+		if trial >= 2998 {
+			v = make([]uint8, 255)
+			for i := range v {
+				v[i] = uint8(255 * (trial - 2998))
+			}
+			n = len(v)
 		}
 		s := append([]uint8(nil), v...)
 		slices.Sort(s)
