@@ -19,6 +19,7 @@ import (
 	"gaptrace/calib"
 	"gaptrace/calib/experiment"
 	"gaptrace/calib/geometry"
+	"gaptrace/calib/phases"
 	"gaptrace/profile/cessation"
 	"gaptrace/profile/layers"
 	"gaptrace/profile/rheometry"
@@ -180,7 +181,8 @@ func Analyze(pts []tracks.Point, e *experiment.Experiment, c *calib.Calibration,
 	}
 	r := &Result{NoiseUM: sigma, FrameIntervalS: dt, Warnings: append([]string{}, warn...)}
 	prog := e.Program()
-	r.Phases = Phases(prog, t0, t1)
+	// The recording ends one frame interval after its last point.
+	r.Phases = phases.FromProgram(prog, t1+dt)
 	steps := shearSteps(prog)
 	if o.Phases != nil {
 		r.Phases = slices.Clone(o.Phases)
@@ -477,40 +479,6 @@ func wallFromFluid(sp *summary.ShearPhase, sh *Shear, d *rheometry.Decomposition
 	return fmt.Sprintf("shear phase %d (%.4g-%.4g s): no motion program gives the wall speed, so it is taken as the fluid's speed at the moving wall, "+
 		"%.4g ± %.2g um/s from the tracers next to it: slip at the moving wall is not measured and the slip fraction counts the stationary wall only",
 		n, sp.StartS, sp.EndS, v, ve)
-}
-
-// Phases splits [t0S, t1S] by the motion program: rest before and between
-// shear steps (and during steps of zero speed), shear during each step, and
-// after_stop from the end of the last shear step to t1S.
-func Phases(p experiment.Program, t0S, t1S float64) []summary.Phase {
-	var out []summary.Phase
-	add := func(kind string, a, b float64) {
-		a, b = math.Max(a, t0S), math.Min(b, t1S)
-		if b > a {
-			out = append(out, summary.Phase{Kind: kind, StartS: a, EndS: b, Source: sourceExperiment})
-		}
-	}
-	last := -1
-	for i, s := range p {
-		if s.WallSpeedUMPerS != 0 {
-			last = i
-		}
-	}
-	if last < 0 {
-		add(summary.Rest, t0S, t1S)
-		return out
-	}
-	prev := t0S
-	for _, s := range p[:last+1] {
-		if s.WallSpeedUMPerS == 0 {
-			continue
-		}
-		add(summary.Rest, prev, s.StartS)
-		add(summary.Shear, s.StartS, s.EndS)
-		prev = s.EndS
-	}
-	add(summary.AfterStopKind, p[last].EndS, t1S)
-	return out
 }
 
 // localStrainHalfWidth is the half-width, in layers, of the local linear

@@ -25,12 +25,13 @@ const (
 // FromProgram returns the phases of a recording of durationS seconds under
 // the motion program: rest before the first step and between steps, shear
 // during each step, after_stop after the last one, each cut to the
-// recording.
+// recording. A step of zero wall speed is rest.
 func FromProgram(p experiment.Program, durationS float64) []summary.Phase {
-	starts := make([]float64, len(p))
-	ends := make([]float64, len(p))
-	for i, s := range p {
-		starts[i], ends[i] = s.StartS, s.EndS
+	var starts, ends []float64
+	for _, s := range p {
+		if s.RatePerS != 0 || s.WallSpeedUMPerS != 0 {
+			starts, ends = append(starts, s.StartS), append(ends, s.EndS)
+		}
 	}
 	return fromSegments(starts, ends, durationS, SourceExperiment)
 }

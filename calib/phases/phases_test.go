@@ -35,6 +35,8 @@ func TestFromProgram(t *testing.T) {
 			"rest 0-0.5, shear 0.5-1, rest 1-1.5, shear 1.5-2, after_stop 2-3"},
 		{"cut by the recording", ex(experiment.Segment{StartS: 0.5, EndS: 5, RatePerS: ptr(1)}), 3, "rest 0-0.5, shear 0.5-3"},
 		{"no motion", nil, 3, "rest 0-3"},
+		{"a step at rate zero is rest", ex(experiment.Segment{StartS: 0.5, EndS: 1, RatePerS: ptr(1)}, experiment.Segment{StartS: 1, EndS: 2, RatePerS: ptr(0)}), 3,
+			"rest 0-0.5, shear 0.5-1, after_stop 1-3"},
 	}
 	for _, c := range cases {
 		var parts []string
