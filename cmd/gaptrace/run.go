@@ -101,7 +101,7 @@ func runChain(o runOptions, stderr io.Writer) (*summary.Summary, error) {
 	}
 	s := summary.New()
 	s.Experiment = exp.Name
-	s.Input = summary.Input{Path: o.input, Frames: c.info.Frames, FPS: c.info.FPS, WidthPx: c.info.WidthPx, HeightPx: c.info.HeightPx}
+	s.Input = summary.Input{Path: o.input, Frames: len(dets), FPS: c.info.FPS, WidthPx: c.info.WidthPx, HeightPx: c.info.HeightPx}
 	s.Calibration = c.cal
 	s.Tracking = profile.TrackingCounts(pts)
 	s.Tracking.Detections = c.detections
