@@ -380,8 +380,7 @@ func CommonModeFromTracks(pts []tracks.Point, cal *calib.Calibration, frames int
 		piece int
 	}
 	var os []obs
-	type line struct{ ax, bx, ay, by float64 }
-	var pieces []line
+	nPieces := 0
 	pts = byTrack(pts)
 	for i := 0; i < len(pts); {
 		j := i
@@ -410,94 +409,66 @@ func CommonModeFromTracks(pts []tracks.Point, cal *calib.Calibration, frames int
 						continue
 					}
 					x, y := cal.ToImage(p.XUM, p.YUM)
-					os = append(os, obs{p.Frame, x, y, len(pieces)})
+					os = append(os, obs{p.Frame, x, y, nPieces})
 				}
-				pieces = append(pieces, line{})
+				nPieces++
 			}
 		}
 		i = j
 	}
-	jx, jy := make([]float64, frames), make([]float64, frames)
-	px, py := make([]float64, frames), make([]float64, frames) // the previous round's
-	// Sums for the least-squares lines, per piece.
-	type sums struct{ n, sf, sff, sx, sfx, sy, sfy float64 }
-	ps := make([]sums, len(pieces))
-	rx := make([][]float64, frames)
-	ry := make([][]float64, frames)
-	rms := make([]float64, len(pieces))
-	tmp := make([]float64, 0, len(pieces))
-	bad := make([]bool, len(pieces))
+	// The fit along x and along y is the same and independent, except for
+	// the choice of the pieces left out: each axis runs on its own
+	// goroutine. The per-piece sums of the frame numbers do not change.
+	nObs := len(os)
+	of, op := make([]int, nObs), make([]int, nObs)
+	for i, o := range os {
+		of[i], op[i] = o.f, o.piece
+	}
+	n, sf, sff := make([]float64, nPieces), make([]float64, nPieces), make([]float64, nPieces)
+	for _, o := range os {
+		f := float64(o.f)
+		n[o.piece]++
+		sf[o.piece] += f
+		sff[o.piece] += f * f
+	}
+	newAxis := func(coord func(o obs) float64) *cmAxis {
+		a := &cmAxis{of: of, op: op, n: n, sf: sf, sff: sff, v: make([]float64, nObs),
+			j: make([]float64, frames), prev: make([]float64, frames),
+			a: make([]float64, nPieces), b: make([]float64, nPieces),
+			s: make([]float64, nPieces), sfv: make([]float64, nPieces), r: make([][]float64, frames)}
+		for i, o := range os {
+			a.v[i] = coord(o)
+		}
+		return a
+	}
+	ax := newAxis(func(o obs) float64 { return o.x })
+	ay := newAxis(func(o obs) float64 { return o.y })
+	jx, jy := ax.j, ay.j
+	rms := make([]float64, nPieces)
+	tmp := make([]float64, 0, nPieces)
+	bad := make([]bool, nPieces)
 	for round := 0; round < commonRounds; round++ {
-		clear(ps)
-		for _, o := range os {
-			s := &ps[o.piece]
-			f := float64(o.f)
-			x, y := o.x-jx[o.f], o.y-jy[o.f]
-			s.n++
-			s.sf += f
-			s.sff += f * f
-			s.sx += x
-			s.sfx += f * x
-			s.sy += y
-			s.sfy += f * y
-		}
-		for k, s := range ps {
-			d := s.n*s.sff - s.sf*s.sf
-			if d == 0 {
-				pieces[k] = line{ax: s.sx / s.n, ay: s.sy / s.n}
-				continue
-			}
-			bx := (s.n*s.sfx - s.sf*s.sx) / d
-			by := (s.n*s.sfy - s.sf*s.sy) / d
-			pieces[k] = line{ax: (s.sx - bx*s.sf) / s.n, bx: bx, ay: (s.sy - by*s.sf) / s.n, by: by}
-		}
+		bothAxes(ax.fitLines, ay.fitLines)
 		if round > 0 {
 			// Leave out the pieces that do not move uniformly.
 			clear(rms)
-			for _, o := range os {
-				l := pieces[o.piece]
-				f := float64(o.f)
-				dx, dy := o.x-jx[o.f]-l.ax-l.bx*f, o.y-jy[o.f]-l.ay-l.by*f
-				rms[o.piece] += dx*dx + dy*dy
+			for i, k := range op {
+				f, fr := float64(of[i]), of[i]
+				dx := ax.v[i] - jx[fr] - ax.a[k] - ax.b[k]*f
+				dy := ay.v[i] - jy[fr] - ay.a[k] - ay.b[k]*f
+				rms[k] += dx*dx + dy*dy
 			}
 			for k := range rms {
-				rms[k] = math.Sqrt(rms[k] / math.Max(ps[k].n, 1))
+				rms[k] = math.Sqrt(rms[k] / math.Max(n[k], 1))
 			}
 			lim := pieceReject * median(append(tmp[:0], rms...))
 			for k := range bad {
 				bad[k] = rms[k] > lim
 			}
 		}
-		for f := range rx {
-			rx[f], ry[f] = rx[f][:0], ry[f][:0]
-		}
-		for _, o := range os {
-			if bad[o.piece] {
-				continue
-			}
-			l := pieces[o.piece]
-			f := float64(o.f)
-			rx[o.f] = append(rx[o.f], o.x-l.ax-l.bx*f)
-			ry[o.f] = append(ry[o.f], o.y-l.ay-l.by*f)
-		}
-		for f := range jx {
-			if len(rx[f]) >= minCommonPoints {
-				jx[f], jy[f] = median(rx[f]), median(ry[f])
-			} else {
-				jx[f], jy[f] = math.NaN(), math.NaN()
-			}
-		}
-		fillGaps(jx)
-		fillGaps(jy)
-		detrend(jx)
-		detrend(jy)
-		change := 0.0
-		for f := range jx {
-			change = math.Max(change, math.Max(math.Abs(jx[f]-px[f]), math.Abs(jy[f]-py[f])))
-		}
-		copy(px, jx)
-		copy(py, jy)
-		if round > 0 && change < commonSettledPx {
+		var cx, cy float64
+		bothAxes(func() { cx = ax.offsets(bad) }, func() { cy = ay.offsets(bad) })
+		if round > 0 && math.Max(cx, cy) < commonSettledPx {
 			break
 		}
 	}
@@ -535,6 +506,84 @@ const (
 	commonRounds    = 12
 	commonSettledPx = 2e-3
 )
+
+// cmAxis is the common-mode fit of CommonModeFromTracks along one image
+// axis: observation i, in frame of[i] and piece op[i], is at v[i]; piece k
+// is the line a[k] + b[k] f, frame f is offset by j[f].
+type cmAxis struct {
+	of, op     []int
+	n, sf, sff []float64 // per piece: points, sum of f, sum of f^2
+	v          []float64
+	j, prev    []float64 // offsets of this round and of the previous one
+	a, b       []float64
+	s, sfv     []float64   // per piece: sums of v - j and of f (v - j)
+	r          [][]float64 // per frame: residuals from the pieces' lines
+}
+
+// fitLines fits every piece's line to its points less their frames'
+// offsets.
+func (c *cmAxis) fitLines() {
+	clear(c.s)
+	clear(c.sfv)
+	for i, k := range c.op {
+		f := float64(c.of[i])
+		x := c.v[i] - c.j[c.of[i]]
+		c.s[k] += x
+		c.sfv[k] += f * x
+	}
+	for k := range c.a {
+		d := c.n[k]*c.sff[k] - c.sf[k]*c.sf[k]
+		if d == 0 {
+			c.a[k], c.b[k] = c.s[k]/c.n[k], 0
+			continue
+		}
+		c.b[k] = (c.n[k]*c.sfv[k] - c.sf[k]*c.s[k]) / d
+		c.a[k] = (c.s[k] - c.b[k]*c.sf[k]) / c.n[k]
+	}
+}
+
+// offsets sets each frame's offset to the median residual of its points
+// in the pieces not left out (NaN, then interpolated, for a frame with
+// fewer than minCommonPoints), removes the linear trend, and returns the
+// largest change from the previous round.
+func (c *cmAxis) offsets(bad []bool) float64 {
+	for f := range c.r {
+		c.r[f] = c.r[f][:0]
+	}
+	for i, k := range c.op {
+		if bad[k] {
+			continue
+		}
+		f := c.of[i]
+		c.r[f] = append(c.r[f], c.v[i]-c.a[k]-c.b[k]*float64(f))
+	}
+	for f := range c.j {
+		if len(c.r[f]) >= minCommonPoints {
+			c.j[f] = median(c.r[f])
+		} else {
+			c.j[f] = math.NaN()
+		}
+	}
+	fillGaps(c.j)
+	detrend(c.j)
+	change := 0.0
+	for f, v := range c.j {
+		change = math.Max(change, math.Abs(v-c.prev[f]))
+	}
+	copy(c.prev, c.j)
+	return change
+}
+
+// bothAxes runs f and g at the same time and returns when both are done.
+func bothAxes(f, g func()) {
+	done := make(chan struct{})
+	go func() {
+		defer close(done)
+		g()
+	}()
+	f()
+	<-done
+}
 
 // fillGaps replaces NaN values by linear interpolation between the nearest
 // known ones (held constant at the ends; all zero when none is known).
