@@ -2,7 +2,9 @@ package flowprior
 
 import (
 	"fmt"
+	"runtime"
 	"sort"
+	"sync"
 
 	"gaptrace/calib"
 	"gaptrace/track/tracks"
@@ -49,19 +51,39 @@ func SeriesFromDetections(frames [][]Point, cal *calib.Calibration, opt HistOpti
 		return nil, fmt.Errorf("flowprior: a window needs at least 2 frames, got %d", windowFrames)
 	}
 	s := &Series{}
+	for f0 := 0; f0+1 < len(frames); f0 += windowFrames {
+		s.Start = append(s.Start, f0)
+	}
+	// The windows are independent: they are measured on all cores.
+	s.Profiles = make([]*Profile, len(s.Start))
+	errs := make([]error, len(s.Start))
+	next := make(chan int)
+	var wg sync.WaitGroup
+	for range min(runtime.GOMAXPROCS(0), len(s.Start)) {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			for i := range next {
+				f0 := s.Start[i]
+				f1 := min(f0+windowFrames+1, len(frames))
+				s.Profiles[i], errs[i] = FromDetections(frames[f0:f1], cal, opt)
+			}
+		}()
+	}
+	for i := range s.Start {
+		next <- i
+	}
+	close(next)
+	wg.Wait()
 	known := 0
 	var firstErr error
-	for f0 := 0; f0+1 < len(frames); f0 += windowFrames {
-		f1 := min(f0+windowFrames+1, len(frames))
-		p, err := FromDetections(frames[f0:f1], cal, opt)
-		if err != nil && firstErr == nil {
-			firstErr = err
+	for i, p := range s.Profiles {
+		if errs[i] != nil && firstErr == nil {
+			firstErr = errs[i]
 		}
 		if p != nil {
 			known++
 		}
-		s.Start = append(s.Start, f0)
-		s.Profiles = append(s.Profiles, p)
 	}
 	if known == 0 && firstErr == nil {
 		firstErr = fmt.Errorf("flowprior: %d frames are too few for a window", len(frames))
