@@ -3,6 +3,7 @@ package detect
 import (
 	"encoding/binary"
 	"fmt"
+	"gaptrace/track/internal/order"
 	"image"
 	"math"
 	"slices"
@@ -465,11 +466,11 @@ func (d *Detector) noise(p *pixels, excludeCandidates bool) float64 {
 	if len(d.samples) < minNoiseSamples {
 		return 0
 	}
-	med := selectKth(d.samples, len(d.samples)/2)
+	med := order.SelectKth(d.samples, len(d.samples)/2)
 	for i, v := range d.samples {
 		d.samples[i] = abs32(v - med)
 	}
-	mad := float64(selectKth(d.samples, len(d.samples)/2))
+	mad := float64(order.SelectKth(d.samples, len(d.samples)/2))
 	if excludeCandidates {
 		return madToSigma * mad / 2
 	}
@@ -483,7 +484,7 @@ func (d *Detector) noise(p *pixels, excludeCandidates bool) float64 {
 	if len(kept) < minNoiseSamples {
 		return madToSigma * mad / 2
 	}
-	return float64(selectKth(kept, len(kept)/2)) / clippedMAD / 2
+	return float64(order.SelectKth(kept, len(kept)/2)) / clippedMAD / 2
 }
 
 func abs32(v float32) float32 {
@@ -534,38 +535,6 @@ func decidePolarity(bright, dark gocv.Mat) string {
 		return PolarityDark
 	}
 	return PolarityBright
-}
-
-// selectKth reorders v so that v[k] is its k-th smallest value and returns it
-// (Hoare's selection).
-func selectKth[T float32 | float64](v []T, k int) T {
-	lo, hi := 0, len(v)-1
-	for lo < hi {
-		pivot := v[(lo+hi)/2]
-		i, j := lo, hi
-		for i <= j {
-			for v[i] < pivot {
-				i++
-			}
-			for v[j] > pivot {
-				j--
-			}
-			if i <= j {
-				v[i], v[j] = v[j], v[i]
-				i++
-				j--
-			}
-		}
-		switch {
-		case k <= j:
-			hi = j
-		case k >= i:
-			lo = i
-		default:
-			return v[k]
-		}
-	}
-	return v[k]
 }
 
 // findCandidates fills d.cands with the local maxima of the band-passed

@@ -2,10 +2,10 @@ package detect
 
 import (
 	"fmt"
+	"gaptrace/track/matleak"
 	"io"
 	"math"
 	"math/rand/v2"
-	"os"
 	"testing"
 
 	"gaptrace/track/frames"
@@ -13,16 +13,8 @@ import (
 	"gocv.io/x/gocv"
 )
 
-func TestMain(m *testing.M) {
-	code := m.Run()
-	if code == 0 {
-		if err := matLeaks(); err != nil {
-			fmt.Fprintln(os.Stderr, err)
-			code = 1
-		}
-	}
-	os.Exit(code)
-}
+// TestMain fails the package when a test leaves an OpenCV Mat open.
+func TestMain(m *testing.M) { matleak.Main(m) }
 
 // spot is a true tracer of a test frame.
 type spot struct {

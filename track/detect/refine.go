@@ -1,6 +1,10 @@
 package detect
 
-import "math"
+import (
+	"math"
+
+	"gaptrace/track/internal/order"
+)
 
 // refine locates, sizes and weighs the spot whose integer maximum is
 // (x0, y0). It returns the detection with SNR holding the amplitude in
@@ -20,7 +24,7 @@ func (d *Detector) refine(p *pixels, x0, y0 int) (Detection, bool) {
 	for j := 2; j < n-1; j += 2 {
 		d.ring = append(d.ring, d.win[j*n], d.win[j*n+n-1])
 	}
-	level := selectKth(d.ring, len(d.ring)/2)
+	level := order.SelectKth(d.ring, len(d.ring)/2)
 	for i := range d.win {
 		d.win[i] -= level
 	}

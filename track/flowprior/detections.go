@@ -2,6 +2,7 @@ package flowprior
 
 import (
 	"fmt"
+	"gaptrace/track/internal/grid"
 	"math"
 	"sort"
 
@@ -98,13 +99,13 @@ func FromDetections(frames [][]Point, cal *calib.Calibration, opt HistOptions) (
 		stride = int(math.Ceil(float64(pairs) / float64(opt.MaxPairs)))
 	}
 	reach := math.Hypot(opt.MaxStepPx, opt.CrossPx)
-	var g grid
+	var g grid.Grid
 	for f := 0; f+1 < len(frames); f += stride {
 		next := frames[f+1]
 		if len(frames[f]) == 0 || len(next) == 0 {
 			continue
 		}
-		g.build(next, reach)
+		g.Build(len(next), func(i int) (float64, float64) { return next[i].XPx, next[i].YPx }, reach)
 		for _, a := range frames[f] {
 			_, yUM := cal.ToGap(a.XPx, a.YPx)
 			b := binOf(yUM, cal.GapUM, len(ys))
@@ -112,7 +113,7 @@ func FromDetections(frames [][]Point, cal *calib.Calibration, opt HistOptions) (
 				continue
 			}
 			row := hist[b*nh : (b+1)*nh]
-			g.near(a.XPx, a.YPx, reach, func(j int) {
+			g.Near(a.XPx, a.YPx, reach, func(j int) {
 				dx, dy := next[j].XPx-a.XPx, next[j].YPx-a.YPx
 				along, across := dx*fx+dy*fy, dx*ax+dy*ay
 				if math.Abs(across) > opt.CrossPx || math.Abs(along) > opt.MaxStepPx {

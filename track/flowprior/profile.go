@@ -16,9 +16,8 @@ package flowprior
 
 import (
 	"fmt"
+	"gaptrace/track/internal/order"
 	"math"
-	"math/bits"
-	"sort"
 
 	"gaptrace/calib"
 )
@@ -158,7 +157,7 @@ func median(v []float64) float64 {
 	if n == 0 {
 		return math.NaN()
 	}
-	hi := selectKth(v, n/2)
+	hi := order.SelectKth(v, n/2)
 	if n%2 == 1 {
 		return hi
 	}
@@ -169,58 +168,6 @@ func median(v []float64) float64 {
 	}
 	return (lo + hi) / 2
 }
-
-// selectKth reorders v so that v[k] holds the value it would hold sorted,
-// with no larger value before it and no smaller after, and returns it
-// (quickselect with a median-of-three pivot; it sorts a part whose
-// partitions stay lopsided, so the worst case stays n log n).
-func selectKth(v []float64, k int) float64 {
-	lo, hi := 0, len(v)-1
-	for budget := 2 * bits.Len(uint(len(v))); hi > lo; budget-- {
-		if budget == 0 || hi-lo < selectSortBelow {
-			sort.Float64s(v[lo : hi+1])
-			break
-		}
-		m := lo + (hi-lo)/2
-		if v[m] < v[lo] {
-			v[m], v[lo] = v[lo], v[m]
-		}
-		if v[hi] < v[lo] {
-			v[hi], v[lo] = v[lo], v[hi]
-		}
-		if v[hi] < v[m] {
-			v[hi], v[m] = v[m], v[hi]
-		}
-		p := v[m]
-		i, j := lo, hi
-		for i <= j {
-			for v[i] < p {
-				i++
-			}
-			for v[j] > p {
-				j--
-			}
-			if i <= j {
-				v[i], v[j] = v[j], v[i]
-				i++
-				j--
-			}
-		}
-		switch {
-		case k <= j:
-			hi = j
-		case k >= i:
-			lo = i
-		default:
-			return v[k]
-		}
-	}
-	return v[k]
-}
-
-// selectSortBelow is the part size below which selectKth sorts: insertion
-// sort beats partitioning on a few values.
-const selectSortBelow = 16
 
 // medianSpread returns the median of v and 1.4826 times its median absolute
 // deviation, reordering v.

@@ -3,6 +3,7 @@ package frames
 import (
 	"errors"
 	"fmt"
+	"gaptrace/track/matleak"
 	"io"
 	"math/rand/v2"
 	"os"
@@ -14,16 +15,8 @@ import (
 	"gocv.io/x/gocv"
 )
 
-func TestMain(m *testing.M) {
-	code := m.Run()
-	if code == 0 {
-		if err := matLeaks(); err != nil {
-			fmt.Fprintln(os.Stderr, err)
-			code = 1
-		}
-	}
-	os.Exit(code)
-}
+// TestMain fails the package when a test leaves an OpenCV Mat open.
+func TestMain(m *testing.M) { matleak.Main(m) }
 
 // pattern is the grey level of pixel (x, y) in frame f of the test inputs:
 // smooth, so that a lossy codec keeps it within a few levels.

@@ -3,6 +3,7 @@ package frames
 import (
 	"errors"
 	"fmt"
+	"gaptrace/track/internal/order"
 	"io"
 	"runtime"
 	"sync"
@@ -184,7 +185,7 @@ func readPackets[T uint8 | uint16](src Packets, maxFrames int, keep func(*gocv.M
 func medianOf[T uint8 | uint16](v []T) float32 {
 	n := len(v)
 	h := n / 2
-	hi := float32(selectKth(v, h))
+	hi := float32(order.SelectKth(v, h))
 	if n%2 == 1 {
 		return hi
 	}
@@ -194,39 +195,6 @@ func medianOf[T uint8 | uint16](v []T) float32 {
 		lo = max(lo, x)
 	}
 	return (float32(lo) + hi) / 2
-}
-
-// selectKth reorders v so that v[k] is the k-th smallest value, smaller or
-// equal values before it and larger or equal after it, and returns v[k]
-// (Hoare's selection).
-func selectKth[T uint8 | uint16](v []T, k int) T {
-	lo, hi := 0, len(v)-1
-	for lo < hi {
-		pivot := v[(lo+hi)/2]
-		i, j := lo, hi
-		for i <= j {
-			for v[i] < pivot {
-				i++
-			}
-			for v[j] > pivot {
-				j--
-			}
-			if i <= j {
-				v[i], v[j] = v[j], v[i]
-				i++
-				j--
-			}
-		}
-		switch {
-		case k <= j:
-			hi = j
-		case k >= i:
-			lo = i
-		default:
-			return v[k]
-		}
-	}
-	return v[k]
 }
 
 // medianU8 returns the median of v (the mean of the two middle values for

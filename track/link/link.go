@@ -19,6 +19,7 @@ package link
 import (
 	"errors"
 	"fmt"
+	"gaptrace/track/internal/grid"
 	"math"
 	"sort"
 
@@ -173,7 +174,7 @@ type Linker struct {
 	block   []tracks.Point // unused room for new tracks' points
 	p       []pos
 	curDets []Detection
-	g       grid
+	g       grid.Grid
 	edges   []edge
 	parent  []int32
 	comp    []int32
@@ -350,7 +351,7 @@ func (l *Linker) candidates(frame int) {
 	if cell == 0 {
 		cell = l.opt.MaxStepPx
 	}
-	l.g.build(l.p, cell)
+	l.g.Build(len(l.p), l.posAt, cell)
 	for ti, t := range l.active {
 		k := frame - t.last
 		vx, vy, ok, px, py, pok := l.predict(t)
@@ -388,7 +389,7 @@ func (l *Linker) near(ti int, lx, ly, vx, vy float64, k int, r, extra float64, f
 	maxStep := l.opt.MaxStepPx * float64(k)
 	qx, qy := lx+vx*float64(k), ly+vy*float64(k)
 	r2 := r * r
-	l.g.near(qx, qy, r, func(j int) {
+	l.g.Near(qx, qy, r, func(j int) {
 		p := l.p[j]
 		if dx, dy := p.XPx-lx, p.YPx-ly; dx*dx+dy*dy > maxStep*maxStep {
 			return
@@ -556,21 +557,24 @@ func (l *Linker) Close() ([]tracks.Point, Stats) {
 	return l.Flush(), l.stats
 }
 
+// posAt returns the i-th position of the frame being linked, px.
+func (l *Linker) posAt(i int) (xPx, yPx float64) { return l.p[i].XPx, l.p[i].YPx }
+
 // medianNN returns the median distance from each point to its nearest
 // neighbour.
-func medianNN(p []pos, g *grid) float64 {
+func medianNN(p []pos, g *grid.Grid) float64 {
 	x0, y0, x1, y1 := math.Inf(1), math.Inf(1), math.Inf(-1), math.Inf(-1)
 	for _, q := range p {
 		x0, y0 = math.Min(x0, q.XPx), math.Min(y0, q.YPx)
 		x1, y1 = math.Max(x1, q.XPx), math.Max(y1, q.YPx)
 	}
 	spacing := math.Sqrt(math.Max((x1-x0)*(y1-y0), 1) / float64(len(p)))
-	g.build(p, spacing)
+	g.Build(len(p), func(i int) (float64, float64) { return p[i].XPx, p[i].YPx }, spacing)
 	d := make([]float64, 0, len(p))
 	for i, q := range p {
 		best := math.Inf(1)
 		for r := spacing; math.IsInf(best, 1) && r < 64*spacing; r *= 2 {
-			g.near(q.XPx, q.YPx, r, func(j int) {
+			g.Near(q.XPx, q.YPx, r, func(j int) {
 				if j != i {
 					best = math.Min(best, math.Hypot(p[j].XPx-q.XPx, p[j].YPx-q.YPx))
 				}

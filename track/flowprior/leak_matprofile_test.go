@@ -1,8 +1,0 @@
-//go:build matprofile
-
-package flowprior
-
-import "gocv.io/x/gocv"
-
-// leakedMats returns the number of Mats still open.
-func leakedMats() int { return gocv.MatProfile.Count() }
