@@ -4,7 +4,6 @@ import (
 	"encoding/binary"
 	"fmt"
 	"image/color"
-	"io"
 	"math"
 	"path/filepath"
 	"strings"
@@ -20,34 +19,9 @@ import (
 	"gaptrace/track/synth"
 )
 
-// synthSource streams a synth scenario's frames as a frames.Source.
-type synthSource struct {
-	s          *synth.Scenario
-	next, step int
-}
-
-func (r *synthSource) Info() frames.Info {
-	bd := r.s.BitDepth
-	if bd == 0 {
-		bd = 8
-	}
-	return frames.Info{Frames: r.s.Frames, FPS: r.s.FPS, WidthPx: r.s.WidthPx, HeightPx: r.s.HeightPx, BitDepth: bd}
-}
-
-func (r *synthSource) Next(dst *gocv.Mat) (int, error) {
-	if r.next >= r.s.Frames {
-		return 0, io.EOF
-	}
-	i := r.next
-	r.next += r.step
-	return i, r.s.Render(i, dst)
-}
-
-func (r *synthSource) Close() error { return nil }
-
 func medianOf(t testing.TB, s *synth.Scenario, n int) gocv.Mat {
 	t.Helper()
-	m, err := frames.Median(&synthSource{s: s, step: max(1, s.Frames/n)}, n)
+	m, err := frames.Median(s.Source(s.Frames/n), n)
 	if err != nil {
 		t.Fatal(err)
 	}

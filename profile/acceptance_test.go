@@ -414,7 +414,7 @@ func TestDetectedPhasesWithoutProgram(t *testing.T) {
 					ph[i-1].EndS = ph[i].StartS
 				}
 			}
-			r, err := Analyze(observe(s, 910), e, s.Calibration(), Options{Phases: ph, Seed: 910})
+			r, err := Analyze(s.Observe(noisePx, breakPerFrame, 910), e, s.Calibration(), Options{Phases: ph, Seed: 910})
 			if err != nil {
 				t.Fatal(err)
 			}
@@ -481,7 +481,7 @@ func TestMislinks(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	pts := observe(s, 920)
+	pts := s.Observe(noisePx, breakPerFrame, 920)
 	rng := rand.New(rand.NewPCG(920, 1))
 	for i := range pts {
 		if i%mislinkEvery == 0 {
@@ -511,7 +511,7 @@ func TestMislinksAfterStop(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		pts := observe(s, 930)
+		pts := s.Observe(noisePx, breakPerFrame, 930)
 		rng := rand.New(rand.NewPCG(930, 1))
 		for i := range pts {
 			if i%mislinkEvery == 0 {

@@ -13,7 +13,7 @@ func BenchmarkAnalyze(b *testing.B) {
 	if err != nil {
 		b.Fatal(err)
 	}
-	pts := observe(s, 1)
+	pts := s.Observe(noisePx, breakPerFrame, 1)
 	e, c := s.Experiment(), s.Calibration()
 	b.ResetTimer()
 	for range b.N {
@@ -31,7 +31,7 @@ func BenchmarkAnalyzeLarge(b *testing.B) {
 		b.Fatal(err)
 	}
 	s.Tracers, s.Frames = 1000, 1000
-	pts := observe(s, 2)
+	pts := s.Observe(noisePx, breakPerFrame, 2)
 	e, c := s.Experiment(), s.Calibration()
 	b.ResetTimer()
 	for range b.N {

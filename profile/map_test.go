@@ -16,7 +16,7 @@ import (
 // are 15 frames each.
 func TestMapComplete(t *testing.T) {
 	s := plates(1100, 0.5, 1.5, 1.0)
-	pts := observe(s, 1100)
+	pts := s.Observe(noisePx, breakPerFrame, 1100)
 	r, err := Analyze(pts, s.Experiment(), s.Calibration(), Options{Seed: 1100})
 	if err != nil {
 		t.Fatal(err)

@@ -11,6 +11,7 @@
 package profile
 
 import (
+	"cmp"
 	"errors"
 	"fmt"
 	"math"
@@ -212,13 +213,13 @@ func Analyze(pts []tracks.Point, e *experiment.Experiment, c *calib.Calibration,
 	for _, ph := range r.Phases {
 		all = append(all, velocity.Samples(ts, r.Lag, sigma, dt, ph.StartS, ph.EndS)...)
 	}
-	slices.SortFunc(all, func(a, b velocity.Sample) int { return cmpFloat(a.TS, b.TS) })
+	slices.SortFunc(all, func(a, b velocity.Sample) int { return cmp.Compare(a.TS, b.TS) })
 
 	// profOf is the profile of the samples of ss (sorted by time) whose
 	// midpoints lie in w; prof that of the phases' samples.
 	profOf := func(ss []velocity.Sample, w Window, reps int, seed uint64) (WindowProfile, error) {
-		lo, _ := slices.BinarySearchFunc(ss, w.T0S, func(s velocity.Sample, t float64) int { return cmpFloat(s.TS, t) })
-		hi, _ := slices.BinarySearchFunc(ss, w.T1S, func(s velocity.Sample, t float64) int { return cmpFloat(s.TS, t) })
+		lo, _ := slices.BinarySearchFunc(ss, w.T0S, func(s velocity.Sample, t float64) int { return cmp.Compare(s.TS, t) })
+		hi, _ := slices.BinarySearchFunc(ss, w.T1S, func(s velocity.Sample, t float64) int { return cmp.Compare(s.TS, t) })
 		obs := make([]layers.Obs, 0, hi-lo)
 		for _, s := range ss[lo:hi] {
 			obs = append(obs, layers.Obs{Group: s.Track, YUM: s.YUM, Value: s.VXUMPerS})
@@ -246,7 +247,7 @@ func Analyze(pts []tracks.Point, e *experiment.Experiment, c *calib.Calibration,
 				own = append(own, velocity.Samples(ts, r.Lag, sigma, dt, a, b)...)
 			}
 		}
-		slices.SortFunc(own, func(a, b velocity.Sample) int { return cmpFloat(a.TS, b.TS) })
+		slices.SortFunc(own, func(a, b velocity.Sample) int { return cmp.Compare(a.TS, b.TS) })
 		// Every midpoint lies inside w: strictly before its end, so profOf
 		// keeps them all.
 		p, err := profOf(own, w, mapReplicates, o.Seed+1000+uint64(k))
@@ -393,16 +394,6 @@ const gapAgreement = 1e-3
 // curvePoints is the number of intervals at which a fitted profile is
 // tabulated for plotting.
 const curvePoints = 100
-
-func cmpFloat(a, b float64) int {
-	switch {
-	case a < b:
-		return -1
-	case a > b:
-		return 1
-	}
-	return 0
-}
 
 func fillShear(sp *summary.ShearPhase, d *rheometry.Decomposition) {
 	sp.BulkRatePerS, sp.BulkRateErrPerS = summary.Num(d.BulkRatePerS), summary.Num(d.BulkRateErrPerS)

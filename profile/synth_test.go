@@ -2,13 +2,11 @@ package profile
 
 import (
 	"math"
-	"math/rand/v2"
 	"testing"
 
 	"gaptrace/calib/experiment"
 	"gaptrace/calib/geometry"
 	"gaptrace/track/synth"
-	"gaptrace/track/tracks"
 )
 
 // The demo scenarios below are made up: an 800 um gap between sliding plates
@@ -37,40 +35,9 @@ func plates(seed int64, restS, shearS, afterS float64) *synth.Scenario {
 	return s
 }
 
-// observe returns the tracks of s as a tracker would see them: the true
-// gap positions with Gaussian noise of noisePx, broken at random and where
-// a tracer wraps around the scenario's strip.
-func observe(s *synth.Scenario, seed uint64) []tracks.Point {
-	rng := rand.New(rand.NewPCG(seed, 77))
-	sd := noisePx * s.UMPerPx
-	type state struct {
-		id    int
-		xUM   float64
-		frame int
-	}
-	last := map[int]*state{}
-	next := 0
-	var out []tracks.Point
-	for f := range s.Frames {
-		for _, t := range s.Positions(f) {
-			st := last[t.ID]
-			if st == nil || st.frame != f-1 || math.Abs(t.XUM-st.xUM) > float64(s.WidthPx)*s.UMPerPx/2 || rng.Float64() < breakPerFrame {
-				st = &state{id: next}
-				next++
-				last[t.ID] = st
-			}
-			st.xUM, st.frame = t.XUM, f
-			out = append(out, tracks.Point{Track: st.id, Frame: f, TS: float64(f) / s.FPS,
-				XPx: t.XPx, YPx: t.YPx, XUM: t.XUM + sd*rng.NormFloat64(), YUM: t.YUM + sd*rng.NormFloat64(),
-				Brightness: t.Photons, SizePx: t.SigmaPx})
-		}
-	}
-	return out
-}
-
 func analyze(t testing.TB, s *synth.Scenario, seed uint64) *Result {
 	t.Helper()
-	r, err := Analyze(observe(s, seed), s.Experiment(), s.Calibration(), Options{Seed: seed})
+	r, err := Analyze(s.Observe(noisePx, breakPerFrame, seed), s.Experiment(), s.Calibration(), Options{Seed: seed})
 	if err != nil {
 		t.Fatal(err)
 	}

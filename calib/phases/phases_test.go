@@ -2,18 +2,14 @@ package phases_test
 
 import (
 	"fmt"
-	"io"
 	"math"
 	"math/rand"
 	"strings"
 	"testing"
 
-	"gocv.io/x/gocv"
-
 	"gaptrace/calib/experiment"
 	"gaptrace/calib/phases"
 	"gaptrace/profile/summary"
-	"gaptrace/track/frames"
 	"gaptrace/track/synth"
 )
 
@@ -158,31 +154,6 @@ func TestReconcile(t *testing.T) {
 	}
 }
 
-// synthSource streams a synth scenario's frames as a frames.Source.
-type synthSource struct {
-	s          *synth.Scenario
-	next, step int
-}
-
-func (r *synthSource) Info() frames.Info {
-	bd := r.s.BitDepth
-	if bd == 0 {
-		bd = 8
-	}
-	return frames.Info{Frames: r.s.Frames, FPS: r.s.FPS, WidthPx: r.s.WidthPx, HeightPx: r.s.HeightPx, BitDepth: bd}
-}
-
-func (r *synthSource) Next(dst *gocv.Mat) (int, error) {
-	if r.next >= r.s.Frames {
-		return 0, io.EOF
-	}
-	i := r.next
-	r.next += r.step
-	return i, r.s.Render(i, dst)
-}
-
-func (r *synthSource) Close() error { return nil }
-
 // oneFrame is the acceptance limit of issue 4 for detected phases.
 const oneFrame = 1.0
 
@@ -209,7 +180,7 @@ func TestDetectOnSynth(t *testing.T) {
 				t.Fatal(err)
 			}
 			s.MovingSide, s.FlowSign, s.Frames = c.moving, c.flow, c.frames
-			signal, err := phases.Measure(&synthSource{s: s, step: 1}, s.Calibration(), nil)
+			signal, err := phases.Measure(s.Source(1), s.Calibration(), nil)
 			if err != nil {
 				t.Fatal(err)
 			}

@@ -1,6 +1,7 @@
 package report
 
 import (
+	"cmp"
 	"math"
 	"slices"
 
@@ -74,7 +75,7 @@ func FromAnalysis(s *summary.Summary, e *experiment.Experiment, r *profile.Resul
 		}
 	}
 	if len(slip.Points) > 0 {
-		slices.SortFunc(slip.Points, func(a, b figure.SlipPoint) int { return cmpFloat(a.TS, b.TS) })
+		slices.SortFunc(slip.Points, func(a, b figure.SlipPoint) int { return cmp.Compare(a.TS, b.TS) })
 		d.Slip = slip
 	}
 
@@ -82,16 +83,6 @@ func FromAnalysis(s *summary.Summary, e *experiment.Experiment, r *profile.Resul
 		d.AfterStop = afterStop(c, s.AfterStop, gapUM)
 	}
 	return d
-}
-
-func cmpFloat(a, b float64) int {
-	switch {
-	case a < b:
-		return -1
-	case a > b:
-		return 1
-	}
-	return 0
 }
 
 // phaseBoundaries are the times at which the time line changes phase.

@@ -1,8 +1,6 @@
 package report_test
 
 import (
-	"math"
-	"math/rand/v2"
 	"os"
 	"path/filepath"
 	"strings"
@@ -12,40 +10,7 @@ import (
 	"gaptrace/profile/report"
 	"gaptrace/profile/summary"
 	"gaptrace/track/synth"
-	"gaptrace/track/tracks"
 )
-
-// observedTracks returns the tracks of s as a tracker would see them: true
-// gap positions with Gaussian noise, broken at random and where a tracer
-// wraps around the scenario's strip.
-func observedTracks(s *synth.Scenario, seed uint64) []tracks.Point {
-	// noisePx: sub-pixel detection of 5 px spots reaches about 0.1 px
-	// (common practice); breakPerFrame: tracks tens of frames long.
-	const noisePx, breakPerFrame = 0.1, 0.02
-	rng := rand.New(rand.NewPCG(seed, 11))
-	sd := noisePx * s.UMPerPx
-	type state struct {
-		id, frame int
-		xUM       float64
-	}
-	last := map[int]*state{}
-	next := 0
-	var out []tracks.Point
-	for f := range s.Frames {
-		for _, t := range s.Positions(f) {
-			st := last[t.ID]
-			if st == nil || st.frame != f-1 || math.Abs(t.XUM-st.xUM) > float64(s.WidthPx)*s.UMPerPx/2 || rng.Float64() < breakPerFrame {
-				st = &state{id: next}
-				next++
-				last[t.ID] = st
-			}
-			st.xUM, st.frame = t.XUM, f
-			out = append(out, tracks.Point{Track: st.id, Frame: f, TS: float64(f) / s.FPS, XPx: t.XPx, YPx: t.YPx,
-				XUM: t.XUM + sd*rng.NormFloat64(), YUM: t.YUM + sd*rng.NormFloat64(), Brightness: t.Photons, SizePx: t.SigmaPx})
-		}
-	}
-	return out
-}
 
 // TestFromAnalysis runs the profile stage on the tracks of a rendered
 // scenario (the synth package's step strain followed by a failure plane)
@@ -56,7 +21,7 @@ func TestFromAnalysis(t *testing.T) {
 		t.Fatal(err)
 	}
 	e, c := s.Experiment(), s.Calibration()
-	r, err := profile.Analyze(observedTracks(s, 3), e, c, profile.Options{Seed: 3})
+	r, err := profile.Analyze(s.Observe(0.1, 0.02, 3), e, c, profile.Options{Seed: 3})
 	if err != nil {
 		t.Fatal(err)
 	}
