@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"io"
 	"os"
+	"runtime/pprof"
 	"time"
 )
 
@@ -71,4 +72,18 @@ func (p *progress) done() {
 		return
 	}
 	fmt.Fprintf(p.w, "\r%s: done in %v%30s\n", p.stage, time.Since(p.start).Round(10*time.Millisecond), "")
+}
+
+// startCPUProfile writes a CPU profile to path until the returned function
+// is called.
+func startCPUProfile(path string) (func(), error) {
+	f, err := os.Create(path)
+	if err != nil {
+		return nil, badInputf("--cpuprofile: %v", err)
+	}
+	if err := pprof.StartCPUProfile(f); err != nil {
+		f.Close()
+		return nil, fmt.Errorf("--cpuprofile: %w", err)
+	}
+	return func() { pprof.StopCPUProfile(); f.Close() }, nil
 }

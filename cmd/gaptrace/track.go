@@ -19,11 +19,19 @@ func runTrack(args []string, stderr io.Writer) error {
 	expPath := fs.String("e", "", "experiment file (YAML)")
 	outDir := fs.String("o", "", "output folder")
 	prog := fs.Bool("progress", false, "show progress even when stderr is not a terminal")
+	cpuProfile := fs.String("cpuprofile", "", "write a CPU profile of the stage to this file (for developers)")
 	if err := parseFlags(fs, args); err != nil {
 		return err
 	}
 	if fs.NArg() != 1 {
 		return badInputf("track needs one INPUT (video, folder or glob of frames), got %d", fs.NArg())
+	}
+	if *cpuProfile != "" {
+		stop, err := startCPUProfile(*cpuProfile)
+		if err != nil {
+			return err
+		}
+		defer stop()
 	}
 	exp, err := loadExperiment(*expPath)
 	if err != nil {
