@@ -73,6 +73,7 @@ const (
 	RadialSymmetry
 )
 
+// String names the estimator: "centroid" or "radial-symmetry".
 func (e Estimator) String() string {
 	switch e {
 	case Centroid:
