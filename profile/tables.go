@@ -84,22 +84,6 @@ func (r *Result) Fill(s *summary.Summary) {
 // TrackingCounts returns the summary's tracking counts for pts: linked
 // detections, tracks and the median number of frames per track.
 func TrackingCounts(pts []tracks.Point) summary.Tracking {
-	per := map[int]int{}
-	n := 0
-	for _, p := range pts {
-		if p.Track != tracks.Unlinked {
-			per[p.Track]++
-			n++
-		}
-	}
-	lens := make([]int, 0, len(per))
-	for _, l := range per {
-		lens = append(lens, l)
-	}
-	slices.Sort(lens)
-	med := 0
-	if len(lens) > 0 {
-		med = lens[len(lens)/2]
-	}
-	return summary.Tracking{Detections: n, Tracks: len(per), MedianTrackFrames: med}
+	n, tr, med := tracks.Count(pts)
+	return summary.Tracking{Detections: n, Tracks: tr, MedianTrackFrames: med}
 }

@@ -5,7 +5,6 @@ import (
 	"fmt"
 	"math"
 	"os"
-	"sort"
 
 	"gaptrace/calib"
 	"gaptrace/calib/geometry"
@@ -207,24 +206,8 @@ func (s *Scenario) afterStopTruth() *summary.AfterStop {
 }
 
 func (s *Scenario) trackingTruth() summary.Tracking {
-	frames := map[int]int{}
-	det := 0
-	for f := range s.Frames {
-		for _, t := range s.Positions(f) {
-			frames[t.ID]++
-			det++
-		}
-	}
-	n := make([]int, 0, len(frames))
-	for _, c := range frames {
-		n = append(n, c)
-	}
-	sort.Ints(n)
-	med := 0
-	if len(n) > 0 {
-		med = n[len(n)/2]
-	}
-	return summary.Tracking{Detections: det, Tracks: len(n), MedianTrackFrames: med}
+	n, tr, med := tracks.Count(s.TrackPoints())
+	return summary.Tracking{Detections: n, Tracks: tr, MedianTrackFrames: med}
 }
 
 // TrackPoints returns the true positions of every frame as tracks.csv rows:

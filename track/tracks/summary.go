@@ -102,3 +102,25 @@ func WriteSummaryCSV(w io.Writer, ss []Summary) error {
 	}
 	return bw.Flush()
 }
+
+// Count returns the number of points in tracks (Unlinked points are not
+// counted), the number of tracks, and the median number of points per
+// track (the upper median; 0 without tracks).
+func Count(pts []Point) (points, tracks, medianPoints int) {
+	per := map[int]int{}
+	for _, p := range pts {
+		if p.Track != Unlinked {
+			per[p.Track]++
+			points++
+		}
+	}
+	lens := make([]int, 0, len(per))
+	for _, l := range per {
+		lens = append(lens, l)
+	}
+	sort.Ints(lens)
+	if len(lens) > 0 {
+		medianPoints = lens[len(lens)/2]
+	}
+	return points, len(lens), medianPoints
+}
