@@ -4,7 +4,6 @@ import (
 	"bytes"
 	"encoding/csv"
 	"math"
-	"slices"
 	"strconv"
 
 	"gaptrace/profile/summary"
