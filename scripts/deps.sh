@@ -25,8 +25,8 @@ Linux)
     # Chromium is only for the report test, which skips without it.
     core=(); opt=()
     for p in "${apt_pkgs[@]}"; do [ "$p" = chromium ] && opt+=("$p") || core+=("$p"); done
-    [ ${#core[@]} -gt 0 ] && DEBIAN_FRONTEND=noninteractive sudo_ apt-get install -y -qq --no-install-recommends "${core[@]}" >/dev/null
-    [ ${#opt[@]} -gt 0 ] && { DEBIAN_FRONTEND=noninteractive sudo_ apt-get install -y -qq --no-install-recommends "${opt[@]}" >/dev/null ||
+    [ ${#core[@]} -gt 0 ] && sudo_ env DEBIAN_FRONTEND=noninteractive apt-get install -y -qq --no-install-recommends "${core[@]}" >/dev/null
+    [ ${#opt[@]} -gt 0 ] && { sudo_ env DEBIAN_FRONTEND=noninteractive apt-get install -y -qq --no-install-recommends "${opt[@]}" >/dev/null ||
       echo "deps: could not install chromium; the report rendering test will be skipped" >&2; }
   else
     echo "deps: please install OpenCV 4.6 development files (pkg-config name opencv4) and ffmpeg" >&2; exit 1
