@@ -110,6 +110,9 @@ type Detector struct {
 
 	samples []float32
 	excl    []bool
+	// noiseAt holds, for the crude and the fine noise sampling of a frame
+	// size, the sample pixels inside the mask: the same in every frame.
+	noiseAt [2]noiseGrid
 	cands   []candidate
 	order   []int32
 	head    []int32 // separation grid: first candidate of each cell
@@ -450,18 +453,19 @@ func (d *Detector) noise(p *pixels, excludeCandidates bool) float64 {
 			}
 		}
 	}
+	g := &d.noiseAt[0]
+	if excludeCandidates {
+		g = &d.noiseAt[1]
+	}
+	if g.w != w || g.h != h || g.step != step {
+		d.buildNoiseGrid(g, w, h, step)
+	}
 	d.samples = d.samples[:0]
-	for y := step / 2; y < h-1; y += step {
-		for x := (y / step) % step; x < w-1; x += step {
-			if excludeCandidates && d.excl[(y/step)*gw+x/step] {
-				continue
-			}
-			if d.opt.Mask != nil && !d.opt.Mask.Contains(float64(x), float64(y)) {
-				continue
-			}
-			i := y*w + x
-			d.samples = append(d.samples, float32(p.at(i)+p.at(i+1)+p.at(i+w)+p.at(i+w+1)))
+	for k, i := range g.pixel {
+		if excludeCandidates && d.excl[g.cell[k]] {
+			continue
 		}
+		d.samples = append(d.samples, float32(p.at(int(i))+p.at(int(i)+1)+p.at(int(i)+w)+p.at(int(i)+w+1)))
 	}
 	if len(d.samples) < minNoiseSamples {
 		return 0
@@ -485,6 +489,31 @@ func (d *Detector) noise(p *pixels, excludeCandidates bool) float64 {
 		return madToSigma * mad / 2
 	}
 	return float64(order.SelectKth(kept, len(kept)/2)) / clippedMAD / 2
+}
+
+// noiseGrid is the sampling pattern of noise for one frame size: the pixel
+// index of every sample inside the mask and its cell in the exclusion grid.
+type noiseGrid struct {
+	w, h, step int
+	pixel      []int32
+	cell       []int32
+}
+
+// buildNoiseGrid fills g with the samples of a w x h frame taken every
+// step pixels, staggered from row to row, that lie inside the mask.
+func (d *Detector) buildNoiseGrid(g *noiseGrid, w, h, step int) {
+	gw := (w + step - 1) / step
+	g.w, g.h, g.step = w, h, step
+	g.pixel, g.cell = g.pixel[:0], g.cell[:0]
+	for y := step / 2; y < h-1; y += step {
+		for x := (y / step) % step; x < w-1; x += step {
+			if d.opt.Mask != nil && !d.opt.Mask.Contains(float64(x), float64(y)) {
+				continue
+			}
+			g.pixel = append(g.pixel, int32(y*w+x))
+			g.cell = append(g.cell, int32((y/step)*gw+x/step))
+		}
+	}
 }
 
 func abs32(v float32) float32 {
