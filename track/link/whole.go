@@ -69,7 +69,7 @@ func Link(frames [][]Detection, cal *calib.Calibration, opt Options) ([]tracks.P
 		}()
 		var cm []flowprior.Shift
 		var cmErr error
-		if opt.MeasureCommonMode && len(frames) > 0 {
+		if opt.MeasureCommonMode && len(frames) > 0 && !steadyCamera(first, opt, len(frames)) {
 			cm, cmErr = flowprior.CommonModeFromTracks(first, cal, len(frames))
 		}
 		<-done
@@ -183,6 +183,26 @@ const JitterWindowFrames = 11
 // mostly add the estimator's own error, which shows as a uniform
 // displacement after cessation.
 const JitterMinRMSPx = 0.05
+
+// QuickJitterFraction is how far below JitterMinRMSPx the cheap estimate of
+// the common-mode motion (flowprior.QuickCommonMode) must stay for Link to
+// skip the full measurement: a factor of two leaves room for the estimate's
+// own error against CommonModeFromTracks (TestSteadyCamera).
+const QuickJitterFraction = 0.5
+
+// steadyCamera reports whether the first pass's tracks show so little
+// common-mode motion that measuring it in full (flowprior.
+// CommonModeFromTracks) would find less than JitterMinRMSPx: the cheap
+// estimate against the flow prior stays below QuickJitterFraction of it.
+// Only tracks whose positions carry no correction (no opt.CommonMode) and a
+// known prior qualify.
+func steadyCamera(first []tracks.Point, opt Options, frames int) bool {
+	if opt.Prior == nil || len(opt.CommonMode) > 0 {
+		return false
+	}
+	rx, ry := rmsShift(jitterOnly(flowprior.QuickCommonMode(first, opt.Prior, frames), JitterWindowFrames))
+	return math.Max(rx, ry) < QuickJitterFraction*JitterMinRMSPx
+}
 
 // rmsShift returns the root-mean-square common-mode shift along image x and
 // y, px.
