@@ -93,9 +93,12 @@ type Detector struct {
 
 	sigma float64 // nominal spot sd, px
 	wr    int     // refinement window half-width, px
-	khalf int     // matched Gaussian kernel half-width, px
-	ksize int     // matched Gaussian kernel size, px
-	boxPx int     // box mean width without a background image, px
+	// decaySpot and decayMask are gauss1D's decay for the spot's and the
+	// centroid mask's variance.
+	decaySpot, decayMask float64
+	khalf                int // matched Gaussian kernel half-width, px
+	ksize                int // matched Gaussian kernel size, px
+	boxPx                int // box mean width without a background image, px
 	// gain1 and gainBox are the band-pass responses at the centre of a
 	// unit-amplitude spot, against a background image and against the box
 	// mean.
@@ -144,6 +147,7 @@ func NewDetector(opt Options) (*Detector, error) {
 	d := &Detector{opt: opt, polarity: opt.Polarity, bgType: -1}
 	d.sigma = opt.DiameterPx / diameterSigmas
 	d.wr = int(math.Ceil(kernelSigmas * d.sigma))
+	d.decaySpot, d.decayMask = math.Exp(-1/spotVar(d.sigma)), math.Exp(-1/maskVar(d.sigma))
 	d.khalf = int(math.Ceil(filterSigmas * d.sigma))
 	d.ksize = 2*d.khalf + 1
 	d.boxPx = 2*int(math.Round(boxDiameters*opt.DiameterPx/2)) + 1

@@ -24,7 +24,7 @@ func (d *Detector) refine(p *pixels, x0, y0 int) (Detection, bool) {
 	for j := 2; j < n-1; j += 2 {
 		d.ring = append(d.ring, d.win[j*n], d.win[j*n+n-1])
 	}
-	level := order.SelectKth(d.ring, len(d.ring)/2)
+	level := medianOfFew(d.ring, len(d.ring)/2)
 	for i := range d.win {
 		d.win[i] -= level
 	}
@@ -43,11 +43,11 @@ func (d *Detector) refine(p *pixels, x0, y0 int) (Detection, bool) {
 	ox, oy := int(math.Round(dx)), int(math.Round(dy))
 	// One Gaussian of the pixel-integrated spot's variance s2 serves as the
 	// amplitude template and as the weight of the moments.
-	s2 := d.sigma*d.sigma + 1.0/12 // pixel integration widens the spot
+	s2 := spotVar(d.sigma) // pixel integration widens the spot
 	sw2 := s2
 	var tx, ty [2*maxWindowHalf + 1]float64
-	gauss1D(tx[:2*wr+1], float64(ox-wr)-dx, s2)
-	gauss1D(ty[:2*wr+1], float64(oy-wr)-dy, s2)
+	gauss1D(tx[:2*wr+1], float64(ox-wr)-dx, s2, d.decaySpot)
+	gauss1D(ty[:2*wr+1], float64(oy-wr)-dy, s2, d.decaySpot)
 	gx, gy := tx, ty
 	// Least-squares fit of amplitude and offset, v = a t + c.
 	var st, stt, sv, svt float64
@@ -128,13 +128,13 @@ const maxWindowHalf = (kernelSigmas*maxDiameterPx)/diameterSigmas + 1
 func (d *Detector) centroid(R int) (cx, cy float64, ok bool) {
 	wr := d.wr
 	n := 2*R + 1
-	sw2 := centroidMaskWidening * centroidMaskWidening * d.sigma * d.sigma
-	s2 := d.sigma*d.sigma + 1.0/12
+	sw2 := maskVar(d.sigma)
+	s2 := spotVar(d.sigma)
 	gainStep := (sw2 + s2) / sw2
 	ix, iy := 0, 0
 	for it := 0; it < maxIterations; it++ {
-		gauss1D(d.wx, float64(ix-wr)-cx, sw2)
-		gauss1D(d.wy, float64(iy-wr)-cy, sw2)
+		gauss1D(d.wx, float64(ix-wr)-cx, sw2, d.decayMask)
+		gauss1D(d.wy, float64(iy-wr)-cy, sw2, d.decayMask)
 		var sw, sx, sy float64
 		for j := -wr; j <= wr; j++ {
 			row := d.win[(R+iy+j)*n+R+ix-wr : (R+iy+j)*n+R+ix+wr+1]
@@ -247,16 +247,46 @@ func (d *Detector) radialCentre(R int) (cx, cy float64, ok bool) {
 	return (a22*b1 - a12*b2) / det, (a11*b2 - a12*b1) / det, true
 }
 
-// gauss1D fills dst with exp(-u^2/(2 v)) at u = u0, u0+1, ...: three
+// gauss1D fills dst with exp(-u^2/(2 v)) at u = u0, u0+1, ...: two
 // exponentials and a recurrence on the ratio of neighbours,
-// g(u+1)/g(u) = exp(-(2u+1)/(2v)), which shrinks by exp(-1/v) per step.
-func gauss1D(dst []float64, u0, v float64) {
+// g(u+1)/g(u) = exp(-(2u+1)/(2v)), which shrinks by decay = exp(-1/v) per
+// step (the same for every spot of a Detector: spotVar, maskVar).
+func gauss1D(dst []float64, u0, v, decay float64) {
 	g := math.Exp(-u0 * u0 / (2 * v))
 	r := math.Exp(-(2*u0 + 1) / (2 * v))
-	a := math.Exp(-1 / v)
 	for i := range dst {
 		dst[i] = g
 		g *= r
-		r *= a
+		r *= decay
 	}
 }
+
+// spotVar is the variance of a pixel-integrated spot of sd sigma, px^2;
+// maskVar that of the centroid's Gaussian mask.
+func spotVar(sigma float64) float64 { return sigma*sigma + 1.0/12 }
+func maskVar(sigma float64) float64 {
+	return centroidMaskWidening * centroidMaskWidening * sigma * sigma
+}
+
+// medianOfFew returns the k-th smallest of the few values of v (the
+// window's border ring), reordering v: an insertion sort, which beats
+// selection on a couple of dozen values; longer slices go to
+// order.SelectKth.
+func medianOfFew(v []float64, k int) float64 {
+	if len(v) > fewValues {
+		return order.SelectKth(v, k)
+	}
+	for i := 1; i < len(v); i++ {
+		x, j := v[i], i
+		for ; j > 0 && v[j-1] > x; j-- {
+			v[j] = v[j-1]
+		}
+		v[j] = x
+	}
+	return v[k]
+}
+
+// fewValues is the longest slice medianOfFew sorts by insertion: the ring
+// of a window up to about 33 px across (common practice: insertion sort
+// wins below a few dozen values).
+const fewValues = 64
