@@ -74,6 +74,12 @@ func runChain(o runOptions, stderr io.Writer) (*summary.Summary, error) {
 		return nil, err
 	}
 	removeStale(o.outDir, runFiles...)
+	// Figures of an earlier run that this one may not draw.
+	if old, _ := filepath.Glob(filepath.Join(o.outDir, "figure_*")); len(old) > 0 {
+		for _, f := range old {
+			os.Remove(f)
+		}
+	}
 	c := &chain{expPath: o.expPath, exp: exp, input: o.input, progress: o.progress, stderr: stderr, noJitter: o.noJitter}
 	med, err := c.calibrate()
 	if err != nil {
