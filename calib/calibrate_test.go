@@ -212,15 +212,7 @@ func TestCalibrateWithCheckerboard(t *testing.T) {
 	defer med.Close()
 	lens := target.Lens{Fx: 1200, Fy: 1200, Cx: 319.5, Cy: 239.5, K: [5]float64{-0.05}}
 	b := testtarget.Board{W: 640, H: 480, Cols: 9, Rows: 6, SquarePx: 50, X0: 120, Y0: 110, Undistort: lens.Undistort, Noise: 2, PSFPx: 1}
-	img, err := b.Render()
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer img.Close()
-	dir := t.TempDir()
-	if !gocv.IMWrite(filepath.Join(dir, "board.png"), img) {
-		t.Fatal("cannot write the target")
-	}
+	dir := writeBoard(t, b)
 	e := s.Experiment()
 	e.Camera.UMPerPx = 0
 	// The board's squares are 100 um, so 2 um/px as the scenario.
@@ -288,15 +280,7 @@ func TestCalibrateThroughLens(t *testing.T) {
 	seen := distort(t, med, lens)
 	defer seen.Close()
 	b := testtarget.Board{W: 640, H: 480, Cols: 11, Rows: 8, SquarePx: 45, X0: 95, Y0: 82, Undistort: lens.Undistort, Noise: 2, PSFPx: 1}
-	img, err := b.Render()
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer img.Close()
-	dir := t.TempDir()
-	if !gocv.IMWrite(filepath.Join(dir, "board.png"), img) {
-		t.Fatal("cannot write the target")
-	}
+	dir := writeBoard(t, b)
 	e := s.Experiment()
 	e.Camera.Target = &experiment.Target{Image: "board.png", Kind: experiment.Checkerboard, PitchUM: 90, Corners: [2]int{11, 8}}
 	cal, err := calib.Calibrate(seen, e, calib.Options{BaseDir: dir})
@@ -352,4 +336,20 @@ func TestCalibrateThroughLens(t *testing.T) {
 		t.Errorf("without the lens the tracer heights are still within %.3f px: the lens is too weak to test", worstPlain)
 	}
 	t.Logf("ignoring the lens: tracer heights off by up to %.3f px", worstPlain)
+}
+
+// writeBoard renders b and writes it as board.png into a new temporary
+// folder, which it returns.
+func writeBoard(t *testing.T, b testtarget.Board) string {
+	t.Helper()
+	img, err := b.Render()
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer img.Close()
+	dir := t.TempDir()
+	if !gocv.IMWrite(filepath.Join(dir, "board.png"), img) {
+		t.Fatal("cannot write the target")
+	}
+	return dir
 }

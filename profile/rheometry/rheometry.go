@@ -141,16 +141,7 @@ func Decompose(bins []layers.Bin, g geometry.Geometry, wallSpeedUMPerS float64, 
 		d.Bands = append(d.Bands, b)
 	}
 	d.Banded = len(m.Rates) > 1
-	switch {
-	case d.WallSlip && d.Banded:
-		d.Verdict = summary.WallSlipBanded
-	case d.WallSlip:
-		d.Verdict = summary.WallSlip
-	case d.Banded:
-		d.Verdict = summary.Banded
-	default:
-		d.Verdict = summary.Homogeneous
-	}
+	d.Verdict = summary.VerdictOf(d.WallSlip, d.Banded)
 	return d, nil
 }
 

@@ -121,6 +121,20 @@ const (
 	WallSlipBanded = "wall_slip+banded"
 )
 
+// VerdictOf returns the verdict of a shear phase with or without
+// significant wall slip and more than one band.
+func VerdictOf(wallSlip, banded bool) string {
+	switch {
+	case wallSlip && banded:
+		return WallSlipBanded
+	case wallSlip:
+		return WallSlip
+	case banded:
+		return Banded
+	}
+	return Homogeneous
+}
+
 // ShearPhase is the rheometric decomposition of one shear phase.
 type ShearPhase struct {
 	StartS                    float64    `json:"start_s"`

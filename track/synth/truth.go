@@ -134,16 +134,7 @@ func (s *Scenario) shearTruth(startS, endS, vUMPerS, nominalPerS float64) summar
 		}
 	}
 	sp.Banded = len(sp.Bands) > 1
-	switch {
-	case sp.WallSlip && sp.Banded:
-		sp.Verdict = summary.WallSlipBanded
-	case sp.WallSlip:
-		sp.Verdict = summary.WallSlip
-	case sp.Banded:
-		sp.Verdict = summary.Banded
-	default:
-		sp.Verdict = summary.Homogeneous
-	}
+	sp.Verdict = summary.VerdictOf(sp.WallSlip, sp.Banded)
 	return sp
 }
 
