@@ -14,7 +14,6 @@ import (
 	"gaptrace/calib/phases"
 	"gaptrace/profile/report/figure"
 	"gaptrace/profile/summary"
-	"gaptrace/track/frames"
 )
 
 func init() {
@@ -64,6 +63,7 @@ func runCalib(args []string, stderr io.Writer) error {
 	}
 	removeStale(*outDir, "calibration.json", "calibration.png")
 	c := &chain{expPath: *expPath, exp: exp, input: fs.Arg(0), progress: *prog, stderr: stderr}
+	defer c.close()
 	med, err := c.calibrate()
 	if err != nil {
 		return err
@@ -93,7 +93,7 @@ func runCalib(args []string, stderr io.Writer) error {
 // sets the calibration's flow sign from it and reports the detected phases
 // and their agreement with the motion program on stderr.
 func (c *chain) wallMotion(program experiment.Program) error {
-	src, err := c.openInput(frames.All)
+	src, err := c.takeInput()
 	if err != nil {
 		return err
 	}

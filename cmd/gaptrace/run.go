@@ -81,6 +81,7 @@ func runChain(o runOptions, stderr io.Writer) (*summary.Summary, error) {
 		}
 	}
 	c := &chain{expPath: o.expPath, exp: exp, input: o.input, progress: o.progress, stderr: stderr, noJitter: o.noJitter}
+	defer c.close()
 	med, err := c.calibrate()
 	if err != nil {
 		return nil, err

@@ -42,6 +42,7 @@ func runTrack(args []string, stderr io.Writer) error {
 	}
 	removeStale(*outDir, "tracks.csv", "calibration.json")
 	c := &chain{expPath: *expPath, exp: exp, input: fs.Arg(0), progress: *prog, stderr: stderr}
+	defer c.close()
 	med, err := c.calibrate()
 	if err != nil {
 		return err

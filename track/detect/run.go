@@ -19,7 +19,8 @@ import (
 // the number of frames. The detections do not depend on the number of
 // workers. emit may keep dets. With PolarityAuto the polarity is decided on
 // the first frame and kept for all. A frames.Packets source (Motion JPEG) is
-// read undecoded and its frames decoded by the workers.
+// read undecoded and its frames decoded by the workers; the frames it holds
+// decoded already (a frames.Head) go to the workers as they are.
 //
 // Run stops at the first error, from src, a Detector or emit, and returns it.
 func Run(src frames.Source, bg gocv.Mat, opt Options, emit func(frame int, dets []Detection) error) error {
@@ -87,8 +88,10 @@ func Run(src frames.Source, bg gocv.Mat, opt Options, emit func(frame int, dets 
 	// next reads the next frame of src into buffer b.
 	next := func(b int) (job, error) {
 		if packets != nil {
-			i, pk, err := packets.NextPacket(pktBuf[b])
-			pktBuf[b] = pk
+			i, pk, err := packets.NextPacket(pktBuf[b], &pool[b])
+			if pk != nil {
+				pktBuf[b] = pk
+			}
 			return job{index: i, buf: b, packet: pk}, err
 		}
 		i, err := src.Next(&pool[b])
@@ -109,7 +112,7 @@ func Run(src frames.Source, bg gocv.Mat, opt Options, emit func(frame int, dets 
 			return err
 		}
 		img := pool[firstJob.buf]
-		if packets != nil {
+		if firstJob.packet != nil {
 			img = gocv.NewMat()
 			defer img.Close()
 			err = packets.Decode(firstJob.index, firstJob.packet, &img)

@@ -306,8 +306,10 @@ type Packets interface {
 	Source
 	// NextPacket reads the next frame of the range undecoded, into buf's
 	// memory when it is large enough, and returns the frame's index and
-	// its bytes; io.EOF at the end.
-	NextPacket(buf []byte) (index int, packet []byte, err error)
+	// its bytes; io.EOF at the end. A source that holds the frame decoded
+	// already (a Head) puts it in dst instead, as Next would, and returns
+	// a nil packet.
+	NextPacket(buf []byte, dst *gocv.Mat) (index int, packet []byte, err error)
 	// Decode decodes the packet of frame index into dst as Next would. It
 	// may be called from several goroutines at once.
 	Decode(index int, packet []byte, dst *gocv.Mat) error
@@ -316,7 +318,7 @@ type Packets interface {
 // jpegVideo is a video of independent JPEG frames.
 type jpegVideo struct{ *video }
 
-func (v *jpegVideo) NextPacket(buf []byte) (int, []byte, error) {
+func (v *jpegVideo) NextPacket(buf []byte, _ *gocv.Mat) (int, []byte, error) {
 	i, err := v.advance()
 	if err != nil {
 		return 0, nil, err

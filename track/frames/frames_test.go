@@ -300,7 +300,7 @@ func TestPackets(t *testing.T) {
 	}
 	var pkts []pkt
 	for {
-		i, b, err := p.NextPacket(nil)
+		i, b, err := p.NextPacket(nil, nil)
 		if errors.Is(err, io.EOF) {
 			break
 		}

@@ -1,10 +1,8 @@
 package frames
 
 import (
-	"errors"
 	"fmt"
 	"gaptrace/track/internal/order"
-	"io"
 	"runtime"
 	"sync"
 
@@ -27,28 +25,33 @@ func Median(src Source, maxFrames int) (gocv.Mat, error) {
 		return gocv.NewMat(), fmt.Errorf("frames: median of %d frames: need at least 1", maxFrames)
 	}
 	info := src.Info()
-	if info.BitDepth == 16 {
-		return median[uint16](src, info, maxFrames, (*gocv.Mat).DataPtrUint16)
+	var held []heldFrame
+	var err error
+	if pk, ok := src.(Packets); ok {
+		held, err = decodePackets(pk, maxFrames)
+	} else {
+		held, err = readFrames(src, maxFrames)
 	}
-	return median[uint8](src, info, maxFrames, (*gocv.Mat).DataPtrUint8)
-}
-
-func median[T uint8 | uint16](src Source, info Info, maxFrames int, data func(*gocv.Mat) ([]T, error)) (gocv.Mat, error) {
-	nPx := info.WidthPx * info.HeightPx
-	stack, err := readStack(src, info, maxFrames, data)
+	defer closeHeld(held)
 	if err != nil {
 		return gocv.NewMat(), err
 	}
-	k := len(stack)
-	if k == 0 {
+	if len(held) == 0 {
 		return gocv.NewMat(), fmt.Errorf("frames: %s: median: %w in the range", info.Path, errEmpty)
 	}
-	out := gocv.NewMatWithSize(info.HeightPx, info.WidthPx, gocv.MatTypeCV32F)
-	dst, err := out.DataPtrFloat32()
-	if err != nil {
-		out.Close()
-		return gocv.NewMat(), err
+	if info.BitDepth == 16 {
+		return medianOfHeld(held, info, (*gocv.Mat).DataPtrUint16)
 	}
+	return medianOfHeld(held, info, (*gocv.Mat).DataPtrUint8)
+}
+
+// medianOfStack returns the per-pixel median of the frames' pixels in stack
+// as a CV_32F Mat, computed on GOMAXPROCS goroutines.
+func medianOfStack[T uint8 | uint16](stack [][]T, info Info) gocv.Mat {
+	nPx := info.WidthPx * info.HeightPx
+	k := len(stack)
+	out := gocv.NewMatWithSize(info.HeightPx, info.WidthPx, gocv.MatTypeCV32F)
+	dst, _ := out.DataPtrFloat32() // a new continuous CV_32F Mat
 	workers := runtime.GOMAXPROCS(0)
 	var wg sync.WaitGroup
 	chunk := (nPx + workers - 1) / workers
@@ -77,108 +80,7 @@ func median[T uint8 | uint16](src Source, info Info, maxFrames int, data func(*g
 		}()
 	}
 	wg.Wait()
-	return out, nil
-}
-
-// readStack reads at most maxFrames frames of src and returns a copy of
-// each frame's pixels, in reading order. A Packets source is decoded on all
-// cores.
-func readStack[T uint8 | uint16](src Source, info Info, maxFrames int, data func(*gocv.Mat) ([]T, error)) ([][]T, error) {
-	nPx := info.WidthPx * info.HeightPx
-	keep := func(m *gocv.Mat, i int) ([]T, error) {
-		px, err := data(m)
-		if err != nil || len(px) != nPx {
-			return nil, fmt.Errorf("frames: %s: frame %d: not a %dx%d %d-bit grey image", info.Path, i, info.WidthPx, info.HeightPx, info.BitDepth)
-		}
-		return append([]T(nil), px...), nil
-	}
-	var stack [][]T
-	if pk, ok := src.(Packets); ok {
-		return readPackets(pk, maxFrames, keep)
-	}
-	frame := gocv.NewMat()
-	defer frame.Close()
-	for len(stack) < maxFrames {
-		i, err := src.Next(&frame)
-		if errors.Is(err, io.EOF) {
-			break
-		}
-		if err != nil {
-			return nil, err
-		}
-		px, err := keep(&frame, i)
-		if err != nil {
-			return nil, err
-		}
-		stack = append(stack, px)
-	}
-	return stack, nil
-}
-
-// readPackets reads at most maxFrames packets of src and decodes them on
-// GOMAXPROCS workers, each with its own Mat; keep copies a decoded frame's
-// pixels. The first error in reading order is returned.
-func readPackets[T uint8 | uint16](src Packets, maxFrames int, keep func(*gocv.Mat, int) ([]T, error)) ([][]T, error) {
-	type job struct {
-		k, index int
-		packet   []byte
-	}
-	var (
-		out  [][]T
-		errs []error
-	)
-	jobs := make(chan job)
-	var mu sync.Mutex
-	put := func(k int, px []T, err error) {
-		mu.Lock()
-		defer mu.Unlock()
-		for len(out) <= k {
-			out, errs = append(out, nil), append(errs, nil)
-		}
-		out[k], errs[k] = px, err
-	}
-	var wg sync.WaitGroup
-	for w := 0; w < runtime.GOMAXPROCS(0); w++ {
-		wg.Add(1)
-		go func() {
-			defer wg.Done()
-			m := gocv.NewMat()
-			defer m.Close()
-			for j := range jobs {
-				if err := src.Decode(j.index, j.packet, &m); err != nil {
-					put(j.k, nil, err)
-					continue
-				}
-				px, err := keep(&m, j.index)
-				put(j.k, px, err)
-			}
-		}()
-	}
-	var readErr error
-	n := 0
-	for n < maxFrames {
-		i, pkt, err := src.NextPacket(nil)
-		if errors.Is(err, io.EOF) {
-			break
-		}
-		if err != nil {
-			readErr = err
-			break
-		}
-		jobs <- job{n, i, pkt}
-		n++
-	}
-	close(jobs)
-	wg.Wait()
-	for k := 0; k < n; k++ {
-		if errs[k] != nil {
-			return nil, errs[k]
-		}
-	}
-	if readErr != nil {
-		return nil, readErr
-	}
-	return out[:n], nil
+	return out
 }
 
 // medianOf returns the median of v, reordering v.
