@@ -25,17 +25,17 @@ import (
 // the step's): then the reflection's odd-symmetric flanks fix y0. Otherwise
 // the wall is the centre of the step alone (c = 0).
 const (
-	refineHalfPx = 6   // rows on each side of the coarse wall that the model sees
-	searchHalfPx = 2.5 // y0 is searched this far from the coarse wall
-	searchStepPx = 0.2 // grid step of the y0 search before golden-section refinement
-	goldenIter   = 25  // golden-section steps: the bracket shrinks to 1e-6 px
+	refineHalfPx = 6    // rows on each side of the coarse wall that the model sees
+	searchHalfPx = 2.5  // y0 is searched this far from the coarse wall
+	searchStepPx = 0.2  // grid step of the y0 search before golden-section refinement
+	locateTolPx  = 1e-6 // Brent's method places y0 to this, px
 	// The width refinements move the widths by at most sigmaRounds *
 	// sigmaStepPx, which moves a strip's best y0 by a fraction of that, so
-	// they search y0 within warmHalfPx of where it was at their start.
-	// warmGoldenIter steps shrink the bracket to 4e-4 px, where the
-	// residual, quadratic about its minimum, is within 1e-6 of it.
+	// they search y0 within warmHalfPx of where it was at their start, to
+	// warmTolPx, where the residual, quadratic about its minimum, is within
+	// 1e-6 of it.
 	warmHalfPx      = 0.6
-	warmGoldenIter  = 15
+	warmTolPx       = 4e-4
 	sigmaMinPx      = 0.2  // blur and line widths tried for the wall model, px
 	sigmaMaxPx      = 2.05 //
 	sigmaStepPx     = 0.1  //
@@ -43,7 +43,7 @@ const (
 	sigmaCandidates = 3    // grid cells refined on many strips
 	refineStride    = 1    // every refineStride-th strip refines the widths
 	sigmaRounds     = 2    // rounds of width refinement off the grid
-	sigmaGoldenIter = 10   // golden-section steps per width: 0.2 px shrinks to 2e-3 px
+	sigmaTolPx      = 2e-3 // Brent's method finds each width to this, px
 	sigmaFloorPx    = 0.1  // narrower than this a wall profile is not resolved
 	minRefineFrac   = 0.5  // at least this fraction of the strips must fit the model
 	// A reflection is on the wall when the model with it leaves at most
@@ -252,41 +252,29 @@ func psi(z float64) float64 { return z*phi(z) + math.Exp(-z*z/2)/math.Sqrt(2*mat
 // locate finds the y0 near yc with the least residual: a grid over
 // +-searchHalfPx, then golden-section refinement of the best cell.
 func (m *wallModel) locate(yc float64) (y0, b, c, sse float64) {
-	return m.search(yc, searchHalfPx, goldenIter)
+	return m.search(yc, searchHalfPx, locateTolPx)
 }
 
 // locateNear is locate for a wall known to lie within warmHalfPx of hint,
 // with a coarser final bracket: it serves the width searches, which need
 // the least residual, not the position.
 func (m *wallModel) locateNear(hint float64) (y0, b, c, sse float64) {
-	return m.search(hint, warmHalfPx, warmGoldenIter)
+	return m.search(hint, warmHalfPx, warmTolPx)
 }
 
-// search is locate over +-halfPx with iter golden-section steps.
-func (m *wallModel) search(yc, halfPx float64, iter int) (y0, b, c, sse float64) {
+// search is locate over +-halfPx: a grid, then Brent's method on the
+// best cell, to tolPx.
+func (m *wallModel) search(yc, halfPx, tolPx float64) (y0, b, c, sse float64) {
 	best, bestSSE := yc, math.Inf(1)
 	for d := -halfPx; d <= halfPx+1e-9; d += searchStepPx {
 		if _, _, _, e := m.fit(yc + d); e < bestSSE {
 			best, bestSSE = yc+d, e
 		}
 	}
-	lo, hi := best-searchStepPx, best+searchStepPx
-	g := (math.Sqrt(5) - 1) / 2
-	c, d := hi-g*(hi-lo), lo+g*(hi-lo)
-	_, _, _, fc := m.fit(c)
-	_, _, _, fd := m.fit(d)
-	for i := 0; i < iter; i++ {
-		if fc < fd {
-			hi, d, fd = d, c, fc
-			c = hi - g*(hi-lo)
-			_, _, _, fc = m.fit(c)
-		} else {
-			lo, c, fc = c, d, fd
-			d = lo + g*(hi-lo)
-			_, _, _, fd = m.fit(d)
-		}
-	}
-	y0 = (lo + hi) / 2
+	y0, _ = brentMin(best-searchStepPx, best+searchStepPx, best, bestSSE, tolPx, func(y float64) float64 {
+		_, _, _, e := m.fit(y)
+		return e
+	})
 	_, b, c, sse = m.fit(y0)
 	return y0, b, c, sse
 }
@@ -370,8 +358,8 @@ func shareWidths(top, bottom *Wall, mt, mb *wallModel, profs []stripProfile) {
 		a.se, a.sl, b.se, b.sl = se, sl, se, sl
 		both(func() { a.setHints(top, profs) }, func() { b.setHints(bottom, profs) })
 		for round := 0; round < sigmaRounds; round++ {
-			se = goldenMin(se-sigmaStepPx, se+sigmaStepPx, func(v float64) float64 { return sum(v, sl) })
-			sl = goldenMin(sl-sigmaStepPx, sl+sigmaStepPx, func(v float64) float64 { return sum(se, v) })
+			se = widthMin(se-sigmaStepPx, se+sigmaStepPx, func(v float64) float64 { return sum(v, sl) })
+			sl = widthMin(sl-sigmaStepPx, sl+sigmaStepPx, func(v float64) float64 { return sum(se, v) })
 		}
 		if e := sum(se, sl); e < bestSSE {
 			bestSE, bestSL, bestSSE = se, sl, e
@@ -429,8 +417,8 @@ func chooseModel(w *Wall, profs []stripProfile, box float64) *wallModel {
 			m.se, m.sl = c.se, c.sl
 			m.setHints(w, profs)
 			for round := 0; round < sigmaRounds; round++ {
-				m.se = goldenMin(m.se-sigmaStepPx, m.se+sigmaStepPx, func(v float64) float64 { m.se = v; return all() })
-				m.sl = goldenMin(m.sl-sigmaStepPx, m.sl+sigmaStepPx, func(v float64) float64 { m.sl = v; return all() })
+				m.se = widthMin(m.se-sigmaStepPx, m.se+sigmaStepPx, func(v float64) float64 { m.se = v; return all() })
+				m.sl = widthMin(m.sl-sigmaStepPx, m.sl+sigmaStepPx, func(v float64) float64 { m.sl = v; return all() })
 			}
 			if e := all(); e < bestSSE {
 				best, bestSSE = cell{m.se, m.sl, e, 0}, e
@@ -443,7 +431,7 @@ func chooseModel(w *Wall, profs []stripProfile, box float64) *wallModel {
 	m.line = false
 	m.se = stepSE
 	m.setHints(w, profs)
-	m.se = goldenMin(stepSE-sigmaStepPx, stepSE+sigmaStepPx, func(v float64) float64 { m.se = v; return all() })
+	m.se = widthMin(stepSE-sigmaStepPx, stepSE+sigmaStepPx, func(v float64) float64 { m.se = v; return all() })
 	m.setHints(w, nil)
 	return m
 }
@@ -476,25 +464,94 @@ func (m *wallModel) total(w *Wall, profs []stripProfile, step int) (sse, lineFra
 	return sse, median(fr), median(mis)
 }
 
-// goldenMin returns the minimiser of f on [lo, hi] (clamped to positive
-// widths) by golden-section search.
-func goldenMin(lo, hi float64, f func(float64) float64) float64 {
+// widthMin returns the minimiser of f on [lo, hi] (clamped to positive
+// widths), to sigmaTolPx.
+func widthMin(lo, hi float64, f func(float64) float64) float64 {
 	lo = math.Max(lo, sigmaFloorPx)
-	g := (math.Sqrt(5) - 1) / 2
-	c, d := hi-g*(hi-lo), lo+g*(hi-lo)
-	fc, fd := f(c), f(d)
-	for i := 0; i < sigmaGoldenIter; i++ {
-		if fc < fd {
-			hi, d, fd = d, c, fc
-			c = hi - g*(hi-lo)
-			fc = f(c)
+	x := (lo + hi) / 2
+	x, _ = brentMin(lo, hi, x, f(x), sigmaTolPx, f)
+	return x
+}
+
+// brentMaxIter bounds Brent's method; with golden-section steps alone it
+// shrinks a bracket by 1e-10 in 48 steps, so it never binds on the
+// tolerances used here.
+const brentMaxIter = 60
+
+// brentMin returns the minimiser of f on [a, b] and f there, by Brent's
+// method: successive parabolic interpolation, falling back on golden-section
+// steps where the parabola is not trusted (Brent 1973, Algorithms for
+// Minimization without Derivatives, ch. 5, procedure localmin). x in [a, b]
+// is the starting point and fx = f(x). The minimiser is found to within
+// about tol.
+func brentMin(a, b, x, fx, tol float64, f func(float64) float64) (float64, float64) {
+	const cgold = 0.3819660112501051 // (3 - sqrt(5)) / 2
+	const relEps = 1.5e-8            // square root of the float64 epsilon
+	w, v, fw, fv := x, x, fx, fx
+	var d, e float64
+	for range brentMaxIter {
+		mid := (a + b) / 2
+		tol1 := relEps*math.Abs(x) + tol/3
+		tol2 := 2 * tol1
+		if math.Abs(x-mid) <= tol2-(b-a)/2 {
+			break
+		}
+		golden := true
+		if math.Abs(e) > tol1 {
+			// The parabola through (v, fv), (w, fw), (x, fx).
+			r := (x - w) * (fx - fv)
+			q := (x - v) * (fx - fw)
+			p := (x-v)*q - (x-w)*r
+			q = 2 * (q - r)
+			if q > 0 {
+				p = -p
+			} else {
+				q = -q
+			}
+			r, e = e, d
+			if math.Abs(p) < math.Abs(q*r/2) && p > q*(a-x) && p < q*(b-x) {
+				d = p / q
+				if u := x + d; u-a < tol2 || b-u < tol2 {
+					d = math.Copysign(tol1, mid-x)
+				}
+				golden = false
+			}
+		}
+		if golden {
+			if x < mid {
+				e = b - x
+			} else {
+				e = a - x
+			}
+			d = cgold * e
+		}
+		u := x + d
+		if math.Abs(d) < tol1 {
+			u = x + math.Copysign(tol1, d)
+		}
+		fu := f(u)
+		if fu <= fx {
+			if u < x {
+				b = x
+			} else {
+				a = x
+			}
+			v, fv, w, fw, x, fx = w, fw, x, fx, u, fu
+			continue
+		}
+		if u < x {
+			a = u
 		} else {
-			lo, c, fc = c, d, fd
-			d = lo + g*(hi-lo)
-			fd = f(d)
+			b = u
+		}
+		switch {
+		case fu <= fw || w == x:
+			v, fv, w, fw = w, fw, u, fu
+		case fu <= fv || v == x || v == w:
+			v, fv = u, fu
 		}
 	}
-	return (lo + hi) / 2
+	return x, fx
 }
 
 // placeWall fits the model m in every strip and a robust line through the
