@@ -4,7 +4,9 @@ import (
 	"fmt"
 	"gaptrace/track/internal/grid"
 	"math"
+	"runtime"
 	"sort"
+	"sync"
 
 	"gaptrace/calib"
 	"gaptrace/track/tracks"
@@ -338,6 +340,24 @@ func byTrack(pts []tracks.Point) []tracks.Point {
 	return c
 }
 
+// trackRuns cuts pts, grouped by track, into at most n runs of about equal
+// length that do not split a track.
+func trackRuns(pts []tracks.Point, n int) [][]tracks.Point {
+	var runs [][]tracks.Point
+	for len(pts) > 0 {
+		cut := min(len(pts), (len(pts)+n-len(runs)-1)/max(1, n-len(runs)))
+		for cut < len(pts) && pts[cut].Track == pts[cut-1].Track && pts[cut].Track != tracks.Unlinked {
+			cut++
+		}
+		runs = append(runs, pts[:cut])
+		pts = pts[cut:]
+	}
+	if len(runs) == 0 {
+		runs = [][]tracks.Point{nil}
+	}
+	return runs
+}
+
 // eachStep calls fn for every pair of consecutive points one frame apart in
 // the same track.
 func eachStep(pts []tracks.Point, fn func(a, b *tracks.Point)) {
@@ -653,40 +673,75 @@ func QuickCommonMode(pts []tracks.Point, field Field, frames int) []Shift {
 		return nil
 	}
 	// Residuals of the steps, grouped by the newer point's frame: counted
-	// first, so that they fill two flat arrays.
-	start := make([]int, frames+1)
+	// first, so that they fill two flat arrays. The tracks are split into
+	// one run per core; the runs keep the order of a single pass, so the
+	// result does not depend on the number of cores.
 	type res struct {
 		f      int
 		dx, dy float64
 	}
-	var rs []res
-	eachStep(pts, func(a, b *tracks.Point) {
-		if b.Frame < 1 || b.Frame >= frames {
-			return
+	runs := trackRuns(byTrack(pts), runtime.GOMAXPROCS(0))
+	found := make([][]res, len(runs))
+	counts := make([][]int, len(runs))
+	var wg sync.WaitGroup
+	for k, run := range runs {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			cnt := make([]int, frames+1)
+			var rs []res
+			for i := 1; i < len(run); i++ {
+				a, b := &run[i-1], &run[i]
+				if a.Track == tracks.Unlinked || a.Track != b.Track || b.Frame != a.Frame+1 ||
+					b.Frame < 1 || b.Frame >= frames {
+					continue
+				}
+				px, py, ok := field.Step(a.Frame, a.YUM)
+				if !ok {
+					continue
+				}
+				rs = append(rs, res{b.Frame, b.XPx - a.XPx - px, b.YPx - a.YPx - py})
+				cnt[b.Frame+1]++
+			}
+			found[k], counts[k] = rs, cnt
+		}()
+	}
+	wg.Wait()
+	start := make([]int, frames+1)
+	for _, cnt := range counts {
+		for f := range start {
+			start[f] += cnt[f]
 		}
-		px, py, ok := field.Step(a.Frame, a.YUM)
-		if !ok {
-			return
-		}
-		rs = append(rs, res{b.Frame, b.XPx - a.XPx - px, b.YPx - a.YPx - py})
-		start[b.Frame+1]++
-	})
+	}
 	for f := 1; f <= frames; f++ {
 		start[f] += start[f-1]
 	}
-	rx, ry := make([]float64, len(rs)), make([]float64, len(rs))
+	rx, ry := make([]float64, start[frames]), make([]float64, start[frames])
 	fill := append([]int(nil), start[:frames]...)
-	for _, r := range rs {
-		rx[fill[r.f]], ry[fill[r.f]] = r.dx, r.dy
-		fill[r.f]++
+	for _, rs := range found {
+		for _, r := range rs {
+			rx[fill[r.f]], ry[fill[r.f]] = r.dx, r.dy
+			fill[r.f]++
+		}
 	}
+	// The frames' medians, on all cores, then their running sum.
+	mx, my := make([]float64, frames), make([]float64, frames)
+	perCore := (frames + len(runs) - 1) / len(runs)
+	for f0 := 1; f0 < frames; f0 += perCore {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			for f := f0; f < min(f0+perCore, frames); f++ {
+				if lo, hi := start[f], start[f+1]; hi-lo >= minCommonPoints {
+					mx[f], my[f] = median(rx[lo:hi]), median(ry[lo:hi])
+				}
+			}
+		}()
+	}
+	wg.Wait()
 	cx, cy := make([]float64, frames), make([]float64, frames)
 	for f := 1; f < frames; f++ {
-		cx[f], cy[f] = cx[f-1], cy[f-1]
-		if lo, hi := start[f], start[f+1]; hi-lo >= minCommonPoints {
-			cx[f] += median(rx[lo:hi])
-			cy[f] += median(ry[lo:hi])
-		}
+		cx[f], cy[f] = cx[f-1]+mx[f], cy[f-1]+my[f]
 	}
 	for lo := 0; lo < frames; lo += quickStretchFrames {
 		hi := min(lo+quickStretchFrames, frames)

@@ -3,6 +3,7 @@ package flowprior
 import (
 	"math"
 	"math/rand/v2"
+	"runtime"
 	"testing"
 
 	"gocv.io/x/gocv"
@@ -290,5 +291,58 @@ func TestErrors(t *testing.T) {
 	}
 	if _, err := CommonModeFromTracks(nil, cal, 0); err == nil {
 		t.Error("zero frames: no error")
+	}
+}
+
+// TestQuickCommonModeParallel checks that QuickCommonMode gives the same
+// offsets, bit for bit, on one core and on several (it splits the tracks
+// into one run per core), that it finds a known common-mode shake, and
+// runs under the race detector (make test).
+func TestQuickCommonModeParallel(t *testing.T) {
+	const frames = 120
+	rng := rand.New(rand.NewPCG(7, 8))
+	shake := make([]float64, frames) // px along x, the same for every tracer
+	for f := range shake {
+		shake[f] = 0.5 * math.Sin(float64(f))
+	}
+	var pts []tracks.Point
+	for id := 0; id < 400; id++ {
+		yUM := 800 * rng.Float64()
+		x0 := 600 * rng.Float64()
+		first, last := rng.IntN(10), frames-1-rng.IntN(10)
+		for f := first; f <= last; f++ {
+			x := x0 + 2*yUM/800*float64(f) + shake[f] + 0.05*rng.NormFloat64()
+			pts = append(pts, tracks.Point{Track: id, Frame: f, XPx: x, YPx: 450 - yUM/2, YUM: yUM})
+		}
+	}
+	pts = append(pts, tracks.Point{Track: tracks.Unlinked, Frame: 3, XPx: 1, YPx: 1, YUM: 400})
+	field := &Profile{YUM: []float64{0, 800}, DXPx: []float64{0, 2}, DYPx: []float64{0, 0}, N: []int{100, 100}}
+	defer runtime.GOMAXPROCS(runtime.GOMAXPROCS(1))
+	one := QuickCommonMode(pts, field, frames)
+	for _, procs := range []int{2, 3, 8} {
+		runtime.GOMAXPROCS(procs)
+		got := QuickCommonMode(pts, field, frames)
+		for f := range one {
+			if got[f] != one[f] {
+				t.Fatalf("%d cores: frame %d offset %+v, one core %+v", procs, f, got[f], one[f])
+			}
+		}
+	}
+	// The shake, less its line over each stretch, is what is found: the
+	// frame-to-frame differences are the shake's, but for a constant per
+	// stretch (the line's slope), here taken from frame 12.
+	var worst float64
+	ref := one[12].DXPx - one[11].DXPx - (shake[12] - shake[11])
+	for f := 11; f < min(frames, quickStretchFrames); f++ {
+		got := one[f].DXPx - one[f-1].DXPx - (shake[f] - shake[f-1])
+		worst = max(worst, math.Abs(got-ref))
+	}
+	// tol: each difference is a median of about 300 steps of noise 0.07 px,
+	// sd 1.25 x 0.07 / sqrt(300) = 0.005 px (the asymptotic sd of a median,
+	// from memory); two of them, 5 sd.
+	const tol = 0.035
+	t.Logf("frame-to-frame shake within %.4f px", worst)
+	if worst > tol {
+		t.Errorf("frame-to-frame shake off by up to %.3f px (tol %.3f)", worst, tol)
 	}
 }

@@ -58,3 +58,50 @@ func ExampleOpen() {
 	// frame 4 grey 4000
 	// median grey 2000
 }
+
+// Decode the first frames of a recording once: take their median for the
+// background, then read every frame, the first ones from memory.
+func ExampleReadHead() {
+	dir, _ := os.MkdirTemp("", "head-example")
+	defer os.RemoveAll(dir)
+	for f := 0; f < 6; f++ {
+		m := gocv.NewMatWithSizeFromScalar(gocv.NewScalar(float64(10*f), 0, 0, 0), 8, 12, gocv.MatTypeCV8U)
+		gocv.IMWrite(filepath.Join(dir, fmt.Sprintf("frame%d.png", f)), m)
+		m.Close()
+	}
+	src, err := frames.Open(dir, 50, frames.All)
+	if err != nil {
+		fmt.Println(err)
+		return
+	}
+	head, err := frames.ReadHead(src, 3)
+	if err != nil {
+		src.Close()
+		fmt.Println(err)
+		return
+	}
+	defer head.Close() // closes src too
+	bg, _ := head.Median()
+	px, _ := bg.DataPtrFloat32()
+	fmt.Println("median of", head.Len(), "frames:", px[0])
+	bg.Close()
+	head.ReadAhead(2) // while the caller works on the median
+	img := gocv.NewMat()
+	defer img.Close()
+	n := 0
+	for {
+		_, err := head.Next(&img)
+		if errors.Is(err, io.EOF) {
+			break
+		}
+		if err != nil {
+			fmt.Println(err)
+			return
+		}
+		n++
+	}
+	fmt.Println("frames read:", n)
+	// Output:
+	// median of 3 frames: 10
+	// frames read: 6
+}

@@ -5,7 +5,9 @@
 // A Source delivers the frames of a Range one at a time into a Mat the caller
 // reuses, so memory does not grow with the number of frames. Median computes
 // a per-pixel temporal median of a Source, the background that removes static
-// walls, reflections and stuck particles.
+// walls, reflections and stuck particles. A Head holds the first frames of a
+// Source decoded, so that they serve the median and are then read again
+// without being decoded twice.
 //
 // Videos whose frames are independent JPEG images (Motion JPEG) are decoded
 // straight to grey from the container's packets, which skips the colour

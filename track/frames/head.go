@@ -39,7 +39,10 @@ type Head struct {
 	aheadErr error
 	started  bool // a frame has been handed out: reading ahead is over
 	rest     bool // ahead is drained: read src directly
-	done     error
+	// aheadDone, once the held frames are handed out, ends the stream
+	// without reading src (io.EOF when the range ended inside the head).
+	aheadDone error
+	done      error
 }
 
 // heldFrame is one decoded frame and its index in the input.
@@ -70,6 +73,11 @@ func ReadHead(src Source, n int) (*Head, error) {
 		return nil, fmt.Errorf("frames: %s: %w in the range", h.info.Path, errEmpty)
 	}
 	h.n = len(h.held)
+	if h.n < n {
+		// The range ended inside the head: nothing is left to read.
+		h.rest = true
+		h.aheadDone = io.EOF
+	}
 	return h, nil
 }
 
@@ -205,7 +213,7 @@ func medianOfHeld[T uint8 | uint16](held []heldFrame, info Info, data func(*gocv
 // ReadHead, when the caller is about to spend a while on one core (finding
 // the walls on the median) before reading the frames.
 func (h *Head) ReadAhead(maxFrames int) {
-	if h.ahead != nil || h.started || maxFrames < 1 {
+	if h.ahead != nil || h.started || h.aheadDone != nil || maxFrames < 1 {
 		return
 	}
 	h.ahead = make(chan heldFrame, maxFrames)
@@ -266,6 +274,9 @@ func (h *Head) take(dst *gocv.Mat) (index int, ok bool, err error) {
 			}
 			return 0, false, nil
 		}
+	case h.aheadDone != nil:
+		h.done = h.aheadDone
+		return 0, false, h.done
 	default:
 		return 0, false, nil
 	}
@@ -322,8 +333,6 @@ func (h *Head) Close() error {
 	}
 	closeHeld(h.held)
 	h.held = nil
-	if h.done == nil {
-		h.done = fmt.Errorf("frames: %s: read after Close", h.info.Path)
-	}
+	h.done = fmt.Errorf("frames: %s: read after Close", h.info.Path)
 	return h.src.Close()
 }
