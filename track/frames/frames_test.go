@@ -341,9 +341,10 @@ func TestPackets(t *testing.T) {
 	}
 }
 
-func TestVideoTruncated(t *testing.T) {
-	const w, h, n = 64, 48, 30
-	path := filepath.Join(t.TempDir(), "v.avi")
+// truncatedVideo writes an n-frame MJPEG video cut to its first half.
+func truncatedVideo(t *testing.T, n, w, h int) string {
+	t.Helper()
+	path := filepath.Join(t.TempDir(), "cut.avi")
 	writeVideo(t, path, "MJPG", n, w, h)
 	b, err := os.ReadFile(path)
 	if err != nil {
@@ -352,6 +353,12 @@ func TestVideoTruncated(t *testing.T) {
 	if err := os.WriteFile(path, b[:len(b)/2], 0o644); err != nil {
 		t.Fatal(err)
 	}
+	return path
+}
+
+func TestVideoTruncated(t *testing.T) {
+	const w, h, n = 64, 48, 30
+	path := truncatedVideo(t, n, w, h)
 	s, err := Open(path, 0, All)
 	if err != nil {
 		t.Fatal(err)

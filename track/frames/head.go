@@ -61,12 +61,7 @@ func ReadHead(src Source, n int) (*Head, error) {
 	h := &Head{src: src, info: src.Info()}
 	h.pk, _ = src.(Packets)
 	var err error
-	if h.pk != nil {
-		h.held, err = decodePackets(h.pk, n)
-	} else {
-		h.held, err = readFrames(src, n)
-	}
-	if err != nil {
+	if h.held, err = readHeld(src, n); err != nil {
 		return nil, err
 	}
 	if len(h.held) == 0 {
@@ -79,6 +74,15 @@ func ReadHead(src Source, n int) (*Head, error) {
 		h.aheadDone = io.EOF
 	}
 	return h, nil
+}
+
+// readHeld reads at most n frames of src into new Mats, decoding a Packets
+// source on all cores.
+func readHeld(src Source, n int) ([]heldFrame, error) {
+	if pk, ok := src.(Packets); ok {
+		return decodePackets(pk, n)
+	}
+	return readFrames(src, n)
 }
 
 // readFrames reads at most n frames of src in order, each into a new Mat.

@@ -146,14 +146,7 @@ func TestHeadErrors(t *testing.T) {
 	const w, h, n = 64, 48, 30
 	path := filepath.Join(t.TempDir(), "v.avi")
 	writeVideo(t, path, "MJPG", n, w, h)
-	b, err := os.ReadFile(path)
-	if err != nil {
-		t.Fatal(err)
-	}
-	cut := filepath.Join(t.TempDir(), "cut.avi")
-	if err := os.WriteFile(cut, b[:len(b)/2], 0o644); err != nil {
-		t.Fatal(err)
-	}
+	cut := truncatedVideo(t, n, w, h)
 	s, err := Open(cut, 0, All)
 	if err != nil {
 		t.Fatal(err)

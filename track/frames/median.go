@@ -25,13 +25,7 @@ func Median(src Source, maxFrames int) (gocv.Mat, error) {
 		return gocv.NewMat(), fmt.Errorf("frames: median of %d frames: need at least 1", maxFrames)
 	}
 	info := src.Info()
-	var held []heldFrame
-	var err error
-	if pk, ok := src.(Packets); ok {
-		held, err = decodePackets(pk, maxFrames)
-	} else {
-		held, err = readFrames(src, maxFrames)
-	}
+	held, err := readHeld(src, maxFrames)
 	defer closeHeld(held)
 	if err != nil {
 		return gocv.NewMat(), err
