@@ -22,7 +22,7 @@ type Options struct {
 	// experiment file's folder. Empty means the working directory.
 	BaseDir string
 	// FlowSign is +1 or -1 when the direction of the moving wall in the
-	// image is known (from the video, see phases.FlowSign); 0 means +1.
+	// image is known (from the video, see profile/phases); 0 means +1.
 	FlowSign float64
 }
 

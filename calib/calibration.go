@@ -5,8 +5,9 @@
 // during the first shear phase, and y across the gap from the stationary wall
 // (y = 0) to the moving wall (y = gap), perpendicular to the walls.
 //
-// Sub-packages find the walls (walls), the scale from a target image
-// (target) and the phases of the experiment (phases).
+// Sub-packages describe the tool (geometry) and the experiment file
+// (experiment), and find the walls (walls) and the scale from a target image
+// (target).
 package calib
 
 import (

@@ -6,7 +6,7 @@ import (
 	"testing"
 
 	"gaptrace/profile/layers"
-	"gaptrace/profile/summary"
+	"gaptrace/profile/phases"
 )
 
 // The space-time map must have a value wherever there are tracers, at rest
@@ -110,7 +110,7 @@ func TestMapComplete(t *testing.T) {
 			mean, med, medPullLow, medPullHigh, 100*farFrac, farPull, 100*farPullFrac)
 	}
 	for _, ph := range r.Phases {
-		if ph.Kind == summary.Rest && ph.EndS > restEnd+1e-9 {
+		if ph.Kind == phases.Rest && ph.EndS > restEnd+1e-9 {
 			t.Errorf("rest phase %+v ends after %g s", ph, restEnd)
 		}
 	}

@@ -20,9 +20,9 @@ import (
 	"gaptrace/calib"
 	"gaptrace/calib/experiment"
 	"gaptrace/calib/geometry"
-	"gaptrace/calib/phases"
 	"gaptrace/profile/cessation"
 	"gaptrace/profile/layers"
+	"gaptrace/profile/phases"
 	"gaptrace/profile/rheometry"
 	"gaptrace/profile/summary"
 	"gaptrace/profile/velocity"
@@ -55,7 +55,7 @@ type Options struct {
 	// fluid's at the moving wall (with a warning), and the slip there is
 	// null. The end of a shear phase whose source is not "experiment" is
 	// placed where the tracks stop (cessation.RefineStop).
-	Phases []summary.Phase
+	Phases []phases.Phase
 	Seed   uint64
 }
 
@@ -127,7 +127,7 @@ type SpaceTime struct {
 
 // Result is the outcome of Analyze.
 type Result struct {
-	Phases      []summary.Phase
+	Phases      []phases.Phase
 	ShearPhases []summary.ShearPhase
 	AfterStop   *summary.AfterStop // nil without time after a shear phase
 	Warnings    []string
@@ -366,10 +366,10 @@ func shearSteps(p experiment.Program) []experiment.Step {
 
 // stepsOf returns a step for each shear phase of ph: its times, with the
 // speeds of the program step it overlaps most, or unknown (NaN) speeds.
-func stepsOf(ph []summary.Phase, p experiment.Program) []experiment.Step {
+func stepsOf(ph []phases.Phase, p experiment.Program) []experiment.Step {
 	var out []experiment.Step
 	for _, f := range ph {
-		if f.Kind != summary.Shear {
+		if f.Kind != phases.Shear {
 			continue
 		}
 		st := experiment.Step{StartS: f.StartS, EndS: f.EndS, WallSpeedUMPerS: math.NaN(), RatePerS: math.NaN(), Strain: math.NaN()}
@@ -412,12 +412,12 @@ func fillShear(sp *summary.ShearPhase, d *rheometry.Decomposition) {
 func (r *Result) refineStops(ts []velocity.Track, steps []experiment.Step, dt, sigma float64) {
 	k := 0
 	for i, ph := range r.Phases {
-		if ph.Kind != summary.Shear || k >= len(steps) {
+		if ph.Kind != phases.Shear || k >= len(steps) {
 			continue
 		}
 		st := &steps[k]
 		k++
-		if ph.Source == sourceExperiment {
+		if ph.Source == phases.SourceExperiment {
 			continue
 		}
 		stop, err := cessation.RefineStop(ts, ph.EndS, dt, sigma)
@@ -441,10 +441,6 @@ func (r *Result) refineStops(ts []velocity.Track, steps []experiment.Step, dt, s
 // stopNoteFrames is the least move of a stop, in frames, worth a warning:
 // less is within what a detection in the video promises.
 const stopNoteFrames = 0.25
-
-// sourceExperiment is the phase source of times taken from the experiment
-// file's motion program.
-const sourceExperiment = "experiment"
 
 // wallFromFluid fills in the wall speed of a shear phase that no motion
 // program gives: the fluid's speed at the moving wall, extrapolated from the
@@ -548,7 +544,7 @@ func (r *Result) afterStop(ts []velocity.Track, steps []experiment.Step, o Optio
 	}
 	co := cessation.Options{StopS: st.EndS, EndS: t1, ShearSense: sense,
 		GapUM: gap, DtS: dt, SigmaUM: sigma, Bins: o.Bins, Seed: o.Seed + 3000}
-	if len(r.Phases) > 0 && r.Phases[0].Kind == summary.Rest {
+	if len(r.Phases) > 0 && r.Phases[0].Kind == phases.Rest {
 		co.RestS = [2]float64{r.Phases[0].StartS, r.Phases[0].EndS}
 	}
 	c, err := cessation.Analyze(ts, co)

@@ -6,6 +6,7 @@ import (
 	"math"
 	"strconv"
 
+	"gaptrace/profile/phases"
 	"gaptrace/profile/summary"
 	"gaptrace/track/tracks"
 )
@@ -73,7 +74,7 @@ func (r *Result) AfterStopCSV() []byte {
 func (r *Result) Fill(s *summary.Summary) {
 	s.Phases = r.Phases
 	if s.Phases == nil {
-		s.Phases = []summary.Phase{}
+		s.Phases = []phases.Phase{}
 	}
 	s.ShearPhases = r.ShearPhases
 	s.AfterStop = r.AfterStop

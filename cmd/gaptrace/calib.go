@@ -10,10 +10,10 @@ import (
 	"gocv.io/x/gocv"
 
 	"gaptrace/calib"
+	"gaptrace/calib/atomicfile"
 	"gaptrace/calib/experiment"
-	"gaptrace/calib/phases"
+	"gaptrace/profile/phases"
 	"gaptrace/profile/report/figure"
-	"gaptrace/profile/summary"
 )
 
 func init() {
@@ -149,5 +149,5 @@ func writeCalibOverlay(path string, med gocv.Mat, cal *calib.Calibration) error 
 		return fmt.Errorf("calibration.png: %w", err)
 	}
 	defer buf.Close()
-	return summary.WriteFileAtomic(path, append([]byte(nil), buf.GetBytes()...))
+	return atomicfile.WriteBytes(path, append([]byte(nil), buf.GetBytes()...))
 }

@@ -13,9 +13,9 @@ import (
 	"gocv.io/x/gocv"
 
 	"gaptrace/calib"
+	"gaptrace/calib/atomicfile"
 	"gaptrace/calib/experiment"
-	"gaptrace/calib/phases"
-	"gaptrace/profile/summary"
+	"gaptrace/profile/phases"
 	"gaptrace/track/detect"
 	"gaptrace/track/frames"
 	"gaptrace/track/link"
@@ -244,7 +244,7 @@ func (c *chain) linkAll(dets [][]link.Detection) ([]tracks.Point, link.Stats, er
 
 // writeTracks writes tracks.csv atomically.
 func writeTracks(path string, pts []tracks.Point) error {
-	return summary.WriteAtomic(path, func(w io.Writer) error { return tracks.WriteCSV(w, pts) })
+	return atomicfile.Write(path, func(w io.Writer) error { return tracks.WriteCSV(w, pts) })
 }
 
 // writeCalibJSON writes calibration.json atomically.
@@ -253,7 +253,7 @@ func writeCalibJSON(path string, cal *calib.Calibration) error {
 	if err != nil {
 		return err
 	}
-	return summary.WriteFileAtomic(path, append(b, '\n'))
+	return atomicfile.WriteBytes(path, append(b, '\n'))
 }
 
 // wallStripFraction is the part of the gap next to the moving wall whose
@@ -295,7 +295,7 @@ func (c *chain) wallSignal(pts []tracks.Point, nFrames int) []float64 {
 // travels towards -x of the image), and reconciles them with the motion
 // program. It returns the phases to pass to the analysis (nil: the
 // program's) and warnings.
-func (c *chain) detectPhases(pts []tracks.Point, nFrames int) ([]summary.Phase, []string) {
+func (c *chain) detectPhases(pts []tracks.Point, nFrames int) ([]phases.Phase, []string) {
 	prog := c.exp.Program()
 	det, err := phases.Detect(c.wallSignal(pts, nFrames), c.info.FPS)
 	if err != nil {

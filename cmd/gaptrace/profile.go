@@ -9,8 +9,10 @@ import (
 	"strings"
 
 	"gaptrace/calib"
+	"gaptrace/calib/atomicfile"
 	"gaptrace/calib/experiment"
 	"gaptrace/profile"
+	"gaptrace/profile/phases"
 	"gaptrace/profile/summary"
 	"gaptrace/track/frames"
 	"gaptrace/track/tracks"
@@ -129,7 +131,7 @@ func runProfile(args []string, stderr io.Writer) error {
 	}
 	// Without a motion program the phases come from the tracks beside the
 	// moving wall, as in run.
-	var detected []summary.Phase
+	var detected []phases.Phase
 	var phaseWarnings []string
 	if len(e.Program()) == 0 && fps > 0 {
 		ch := &chain{exp: e, cal: c, info: frames.Info{FPS: fps}}
@@ -149,10 +151,10 @@ func runProfile(args []string, stderr io.Writer) error {
 	}
 	s.Input = summary.Input{Path: in, Frames: maxFrame + 1, FPS: fps, WidthPx: c.WidthPx, HeightPx: c.HeightPx}
 	r.Fill(s)
-	if err := summary.WriteFileAtomic(filepath.Join(*out, profileTableName), r.ProfilesCSV()); err != nil {
+	if err := atomicfile.WriteBytes(filepath.Join(*out, profileTableName), r.ProfilesCSV()); err != nil {
 		return err
 	}
-	if err := summary.WriteFileAtomic(filepath.Join(*out, afterStopTableName), r.AfterStopCSV()); err != nil {
+	if err := atomicfile.WriteBytes(filepath.Join(*out, afterStopTableName), r.AfterStopCSV()); err != nil {
 		return err
 	}
 	return s.Write(filepath.Join(*out, profileSummaryName))

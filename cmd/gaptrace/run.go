@@ -9,6 +9,7 @@ import (
 
 	"gocv.io/x/gocv"
 
+	"gaptrace/calib/atomicfile"
 	"gaptrace/profile"
 	"gaptrace/profile/report"
 	"gaptrace/profile/report/figure"
@@ -115,10 +116,10 @@ func runChain(o runOptions, stderr io.Writer) (*summary.Summary, error) {
 	s.Warnings = append(s.Warnings, c.cal.Warnings...)
 	s.Warnings = append(s.Warnings, phaseWarnings...)
 	r.Fill(s)
-	if err := summary.WriteFileAtomic(filepath.Join(o.outDir, profileTableName), r.ProfilesCSV()); err != nil {
+	if err := atomicfile.WriteBytes(filepath.Join(o.outDir, profileTableName), r.ProfilesCSV()); err != nil {
 		return nil, err
 	}
-	if err := summary.WriteFileAtomic(filepath.Join(o.outDir, afterStopTableName), r.AfterStopCSV()); err != nil {
+	if err := atomicfile.WriteBytes(filepath.Join(o.outDir, afterStopTableName), r.AfterStopCSV()); err != nil {
 		return nil, err
 	}
 	d := report.FromAnalysis(s, exp, r)

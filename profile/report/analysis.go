@@ -10,6 +10,7 @@ import (
 	"gaptrace/profile"
 	"gaptrace/profile/cessation"
 	"gaptrace/profile/layers"
+	"gaptrace/profile/phases"
 	"gaptrace/profile/report/figure"
 	"gaptrace/profile/summary"
 )
@@ -86,7 +87,7 @@ func FromAnalysis(s *summary.Summary, e *experiment.Experiment, r *profile.Resul
 }
 
 // phaseBoundaries are the times at which the time line changes phase.
-func phaseBoundaries(ps []summary.Phase) []float64 {
+func phaseBoundaries(ps []phases.Phase) []float64 {
 	var b []float64
 	for i, p := range ps {
 		if i > 0 {

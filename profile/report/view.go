@@ -5,6 +5,7 @@ import (
 	"strconv"
 
 	"gaptrace/calib/geometry"
+	"gaptrace/profile/phases"
 	"gaptrace/profile/summary"
 )
 
@@ -195,11 +196,11 @@ func scaleSource(s string) string {
 
 func phaseKind(k string) string {
 	switch k {
-	case summary.Rest:
+	case phases.Rest:
 		return "rest"
-	case summary.Shear:
+	case phases.Shear:
 		return "shear"
-	case summary.AfterStopKind:
+	case phases.AfterStop:
 		return "after the stop"
 	}
 	return k

@@ -10,8 +10,8 @@ import (
 	"runtime"
 	"sync"
 
+	"gaptrace/calib/atomicfile"
 	"gaptrace/profile/report/figure"
-	"gaptrace/profile/summary"
 )
 
 // FileName is the name of the report page in the output folder.
@@ -69,7 +69,7 @@ func Write(dir string, d *Data) ([]string, error) {
 			b   []byte
 		}{{".png", f.fig.PNG}, {".svg", f.fig.SVG}} {
 			name := f.Stem + part.ext
-			if err := summary.WriteFileAtomic(filepath.Join(dir, name), part.b); err != nil {
+			if err := atomicfile.WriteBytes(filepath.Join(dir, name), part.b); err != nil {
 				return names, fmt.Errorf("report: %w", err)
 			}
 			names = append(names, name)
@@ -79,7 +79,7 @@ func Write(dir string, d *Data) ([]string, error) {
 	if err != nil {
 		return names, err
 	}
-	if err := summary.WriteFileAtomic(filepath.Join(dir, FileName), page); err != nil {
+	if err := atomicfile.WriteBytes(filepath.Join(dir, FileName), page); err != nil {
 		return names, fmt.Errorf("report: %w", err)
 	}
 	return append(names, FileName), nil

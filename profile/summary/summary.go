@@ -8,13 +8,13 @@ package summary
 import (
 	"encoding/json"
 	"fmt"
-	"io"
 	"math"
 	"os"
-	"path/filepath"
 	"strconv"
 
 	"gaptrace/calib"
+	"gaptrace/calib/atomicfile"
+	"gaptrace/profile/phases"
 )
 
 // Num is a float64 that is written to JSON as null when it is NaN or
@@ -56,7 +56,7 @@ type Summary struct {
 	Input       Input              `json:"input"`
 	Calibration *calib.Calibration `json:"calibration"`
 	Tracking    Tracking           `json:"tracking"`
-	Phases      []Phase            `json:"phases"`
+	Phases      []phases.Phase     `json:"phases"`
 	ShearPhases []ShearPhase       `json:"shear_phases"`
 	AfterStop   *AfterStop         `json:"after_stop"`
 	Warnings    []string           `json:"warnings"`
@@ -85,21 +85,6 @@ type Tracking struct {
 	Detections        int `json:"detections"`
 	Tracks            int `json:"tracks"`
 	MedianTrackFrames int `json:"median_track_frames"`
-}
-
-// Phase kinds.
-const (
-	Rest          = "rest"
-	Shear         = "shear"
-	AfterStopKind = "after_stop"
-)
-
-// Phase is one segment of the experiment's time line.
-type Phase struct {
-	Kind   string  `json:"kind"`
-	StartS float64 `json:"start_s"`
-	EndS   float64 `json:"end_s"`
-	Source string  `json:"source"` // experiment | detected
 }
 
 // Band is one layer of uniform local shear rate, from FromUM to ToUM above
@@ -183,56 +168,8 @@ type AfterStop struct {
 
 // New returns a summary with the tool filled in and empty, non-null lists.
 func New() *Summary {
-	return &Summary{Tool: Tool{Name: "gaptrace", Version: Version}, Phases: []Phase{},
+	return &Summary{Tool: Tool{Name: "gaptrace", Version: Version}, Phases: []phases.Phase{},
 		ShearPhases: []ShearPhase{}, Warnings: []string{}}
-}
-
-// fileMode is the permission of result files: readable by everyone, as
-// results are meant to be shared (os.CreateTemp alone would give 0600).
-const fileMode = 0o644
-
-// WriteFileAtomic writes data to path through a temporary file in the same
-// folder, renamed over path only when completely written, so a failed run
-// never leaves a partial file under the final name.
-func WriteFileAtomic(path string, data []byte) error {
-	return WriteAtomic(path, func(w io.Writer) error {
-		_, err := w.Write(data)
-		return err
-	})
-}
-
-// WriteAtomic is WriteFileAtomic for a writer function: what write writes
-// appears at path only if write and the file's close succeed.
-func WriteAtomic(path string, write func(io.Writer) error) error {
-	dir, base := filepath.Split(path)
-	if dir == "" {
-		dir = "."
-	}
-	f, err := os.CreateTemp(dir, "."+base+".partial-*")
-	if err != nil {
-		return err
-	}
-	tmp := f.Name()
-	fail := func(err error) error {
-		f.Close()
-		os.Remove(tmp)
-		return fmt.Errorf("writing %s: %w", path, err)
-	}
-	if err := write(f); err != nil {
-		return fail(err)
-	}
-	if err := f.Chmod(fileMode); err != nil {
-		return fail(err)
-	}
-	if err := f.Close(); err != nil {
-		os.Remove(tmp)
-		return fmt.Errorf("writing %s: %w", path, err)
-	}
-	if err := os.Rename(tmp, path); err != nil {
-		os.Remove(tmp)
-		return err
-	}
-	return nil
 }
 
 // Write writes s as indented JSON to path, atomically.
@@ -241,7 +178,7 @@ func (s *Summary) Write(path string) error {
 	if err != nil {
 		return err
 	}
-	return WriteFileAtomic(path, append(b, '\n'))
+	return atomicfile.WriteBytes(path, append(b, '\n'))
 }
 
 // Read reads a summary.json file.

@@ -8,6 +8,7 @@ import (
 
 	"gaptrace/calib"
 	"gaptrace/calib/geometry"
+	"gaptrace/profile/phases"
 	"gaptrace/profile/summary"
 	"gaptrace/track/tracks"
 )
@@ -73,26 +74,26 @@ func (s *Scenario) Truth() *Truth {
 // lastFrameS is the time of the last frame.
 func (s *Scenario) lastFrameS() float64 { return float64(s.Frames-1) / s.FPS }
 
-func (s *Scenario) phases() []summary.Phase {
-	ph := []summary.Phase{}
+func (s *Scenario) phases() []phases.Phase {
+	ph := []phases.Phase{}
 	add := func(kind string, a, b float64) {
 		if b > a {
-			ph = append(ph, summary.Phase{Kind: kind, StartS: a, EndS: b, Source: "experiment"})
+			ph = append(ph, phases.Phase{Kind: kind, StartS: a, EndS: b, Source: "experiment"})
 		}
 	}
 	end := s.DurationS()
 	t := 0.0
 	p := s.Program()
 	for i, st := range p {
-		add(summary.Rest, t, min(st.StartS, end))
-		add(summary.Shear, st.StartS, min(st.EndS, end))
+		add(phases.Rest, t, min(st.StartS, end))
+		add(phases.Shear, st.StartS, min(st.EndS, end))
 		t = st.EndS
 		if i == len(p)-1 {
-			add(summary.AfterStopKind, t, end)
+			add(phases.AfterStop, t, end)
 			return ph
 		}
 	}
-	add(summary.Rest, t, end)
+	add(phases.Rest, t, end)
 	return ph
 }
 

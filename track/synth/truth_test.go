@@ -5,6 +5,7 @@ import (
 	"testing"
 
 	"gaptrace/calib/geometry"
+	"gaptrace/profile/phases"
 	"gaptrace/profile/summary"
 )
 
@@ -148,7 +149,7 @@ func TestTruthAtRest(t *testing.T) {
 	s := mustBuiltin(t, "homogeneous", 1)
 	s.Motion = nil
 	sum := s.Truth().Summary
-	if len(sum.Phases) != 1 || sum.Phases[0].Kind != summary.Rest || len(sum.ShearPhases) != 0 || sum.AfterStop != nil {
+	if len(sum.Phases) != 1 || sum.Phases[0].Kind != phases.Rest || len(sum.ShearPhases) != 0 || sum.AfterStop != nil {
 		t.Errorf("at rest: phases %+v, %d shear phases, after stop %+v", sum.Phases, len(sum.ShearPhases), sum.AfterStop)
 	}
 	a, b := byID(s.Positions(0)), byID(s.Positions(s.Frames-1))

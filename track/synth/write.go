@@ -9,7 +9,7 @@ import (
 
 	"gocv.io/x/gocv"
 
-	"gaptrace/profile/summary"
+	"gaptrace/calib/atomicfile"
 	"gaptrace/track/tracks"
 )
 
@@ -102,7 +102,7 @@ func (s *Scenario) Write(dir string, out Output) (*Truth, error) {
 	if err := sc.Experiment().Write(&buf); err != nil {
 		return nil, err
 	}
-	if err := summary.WriteFileAtomic(filepath.Join(dir, ExperimentFile), buf.Bytes()); err != nil {
+	if err := atomicfile.WriteBytes(filepath.Join(dir, ExperimentFile), buf.Bytes()); err != nil {
 		return nil, err
 	}
 	t := sc.Truth()
@@ -111,14 +111,14 @@ func (s *Scenario) Write(dir string, out Output) (*Truth, error) {
 	if err != nil {
 		return nil, err
 	}
-	if err := summary.WriteFileAtomic(filepath.Join(dir, TruthFile), append(b, '\n')); err != nil {
+	if err := atomicfile.WriteBytes(filepath.Join(dir, TruthFile), append(b, '\n')); err != nil {
 		return nil, err
 	}
 	buf.Reset()
 	if err := tracks.WriteCSV(&buf, sc.TrackPoints()); err != nil {
 		return nil, err
 	}
-	if err := summary.WriteFileAtomic(filepath.Join(dir, TruthTracksFile), buf.Bytes()); err != nil {
+	if err := atomicfile.WriteBytes(filepath.Join(dir, TruthTracksFile), buf.Bytes()); err != nil {
 		return nil, err
 	}
 	return t, nil

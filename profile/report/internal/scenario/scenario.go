@@ -11,6 +11,7 @@ import (
 
 	"gaptrace/calib"
 	"gaptrace/calib/experiment"
+	"gaptrace/profile/phases"
 	"gaptrace/profile/report/figure"
 	"gaptrace/profile/summary"
 )
@@ -217,10 +218,10 @@ func Summary() *summary.Summary {
 	s.Calibration = Calibration()
 	s.Calibration.WallSource = "detected"
 	s.Tracking = summary.Tracking{Detections: 48210, Tracks: 1312, MedianTrackFrames: 31}
-	s.Phases = []summary.Phase{
-		{Kind: summary.Rest, StartS: 0, EndS: 0.5, Source: "experiment"},
-		{Kind: summary.Shear, StartS: 0.5, EndS: 2.5, Source: "experiment"},
-		{Kind: summary.AfterStopKind, StartS: 2.5, EndS: 6, Source: "experiment"},
+	s.Phases = []phases.Phase{
+		{Kind: phases.Rest, StartS: 0, EndS: 0.5, Source: "experiment"},
+		{Kind: phases.Shear, StartS: 0.5, EndS: 2.5, Source: "experiment"},
+		{Kind: phases.AfterStop, StartS: 2.5, EndS: 6, Source: "experiment"},
 	}
 	rate2 := (demoWallUMPerS - demoSlipMovUM - V(demoBandUM)) / (demoGapUM - demoBandUM)
 	bulk := (demoWallUMPerS - demoSlipMovUM - demoSlipStatUM) / demoGapUM

@@ -3,7 +3,7 @@ package phases_test
 import (
 	"fmt"
 
-	"gaptrace/calib/phases"
+	"gaptrace/profile/phases"
 )
 
 // ExampleDetect finds a shear phase in the displacement per frame of the

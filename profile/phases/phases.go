@@ -13,20 +13,36 @@ import (
 	"math"
 
 	"gaptrace/calib/experiment"
-	"gaptrace/profile/summary"
 )
 
-// Phase sources.
+// Phase kinds.
 const (
-	SourceExperiment = "experiment"
-	SourceDetected   = "detected"
+	Rest      = "rest"
+	Shear     = "shear"
+	AfterStop = "after_stop"
 )
+
+// Phase sources: where the times of a phase come from.
+const (
+	SourceExperiment = "experiment" // the experiment file's motion program
+	SourceLog        = "log"        // the rheometer's log
+	SourceDetected   = "detected"   // the motion seen in the video
+)
+
+// Phase is one segment of the experiment's time line, in s from the first
+// frame; Kind is one of the phase kinds and Source one of the sources.
+type Phase struct {
+	Kind   string  `json:"kind"`
+	StartS float64 `json:"start_s"`
+	EndS   float64 `json:"end_s"`
+	Source string  `json:"source"`
+}
 
 // FromProgram returns the phases of a recording of durationS seconds under
 // the motion program: rest before the first step and between steps, shear
 // during each step, after_stop after the last one, each cut to the
 // recording. A step of zero wall speed is rest.
-func FromProgram(p experiment.Program, durationS float64) []summary.Phase {
+func FromProgram(p experiment.Program, durationS float64) []Phase {
 	var starts, ends []float64
 	for _, s := range p {
 		if s.RatePerS != 0 || s.WallSpeedUMPerS != 0 {
@@ -37,25 +53,25 @@ func FromProgram(p experiment.Program, durationS float64) []summary.Phase {
 }
 
 // fromSegments turns shear intervals in time order into the phase list.
-func fromSegments(starts, ends []float64, durationS float64, source string) []summary.Phase {
-	ph := []summary.Phase{}
+func fromSegments(starts, ends []float64, durationS float64, source string) []Phase {
+	ph := []Phase{}
 	add := func(kind string, a, b float64) {
 		b = math.Min(b, durationS)
 		if b > a {
-			ph = append(ph, summary.Phase{Kind: kind, StartS: a, EndS: b, Source: source})
+			ph = append(ph, Phase{Kind: kind, StartS: a, EndS: b, Source: source})
 		}
 	}
 	t := 0.0
 	for i := range starts {
-		add(summary.Rest, t, starts[i])
-		add(summary.Shear, starts[i], ends[i])
+		add(Rest, t, starts[i])
+		add(Shear, starts[i], ends[i])
 		t = ends[i]
 	}
 	if len(starts) == 0 {
-		add(summary.Rest, 0, durationS)
+		add(Rest, 0, durationS)
 		return ph
 	}
-	add(summary.AfterStopKind, t, durationS)
+	add(AfterStop, t, durationS)
 	return ph
 }
 
@@ -69,7 +85,7 @@ const MaxDisagreeFrames = 2
 // when there are any, else the detected ones; and a warning for every shear
 // phase whose start or end differs between the two by more than
 // MaxDisagreeFrames frames, or when the two count different shear phases.
-func Reconcile(program, detected []summary.Phase, fps float64) ([]summary.Phase, []string) {
+func Reconcile(program, detected []Phase, fps float64) ([]Phase, []string) {
 	var warn []string
 	if len(program) == 0 || !hasShear(program) {
 		if len(program) > 0 && hasShear(detected) {
@@ -99,12 +115,12 @@ func Reconcile(program, detected []summary.Phase, fps float64) ([]summary.Phase,
 	return program, warn
 }
 
-func hasShear(ph []summary.Phase) bool { return len(shears(ph)) > 0 }
+func hasShear(ph []Phase) bool { return len(shears(ph)) > 0 }
 
-func shears(ph []summary.Phase) []summary.Phase {
-	var s []summary.Phase
+func shears(ph []Phase) []Phase {
+	var s []Phase
 	for _, p := range ph {
-		if p.Kind == summary.Shear {
+		if p.Kind == Shear {
 			s = append(s, p)
 		}
 	}

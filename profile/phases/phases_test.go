@@ -8,8 +8,7 @@ import (
 	"testing"
 
 	"gaptrace/calib/experiment"
-	"gaptrace/calib/phases"
-	"gaptrace/profile/summary"
+	"gaptrace/profile/phases"
 	"gaptrace/track/synth"
 )
 
@@ -96,7 +95,7 @@ func TestDetectSignal(t *testing.T) {
 		if d.FlowSign != math.Copysign(1, c.v) {
 			t.Errorf("case %d: flow sign %g", i, d.FlowSign)
 		}
-		if len(d.Phases) != 3 || d.Phases[1].Kind != summary.Shear || d.Phases[2].Kind != summary.AfterStopKind {
+		if len(d.Phases) != 3 || d.Phases[1].Kind != phases.Shear || d.Phases[2].Kind != phases.AfterStop {
 			t.Errorf("case %d: phases %+v", i, d.Phases)
 		}
 	}
@@ -128,7 +127,7 @@ func TestDetectSignal(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if len(d.Segments) != 0 || len(d.Phases) != 1 || d.Phases[0].Kind != summary.Rest {
+	if len(d.Segments) != 0 || len(d.Phases) != 1 || d.Phases[0].Kind != phases.Rest {
 		t.Errorf("still signal: %+v", d)
 	}
 	if _, err := phases.Detect([]float64{0, 1}, fps); err == nil {
@@ -138,10 +137,10 @@ func TestDetectSignal(t *testing.T) {
 
 func TestReconcile(t *testing.T) {
 	const fps = 100
-	prog := []summary.Phase{{Kind: summary.Rest, StartS: 0, EndS: 0.5}, {Kind: summary.Shear, StartS: 0.5, EndS: 2}, {Kind: summary.AfterStopKind, StartS: 2, EndS: 3}}
-	det := func(a, b float64) []summary.Phase {
-		return []summary.Phase{{Kind: summary.Rest, StartS: 0, EndS: a, Source: "detected"}, {Kind: summary.Shear, StartS: a, EndS: b, Source: "detected"},
-			{Kind: summary.AfterStopKind, StartS: b, EndS: 3, Source: "detected"}}
+	prog := []phases.Phase{{Kind: phases.Rest, StartS: 0, EndS: 0.5}, {Kind: phases.Shear, StartS: 0.5, EndS: 2}, {Kind: phases.AfterStop, StartS: 2, EndS: 3}}
+	det := func(a, b float64) []phases.Phase {
+		return []phases.Phase{{Kind: phases.Rest, StartS: 0, EndS: a, Source: "detected"}, {Kind: phases.Shear, StartS: a, EndS: b, Source: "detected"},
+			{Kind: phases.AfterStop, StartS: b, EndS: 3, Source: "detected"}}
 	}
 	if ph, w := phases.Reconcile(prog, det(0.515, 1.985), fps); len(w) != 0 || ph[1].StartS != 0.5 {
 		t.Errorf("1.5 frames apart: warnings %q", w)

@@ -5,8 +5,6 @@ import (
 	"fmt"
 	"math"
 	"sort"
-
-	"gaptrace/profile/summary"
 )
 
 // Detection settings.
@@ -50,7 +48,7 @@ type Detected struct {
 	ThresholdPxPerFrame float64
 	// Phases are the segments as rest, shear and after_stop phases with
 	// source "detected".
-	Phases []summary.Phase
+	Phases []Phase
 	// FlowSign is the direction of the moving wall during the first
 	// segment in the image: +1 towards +x, -1 towards -x, 0 without motion.
 	FlowSign float64
@@ -92,7 +90,7 @@ func Detect(signal []float64, fps float64) (*Detected, error) {
 	for i, v := range rest {
 		dev[i] = math.Abs(v - lo)
 	}
-	d := &Detected{NoisePxPerFrame: 1.4826 * median(dev), Phases: []summary.Phase{}}
+	d := &Detected{NoisePxPerFrame: 1.4826 * median(dev), Phases: []Phase{}}
 	if len(rest) == 0 {
 		lo, d.NoisePxPerFrame = 0, 0
 	}
