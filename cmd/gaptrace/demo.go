@@ -1,6 +1,7 @@
 package main
 
 import (
+	"context"
 	"fmt"
 	"io"
 	"path/filepath"
@@ -21,7 +22,7 @@ func init() {
 // rendered experiment: video, experiment file and truth.
 const demoInputDir = "experiment"
 
-func runDemo(args []string, stderr io.Writer) error {
+func runDemo(ctx context.Context, args []string, stderr io.Writer) error {
 	fs := newFlags("demo", "", stderr)
 	var o runOptions
 	fs.StringVar(&o.outDir, "o", "", "output folder (must be empty unless --force)")
@@ -54,7 +55,7 @@ func runDemo(args []string, stderr io.Writer) error {
 	o.input = filepath.Join(in, "video.avi")
 	// The output folder now holds the rendered experiment: that is expected.
 	o.force = true
-	s, err := runChain(o, stderr)
+	s, err := runChain(ctx, o, stderr)
 	if err != nil {
 		return err
 	}

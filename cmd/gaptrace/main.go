@@ -6,19 +6,24 @@
 package main
 
 import (
+	"context"
 	"errors"
 	"flag"
 	"fmt"
 	"io"
 	"os"
+	"os/signal"
+	"runtime/debug"
 	"sort"
 	"strings"
+	"syscall"
 )
 
-// command is one sub-command.
+// command is one sub-command. run stops early, returning the context's
+// error, when ctx is cancelled.
 type command struct {
 	summary string
-	run     func(args []string, stderr io.Writer) error
+	run     func(ctx context.Context, args []string, stderr io.Writer) error
 }
 
 var commands = map[string]command{}
@@ -41,11 +46,39 @@ func badInput(err error) error {
 func badInputf(format string, a ...any) error { return usageError{fmt.Errorf(format, a...)} }
 
 func main() {
-	os.Exit(mainArgs(os.Args[1:], os.Stderr))
+	ctx, cancel := context.WithCancelCause(context.Background())
+	sigs := make(chan os.Signal, 1)
+	signal.Notify(sigs, os.Interrupt, syscall.SIGTERM)
+	go func() {
+		s := <-sigs
+		cancel(interruption{s.(syscall.Signal)})
+		// A second signal does not wait for the work to stop.
+		s = <-sigs
+		os.Exit(128 + int(s.(syscall.Signal)))
+	}()
+	os.Exit(mainContext(ctx, os.Args[1:], os.Stderr))
 }
+
+// interruption is the cause of a cancellation by a signal.
+type interruption struct{ sig syscall.Signal }
+
+func (i interruption) Error() string { return "interrupted by " + i.sig.String() }
 
 // mainArgs runs gaptrace with args and returns the exit status.
 func mainArgs(args []string, stderr io.Writer) int {
+	return mainContext(context.Background(), args, stderr)
+}
+
+// mainContext runs gaptrace with args until ctx is cancelled and returns
+// the exit status. An internal panic is reported in one line, with the
+// place it happened, as an error of the tool (exit status 1).
+func mainContext(ctx context.Context, args []string, stderr io.Writer) (status int) {
+	defer func() {
+		if p := recover(); p != nil {
+			fmt.Fprintf(stderr, "gaptrace: internal error: %v (at %s); please report it with the command line and input\n", p, panicSite(debug.Stack()))
+			status = 1
+		}
+	}()
 	if len(args) == 0 || args[0] == "-h" || args[0] == "--help" || args[0] == "help" {
 		usage(stderr)
 		if len(args) == 0 {
@@ -62,8 +95,33 @@ func mainArgs(args []string, stderr io.Writer) int {
 		fmt.Fprintf(stderr, "gaptrace: unknown command %q (try gaptrace help)\n", args[0])
 		return 2
 	}
-	err := c.run(args[1:], stderr)
+	err := c.run(ctx, args[1:], stderr)
+	var in interruption
+	if err != nil && ctx.Err() != nil && errors.As(context.Cause(ctx), &in) {
+		fmt.Fprintln(stderr, "gaptrace: interrupted")
+		return 128 + int(in.sig)
+	}
 	return exitStatus(err, stderr)
+}
+
+// panicSite returns the function and file:line where a panic was raised,
+// read from its goroutine's stack: the frame after the runtime's panic.
+func panicSite(stack []byte) string {
+	lines := strings.Split(string(stack), "\n")
+	for i := 0; i+3 < len(lines); i++ {
+		if strings.HasPrefix(lines[i], "panic(") {
+			for j := i + 2; j+1 < len(lines); j += 2 {
+				fn := strings.TrimSpace(lines[j])
+				if strings.HasPrefix(fn, "runtime.") { // e.g. runtime.goPanicIndex
+					continue
+				}
+				if f := strings.Fields(strings.TrimSpace(lines[j+1])); len(f) > 0 {
+					return fn + " " + f[0]
+				}
+			}
+		}
+	}
+	return "unknown place"
 }
 
 func exitStatus(err error, stderr io.Writer) int {

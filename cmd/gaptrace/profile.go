@@ -1,6 +1,7 @@
 package main
 
 import (
+	"context"
 	"fmt"
 	"io"
 	"os"
@@ -9,12 +10,8 @@ import (
 	"strings"
 
 	"gaptrace/calib"
-	"gaptrace/calib/atomicfile"
-	"gaptrace/calib/experiment"
 	"gaptrace/profile"
-	"gaptrace/profile/phases"
-	"gaptrace/profile/summary"
-	"gaptrace/track/frames"
+	"gaptrace/profile/pipeline"
 	"gaptrace/track/tracks"
 )
 
@@ -50,29 +47,7 @@ func (w *windowList) Set(v string) error {
 	return nil
 }
 
-// fpsOf returns the frame rate implied by the tracks' times, frame / t_s
-// of the latest point (0 when no point is past the first frame).
-func fpsOf(pts []tracks.Point) float64 {
-	var last tracks.Point
-	for _, p := range pts {
-		if p.Frame > last.Frame {
-			last = p
-		}
-	}
-	if last.Frame == 0 || !(last.TS > 0) {
-		return 0
-	}
-	return float64(last.Frame) / last.TS
-}
-
-// Files written by the profile stage.
-const (
-	profileSummaryName = "summary.json"
-	profileTableName   = "profiles.csv"
-	afterStopTableName = "after_stop.csv"
-)
-
-func runProfile(args []string, stderr io.Writer) error {
+func runProfile(ctx context.Context, args []string, stderr io.Writer) error {
 	fs := newFlags("profile", "TRACKS.csv", stderr)
 	expPath := fs.String("e", "", "experiment file (YAML)")
 	out := fs.String("o", "", "output folder (made if missing; its summary.json, profiles.csv and after_stop.csv are replaced)")
@@ -87,23 +62,20 @@ func runProfile(args []string, stderr io.Writer) error {
 	if fs.NArg() != 1 {
 		return badInputf("profile needs one TRACKS.csv, got %d arguments", fs.NArg())
 	}
-	if *expPath == "" {
-		return badInputf("no experiment file: give -e EXPERIMENT.yaml")
-	}
 	if *bins < 0 {
 		return badInputf("--bins %d: must be positive", *bins)
+	}
+	e, err := loadExperiment(*expPath)
+	if err != nil {
+		return err
 	}
 	if err := ensureDir(*out); err != nil {
 		return err
 	}
-	removeStale(*out, profileSummaryName, profileTableName, afterStopTableName)
+	removeStale(*out, summaryName, profileTableName, afterStopTableName)
 	in := fs.Arg(0)
-	e, err := experiment.Load(*expPath)
-	if err != nil {
-		return badInput(err)
-	}
 	if *calPath == "" {
-		*calPath = filepath.Join(filepath.Dir(in), "calibration.json")
+		*calPath = filepath.Join(filepath.Dir(in), calibrationName)
 	}
 	c, err := calib.Load(*calPath)
 	if err != nil {
@@ -118,44 +90,17 @@ func runProfile(args []string, stderr io.Writer) error {
 	if err != nil {
 		return badInput(fmt.Errorf("%s: %w", in, err))
 	}
-	if len(pts) == 0 {
-		return badInputf("%s: no detections", in)
-	}
-	maxFrame := 0
-	for _, p := range pts {
-		maxFrame = max(maxFrame, p.Frame)
-	}
-	fps := e.Camera.FPS
-	if !(fps > 0) {
-		fps = fpsOf(pts)
-	}
-	// Without a motion program the phases come from the tracks beside the
-	// moving wall, as in run.
-	var detected []phases.Phase
-	var phaseWarnings []string
-	if len(e.Program()) == 0 && fps > 0 {
-		ch := &chain{exp: e, cal: c, info: frames.Info{FPS: fps}}
-		detected, phaseWarnings = ch.detectPhases(pts, maxFrame+1)
-	}
-	r, err := profile.Analyze(pts, e, c, profile.Options{Bins: *bins, Windows: windows, Seed: *seed, Phases: detected})
+	cfg := pipeline.Config{Experiment: e, ExperimentDir: filepath.Dir(*expPath), Bins: *bins, Windows: windows, Seed: *seed}
+	t, err := pipeline.FromTracks(cfg, in, pts, c)
 	if err != nil {
-		return badInput(err)
+		return stageErr(err)
 	}
-	s := summary.New()
-	s.Experiment = e.Name
-	s.Calibration = c
-	s.Tracking = profile.TrackingCounts(pts)
-	s.Warnings = append(s.Warnings, phaseWarnings...)
-	if !(fps > 0) {
-		fps = 1 / r.FrameIntervalS
+	a, err := pipeline.Analyze(ctx, cfg, t)
+	if err != nil {
+		return stageErr(err)
 	}
-	s.Input = summary.Input{Path: in, Frames: maxFrame + 1, FPS: fps, WidthPx: c.WidthPx, HeightPx: c.HeightPx}
-	r.Fill(s)
-	if err := atomicfile.WriteBytes(filepath.Join(*out, profileTableName), r.ProfilesCSV()); err != nil {
+	if err := writeTables(*out, a); err != nil {
 		return err
 	}
-	if err := atomicfile.WriteBytes(filepath.Join(*out, afterStopTableName), r.AfterStopCSV()); err != nil {
-		return err
-	}
-	return s.Write(filepath.Join(*out, profileSummaryName))
+	return a.Summary.Write(filepath.Join(*out, summaryName))
 }

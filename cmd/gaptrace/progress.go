@@ -6,17 +6,20 @@ import (
 	"os"
 	"runtime/pprof"
 	"time"
+
+	"gaptrace/profile/pipeline"
 )
 
 // progressInterval is how often the progress line is redrawn: often enough
 // to look alive, rarely enough to cost nothing.
 const progressInterval = 250 * time.Millisecond
 
-// progress prints "stage: frames done/total, rate, time left" on one
+// progress prints "stage: done/total units, rate, time left" on one
 // rewritten stderr line. A nil *progress prints nothing.
 type progress struct {
 	w     io.Writer
 	stage string
+	unit  string
 	total int
 	start time.Time
 	last  time.Time
@@ -40,10 +43,10 @@ func newProgress(w io.Writer, forced bool, stage string, total int) *progress {
 		return nil
 	}
 	now := time.Now()
-	return &progress{w: w, stage: stage, total: total, start: now}
+	return &progress{w: w, stage: stage, unit: "frames", total: total, start: now}
 }
 
-// update reports that done frames are finished.
+// update reports that done units are finished.
 func (p *progress) update(done int) {
 	if p == nil {
 		return
@@ -60,9 +63,9 @@ func (p *progress) update(done int) {
 	}
 	if p.total > 0 && rate > 0 {
 		left := time.Duration(float64(p.total-done) / rate * float64(time.Second)).Round(time.Second)
-		fmt.Fprintf(p.w, "\r%s: %d/%d frames, %.0f frames/s, %v left   ", p.stage, done, p.total, rate, left)
+		fmt.Fprintf(p.w, "\r%s: %d/%d %s, %.0f %s/s, %v left   ", p.stage, done, p.total, p.unit, rate, p.unit, left)
 	} else {
-		fmt.Fprintf(p.w, "\r%s: %d frames, %.0f frames/s   ", p.stage, done, rate)
+		fmt.Fprintf(p.w, "\r%s: %d %s, %.0f %s/s   ", p.stage, done, p.unit, rate, p.unit)
 	}
 }
 
@@ -72,6 +75,36 @@ func (p *progress) done() {
 		return
 	}
 	fmt.Fprintf(p.w, "\r%s: done in %v%30s\n", p.stage, time.Since(p.start).Round(10*time.Millisecond), "")
+}
+
+// stageUnits names what each stage of the pipeline counts.
+var stageUnits = map[string]string{
+	pipeline.StageCalibrate: "frames", pipeline.StageMotion: "frames", pipeline.StageDetect: "frames",
+	pipeline.StageLink: "passes", pipeline.StageProfile: "steps",
+}
+
+// newStageProgress returns a pipeline progress callback that shows one
+// progress line per stage, or nil when progress is not wanted.
+func newStageProgress(w io.Writer, forced bool) func(pipeline.Progress) {
+	if !forced && !isTerminal(w) {
+		return nil
+	}
+	var cur *progress
+	return func(p pipeline.Progress) {
+		if cur == nil || cur.stage != p.Stage {
+			cur.done()
+			cur = newProgress(w, true, p.Stage, p.Total)
+			if u := stageUnits[p.Stage]; u != "" {
+				cur.unit = u
+			}
+		}
+		cur.total = p.Total
+		cur.update(p.Done)
+		if p.Total > 0 && p.Done >= p.Total {
+			cur.done()
+			cur = nil
+		}
+	}
 }
 
 // startCPUProfile writes a CPU profile to path until the returned function

@@ -1,20 +1,15 @@
 package main
 
 import (
-	"fmt"
+	"context"
 	"io"
-	"math"
 	"os"
 	"path/filepath"
 
-	"gocv.io/x/gocv"
-
 	"gaptrace/calib/atomicfile"
-	"gaptrace/profile"
+	"gaptrace/profile/pipeline"
 	"gaptrace/profile/report"
-	"gaptrace/profile/report/figure"
 	"gaptrace/profile/summary"
-	"gaptrace/track/frames"
 )
 
 func init() {
@@ -26,15 +21,15 @@ func init() {
 
 // runOptions are the flags of run and demo.
 type runOptions struct {
-	expPath, outDir, input string
-	force, progress        bool
-	noJitter               bool
-	bins                   int
-	windows                windowList
-	seed                   uint64
+	stageOptions
+	outDir  string
+	force   bool
+	bins    int
+	windows windowList
+	seed    uint64
 }
 
-func runRun(args []string, stderr io.Writer) error {
+func runRun(ctx context.Context, args []string, stderr io.Writer) error {
 	fs := newFlags("run", "INPUT", stderr)
 	var o runOptions
 	fs.StringVar(&o.expPath, "e", "", "experiment file (YAML)")
@@ -52,17 +47,26 @@ func runRun(args []string, stderr io.Writer) error {
 		return badInputf("run needs one INPUT (video, folder or glob of frames), got %d", fs.NArg())
 	}
 	o.input = fs.Arg(0)
-	_, err := runChain(o, stderr)
+	_, err := runChain(ctx, o, stderr)
 	return err
 }
 
+// Files of run.
+const (
+	summaryName        = "summary.json"
+	calibrationName    = "calibration.json"
+	tracksName         = "tracks.csv"
+	profileTableName   = "profiles.csv"
+	afterStopTableName = "after_stop.csv"
+)
+
 // runFiles are the result files of run, removed before a forced run so
 // that a failure cannot leave an old summary beside new tracks.
-var runFiles = []string{"summary.json", "calibration.json", "tracks.csv", profileTableName, afterStopTableName, report.FileName}
+var runFiles = []string{summaryName, calibrationName, tracksName, profileTableName, afterStopTableName, report.FileName}
 
 // runChain runs every stage and writes every file of run into o.outDir;
 // summary.json is written last, so it exists only for a complete run.
-func runChain(o runOptions, stderr io.Writer) (*summary.Summary, error) {
+func runChain(ctx context.Context, o runOptions, stderr io.Writer) (*summary.Summary, error) {
 	if o.bins < 0 {
 		return nil, badInputf("--bins %d: must be positive", o.bins)
 	}
@@ -81,90 +85,48 @@ func runChain(o runOptions, stderr io.Writer) (*summary.Summary, error) {
 			os.Remove(f)
 		}
 	}
-	c := &chain{expPath: o.expPath, exp: exp, input: o.input, progress: o.progress, stderr: stderr, noJitter: o.noJitter}
-	defer c.close()
-	med, err := c.calibrate()
+	cfg := o.config(exp, stderr)
+	cfg.Bins, cfg.Windows, cfg.Seed = o.bins, o.windows, o.seed
+	rec, err := pipeline.Open(ctx, cfg)
 	if err != nil {
-		return nil, err
+		return nil, stageErr(err)
 	}
-	med.Close()
-	dets, err := c.detectAll()
+	defer rec.Close()
+	t, err := rec.Track(ctx)
 	if err != nil {
+		return nil, stageErr(err)
+	}
+	if err := writeCalibJSON(filepath.Join(o.outDir, calibrationName), t.Calibration); err != nil {
 		return nil, err
 	}
-	pts, _, err := c.linkAll(dets)
+	if err := atomicfile.Write(filepath.Join(o.outDir, tracksName), t.WriteTracks); err != nil {
+		return nil, err
+	}
+	a, err := pipeline.Analyze(ctx, cfg, t)
 	if err != nil {
+		return nil, stageErr(err)
+	}
+	if err := writeTables(o.outDir, a); err != nil {
 		return nil, err
 	}
-	detected, phaseWarnings := c.detectPhases(pts, len(dets))
-	if err := writeCalibJSON(filepath.Join(o.outDir, "calibration.json"), c.cal); err != nil {
-		return nil, err
-	}
-	if err := writeTracks(filepath.Join(o.outDir, "tracks.csv"), pts); err != nil {
-		return nil, err
-	}
-	r, err := profile.Analyze(pts, exp, c.cal, profile.Options{Bins: o.bins, Windows: o.windows, Seed: o.seed, Phases: detected})
-	if err != nil {
-		return nil, badInput(err)
-	}
-	s := summary.New()
-	s.Experiment = exp.Name
-	s.Input = summary.Input{Path: o.input, Frames: len(dets), FPS: c.info.FPS, WidthPx: c.info.WidthPx, HeightPx: c.info.HeightPx}
-	s.Calibration = c.cal
-	s.Tracking = profile.TrackingCounts(pts)
-	s.Tracking.Detections = c.detections
-	s.Warnings = append(s.Warnings, c.cal.Warnings...)
-	s.Warnings = append(s.Warnings, phaseWarnings...)
-	r.Fill(s)
-	if err := atomicfile.WriteBytes(filepath.Join(o.outDir, profileTableName), r.ProfilesCSV()); err != nil {
-		return nil, err
-	}
-	if err := atomicfile.WriteBytes(filepath.Join(o.outDir, afterStopTableName), r.AfterStopCSV()); err != nil {
-		return nil, err
-	}
-	d := report.FromAnalysis(s, exp, r)
-	d.ExperimentYAML = string(yaml)
-	d.Detection = &figure.Detection{SNR: c.snr, FracXPx: c.fracX, FracYPx: c.fracY, SNRThreshold: c.minSNR}
-	t0, t1 := overlayWindow(s)
-	frame, err := c.readFrame8((t0 + t1) / 2)
-	if err == nil {
-		defer frame.Close()
-		d.Overlay = &figure.Overlay{Frame: frame, Calibration: c.cal, Tracks: trackPaths(pts, t0, t1)}
-		d.OverlayFrameS, d.OverlayWindowS = (t0+t1)/2, [2]float64{t0, t1}
-	} else {
-		s.Warnings = append(s.Warnings, fmt.Sprintf("no overlay figure: %v", err))
-	}
+	d := a.Report(cfg, string(yaml))
+	defer d.Close()
 	if _, err := report.Write(o.outDir, d); err != nil {
-		return nil, fmt.Errorf("report: %w", err)
-	}
-	if err := s.Write(filepath.Join(o.outDir, "summary.json")); err != nil {
 		return nil, err
 	}
-	return s, nil
+	if err := ctx.Err(); err != nil {
+		return nil, err
+	}
+	if err := a.Summary.Write(filepath.Join(o.outDir, summaryName)); err != nil {
+		return nil, err
+	}
+	return a.Summary, nil
 }
 
-// readFrame8 reads the frame nearest tS as an 8-bit grey Mat.
-func (c *chain) readFrame8(tS float64) (gocv.Mat, error) {
-	f := int(math.Round(tS * c.info.FPS))
-	if c.info.Frames > 0 {
-		f = min(max(f, 0), c.info.Frames-1)
+// writeTables writes profiles.csv and after_stop.csv into dir.
+func writeTables(dir string, a *pipeline.Analysis) error {
+	if err := atomicfile.WriteBytes(filepath.Join(dir, profileTableName), a.Profile.ProfilesCSV()); err != nil {
+		return err
 	}
-	src, err := frames.Open(c.input, c.exp.Camera.FPS, frames.Range{First: f, Last: f, Step: 1})
-	if err != nil {
-		return gocv.Mat{}, err
-	}
-	defer src.Close()
-	m := gocv.NewMat()
-	if _, err := src.Next(&m); err != nil {
-		m.Close()
-		return gocv.Mat{}, fmt.Errorf("reading frame %d: %w", f, err)
-	}
-	if m.Type() == gocv.MatTypeCV8UC1 {
-		return m, nil
-	}
-	m8 := gocv.NewMat()
-	// 16-bit frames: keep the top byte.
-	m.ConvertToWithParams(&m8, gocv.MatTypeCV8UC1, 1.0/256, 0)
-	m.Close()
-	return m8, nil
+	return atomicfile.WriteBytes(filepath.Join(dir, afterStopTableName), a.Profile.AfterStopCSV())
 }

@@ -1,6 +1,7 @@
 package main
 
 import (
+	"context"
 	"fmt"
 	"io"
 	"os"
@@ -21,7 +22,7 @@ func init() {
 	}
 }
 
-func runSynth(args []string, stderr io.Writer) error {
+func runSynth(ctx context.Context, args []string, stderr io.Writer) error {
 	fs := newFlags("synth", "", stderr)
 	list := fs.Bool("list", false, "list the built-in scenarios and exit")
 	name := fs.String("scenario", "demo", "built-in scenario to render (see --list)")

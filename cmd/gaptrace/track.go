@@ -1,10 +1,14 @@
 package main
 
 import (
+	"context"
 	"fmt"
-	"gaptrace/profile"
 	"io"
 	"path/filepath"
+
+	"gaptrace/calib/atomicfile"
+	"gaptrace/profile/pipeline"
+	"gaptrace/track/tracks"
 )
 
 func init() {
@@ -14,11 +18,13 @@ func init() {
 	}
 }
 
-func runTrack(args []string, stderr io.Writer) error {
+func runTrack(ctx context.Context, args []string, stderr io.Writer) error {
 	fs := newFlags("track", "INPUT", stderr)
-	expPath := fs.String("e", "", "experiment file (YAML)")
+	var o stageOptions
+	fs.StringVar(&o.expPath, "e", "", "experiment file (YAML)")
 	outDir := fs.String("o", "", "output folder")
-	prog := fs.Bool("progress", false, "show progress even when stderr is not a terminal")
+	fs.BoolVar(&o.progress, "progress", false, "show progress even when stderr is not a terminal")
+	fs.BoolVar(&o.noJitter, "no-jitter", false, "do not measure and remove the camera's frame-to-frame jitter (a rigidly mounted camera)")
 	cpuProfile := fs.String("cpuprofile", "", "write a CPU profile of the stage to this file (for developers)")
 	if err := parseFlags(fs, args); err != nil {
 		return err
@@ -26,6 +32,7 @@ func runTrack(args []string, stderr io.Writer) error {
 	if fs.NArg() != 1 {
 		return badInputf("track needs one INPUT (video, folder or glob of frames), got %d", fs.NArg())
 	}
+	o.input = fs.Arg(0)
 	if *cpuProfile != "" {
 		stop, err := startCPUProfile(*cpuProfile)
 		if err != nil {
@@ -33,43 +40,35 @@ func runTrack(args []string, stderr io.Writer) error {
 		}
 		defer stop()
 	}
-	exp, err := loadExperiment(*expPath)
+	exp, err := loadExperiment(o.expPath)
 	if err != nil {
 		return err
 	}
 	if err := ensureDir(*outDir); err != nil {
 		return err
 	}
-	removeStale(*outDir, "tracks.csv", "calibration.json")
-	c := &chain{expPath: *expPath, exp: exp, input: fs.Arg(0), progress: *prog, stderr: stderr}
-	defer c.close()
-	med, err := c.calibrate()
+	removeStale(*outDir, tracksName, calibrationName)
+	rec, err := pipeline.Open(ctx, o.config(exp, stderr))
 	if err != nil {
-		return err
+		return stageErr(err)
 	}
-	med.Close()
-	dets, err := c.detectAll()
+	defer rec.Close()
+	t, err := rec.Track(ctx)
 	if err != nil {
-		return err
+		return stageErr(err)
 	}
-	pts, st, err := c.linkAll(dets)
-	if err != nil {
-		return err
-	}
-	// The direction of the flow comes from the tracks by the moving wall.
-	_, warnings := c.detectPhases(pts, len(dets))
-	for _, w := range append(c.cal.Warnings, warnings...) {
+	for _, w := range t.Warnings {
 		fmt.Fprintf(stderr, "track: warning: %s\n", w)
 	}
-	if err := writeCalibJSON(filepath.Join(*outDir, "calibration.json"), c.cal); err != nil {
+	if err := writeCalibJSON(filepath.Join(*outDir, calibrationName), t.Calibration); err != nil {
 		return err
 	}
-	if err := writeTracks(filepath.Join(*outDir, "tracks.csv"), pts); err != nil {
+	if err := atomicfile.Write(filepath.Join(*outDir, tracksName), t.WriteTracks); err != nil {
 		return err
 	}
-	ts := profile.TrackingCounts(pts)
-	ts.Detections = c.detections
+	_, tr, med := tracks.Count(t.Points)
+	st := t.Link
 	fmt.Fprintf(stderr, "track: %d detections, %d tracks (median %d frames), %d links, %d unlinked\n",
-		ts.Detections, ts.Tracks, ts.MedianTrackFrames, st.Links+st.GapLinks, st.Unlinked)
+		t.Detections, tr, med, st.Links+st.GapLinks, st.Unlinked)
 	return nil
 }

@@ -1,6 +1,7 @@
 package phases
 
 import (
+	"context"
 	"encoding/binary"
 	"errors"
 	"fmt"
@@ -154,8 +155,9 @@ func (w *WallMotion) Close() {
 
 // Measure reads every remaining frame of src through a WallMotion for cal
 // and returns the signal for Detect. progress, when not nil, is called with
-// the number of frames read so far.
-func Measure(src frames.Source, cal *calib.Calibration, progress func(done int)) ([]float64, error) {
+// the number of frames read so far. A cancelled ctx stops it at the next
+// frame with the context's error.
+func Measure(ctx context.Context, src frames.Source, cal *calib.Calibration, progress func(done int)) ([]float64, error) {
 	wm, err := NewWallMotion(cal)
 	if err != nil {
 		return nil, err
@@ -164,6 +166,9 @@ func Measure(src frames.Source, cal *calib.Calibration, progress func(done int))
 	fr := gocv.NewMat()
 	defer fr.Close()
 	for n := 1; ; n++ {
+		if err := ctx.Err(); err != nil {
+			return nil, err
+		}
 		if _, err := src.Next(&fr); errors.Is(err, io.EOF) {
 			break
 		} else if err != nil {

@@ -1,6 +1,7 @@
 package phases_test
 
 import (
+	"context"
 	"fmt"
 	"math"
 	"math/rand"
@@ -179,7 +180,7 @@ func TestDetectOnSynth(t *testing.T) {
 				t.Fatal(err)
 			}
 			s.MovingSide, s.FlowSign, s.Frames = c.moving, c.flow, c.frames
-			signal, err := phases.Measure(s.Source(1), s.Calibration(), nil)
+			signal, err := phases.Measure(context.Background(), s.Source(1), s.Calibration(), nil)
 			if err != nil {
 				t.Fatal(err)
 			}

@@ -72,3 +72,10 @@ func (d *Data) name() string {
 	}
 	return "unnamed experiment"
 }
+
+// Close releases the overlay's frame, if any.
+func (d *Data) Close() {
+	if d != nil && d.Overlay != nil {
+		d.Overlay.Frame.Close()
+	}
+}

@@ -1,0 +1,65 @@
+package main
+
+import (
+	"context"
+	"encoding/json"
+	"errors"
+	"io"
+	"path/filepath"
+
+	"gaptrace/calib"
+	"gaptrace/calib/atomicfile"
+	"gaptrace/calib/experiment"
+	"gaptrace/profile/pipeline"
+)
+
+// loadExperiment reads the experiment file; every problem is bad input.
+func loadExperiment(path string) (*experiment.Experiment, error) {
+	if path == "" {
+		return nil, badInputf("no experiment file: give -e EXPERIMENT.yaml")
+	}
+	e, err := experiment.Load(path)
+	if err != nil {
+		return nil, badInput(err)
+	}
+	return e, nil
+}
+
+// stageOptions are the flags every stage that reads the recording shares.
+type stageOptions struct {
+	expPath, input string
+	progress       bool // show progress even when stderr is not a terminal
+	noJitter       bool
+}
+
+// config returns the pipeline's configuration for exp, with progress shown
+// on stderr when it is a terminal or forced.
+func (o stageOptions) config(exp *experiment.Experiment, stderr io.Writer) pipeline.Config {
+	return pipeline.Config{Experiment: exp, ExperimentDir: filepath.Dir(o.expPath), Input: o.input,
+		NoJitter: o.noJitter, Progress: newStageProgress(stderr, o.progress)}
+}
+
+// stageErr maps an error of the pipeline to the command's: an input error
+// is bad input (exit status 2); a cancellation stays one, for main to
+// report as an interruption.
+func stageErr(err error) error {
+	var ie *pipeline.InputError
+	switch {
+	case err == nil:
+		return nil
+	case errors.Is(err, context.Canceled):
+		return err
+	case errors.As(err, &ie):
+		return badInput(ie.Err)
+	}
+	return err
+}
+
+// writeCalibJSON writes calibration.json atomically.
+func writeCalibJSON(path string, cal *calib.Calibration) error {
+	b, err := json.MarshalIndent(cal, "", "  ")
+	if err != nil {
+		return err
+	}
+	return atomicfile.WriteBytes(path, append(b, '\n'))
+}

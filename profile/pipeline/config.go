@@ -1,0 +1,100 @@
+package pipeline
+
+import (
+	"context"
+	"errors"
+	"fmt"
+
+	"gaptrace/calib/experiment"
+	"gaptrace/profile"
+)
+
+// Config says what to analyse and how. The zero value of each optional
+// field means the default.
+type Config struct {
+	// Experiment is the experiment file (required).
+	Experiment *experiment.Experiment
+	// ExperimentDir is the folder that relative paths of the experiment
+	// file (a calibration target image) are taken from; "" is the working
+	// folder.
+	ExperimentDir string
+	// Input is the recording: a video file, or a folder or glob of still
+	// frames.
+	Input string
+	// NoJitter skips measuring and removing the camera's frame-to-frame
+	// jitter (a rigidly mounted camera).
+	NoJitter bool
+	// Bins is the number of layers across the gap (0: the default).
+	Bins int
+	// Windows are time windows whose profiles are analysed instead of the
+	// default steady window of each shear phase they overlap.
+	Windows []profile.Window
+	// Seed seeds the bootstrap's random numbers.
+	Seed uint64
+	// Progress, when not nil, is called as the stages advance, from the
+	// goroutine that called the stage.
+	Progress func(Progress)
+}
+
+// Stages, as named in Progress.
+const (
+	StageCalibrate = "calibrate"
+	StageMotion    = "motion"
+	StageDetect    = "detect"
+	StageLink      = "link"
+	StageProfile   = "profile"
+)
+
+// Progress is how far a stage has come: Done of Total units (frames for
+// calibrate, motion and detect; passes for link; steps for profile). Total
+// is 0 when unknown.
+type Progress struct {
+	Stage       string
+	Done, Total int
+}
+
+func (c *Config) report(stage string, done, total int) {
+	if c.Progress != nil {
+		c.Progress(Progress{Stage: stage, Done: done, Total: total})
+	}
+}
+
+// InputError is an error caused by what the user gave: the recording, the
+// experiment file, the tracks or the calibration.
+type InputError struct{ Err error }
+
+func (e *InputError) Error() string { return e.Err.Error() }
+
+// Unwrap returns the cause.
+func (e *InputError) Unwrap() error { return e.Err }
+
+// inputErr marks err as an input error (nil stays nil; a cancellation
+// stays what it is).
+func inputErr(err error) error {
+	if err == nil || isCancel(err) {
+		return err
+	}
+	var ie *InputError
+	if errors.As(err, &ie) {
+		return err
+	}
+	return &InputError{err}
+}
+
+func inputErrf(format string, a ...any) error { return &InputError{fmt.Errorf(format, a...)} }
+
+// check reports what makes c unusable.
+func (c *Config) check() error {
+	switch {
+	case c.Experiment == nil:
+		return inputErrf("no experiment file")
+	case c.Bins < 0:
+		return inputErrf("%d layers across the gap: must be positive", c.Bins)
+	}
+	return nil
+}
+
+// isCancel reports whether err is a context's cancellation or deadline.
+func isCancel(err error) bool {
+	return errors.Is(err, context.Canceled) || errors.Is(err, context.DeadlineExceeded)
+}

@@ -1,0 +1,218 @@
+package pipeline
+
+import (
+	"context"
+	"fmt"
+	"io"
+	"math"
+
+	"gocv.io/x/gocv"
+
+	"gaptrace/calib"
+	"gaptrace/calib/experiment"
+	"gaptrace/profile/phases"
+	"gaptrace/track/detect"
+	"gaptrace/track/frames"
+	"gaptrace/track/link"
+	"gaptrace/track/tracks"
+)
+
+// DefaultDiameterPx is the tracer diameter assumed when the experiment file
+// gives none: a typical seeded tracer a few pixels across (common practice).
+const DefaultDiameterPx = 5
+
+// maskMarginFactor keeps detections this many tracer radii away from each
+// wall line, outside the wall's edge and reflection line.
+const maskMarginFactor = 1.0
+
+// fastestTracerFraction: without a motion program the linker allows a
+// wall speed that moves a tracer across this fraction of the image width
+// per frame.
+const fastestTracerFraction = 0.2
+
+// Tracked is a recording's tracks in gap coordinates, with what the
+// tracking found out on the way.
+type Tracked struct {
+	// Input is the recording's path and Info its frame rate and size;
+	// Info.Frames is the number of frames read.
+	Input string
+	Info  frames.Info
+	// Calibration maps pixels to gap coordinates; its FlowSign is set from
+	// the motion in the video.
+	Calibration *calib.Calibration
+	// Points are the detections, in the order of package tracks, with x_um
+	// positive in the direction the moving wall travels in the first shear
+	// phase.
+	Points []tracks.Point
+	// Detections counts every detection, linked or not.
+	Detections int
+	Link       link.Stats
+	// Diagnostics describes the detections, for the report.
+	Diagnostics Diagnostics
+	// Phases, when not nil, are phases found in the video to use instead of
+	// the motion program's (which has none).
+	Phases []phases.Phase
+	// Warnings are doubts raised on the way, for the summary.
+	Warnings []string
+}
+
+// Diagnostics describes the detections: each one's signal-to-noise ratio
+// and the fractional parts of its position (px), whose histogram shows
+// pixel locking, and the detection threshold.
+type Diagnostics struct {
+	SNR          []float64
+	FracX, FracY []float64
+	MinSNR       float64
+}
+
+// Track detects the tracers in every frame inside the gap, links them into
+// tracks, and finds the phases and the direction of the flow from the
+// tracks next to the moving wall.
+func (r *Recording) Track(ctx context.Context) (*Tracked, error) {
+	t := &Tracked{Input: r.cfg.Input, Calibration: r.Calibration, Info: r.Info}
+	dets, err := r.detectAll(ctx, t)
+	if err != nil {
+		return nil, err
+	}
+	if err := r.linkAll(ctx, t, dets); err != nil {
+		return nil, err
+	}
+	t.Warnings = append(t.Warnings, r.Calibration.Warnings...)
+	t.findPhases(r.cfg.Experiment.Program())
+	return t, nil
+}
+
+// detectAll runs the detector over every frame, inside the gap, and
+// returns the detections per frame index.
+func (r *Recording) detectAll(ctx context.Context, t *Tracked) ([][]link.Detection, error) {
+	src, err := r.takeInput()
+	if err != nil {
+		return nil, err
+	}
+	defer src.Close()
+	t.Info = src.Info()
+	e := r.cfg.Experiment
+	d := e.Tracers.DiameterPx
+	if d == 0 {
+		d = DefaultDiameterPx
+	}
+	cal := r.Calibration
+	opt := detect.Options{
+		DiameterPx: d,
+		Polarity:   e.PolarityHint(),
+		Mask: &detect.Mask{Stationary: cal.StationaryWallPx, Moving: cal.MovingWallPx,
+			MarginPx: maskMarginFactor * d / 2},
+	}
+	t.Diagnostics.MinSNR = detect.DefaultMinSNR
+	var out [][]link.Detection
+	n := 0
+	// The detector's own band-pass removes the smooth background; a temporal
+	// median is not subtracted because tracers at rest, before the shear and
+	// after cessation, would be part of it and vanish.
+	noBackground := gocv.NewMat()
+	defer noBackground.Close()
+	total := t.Info.Frames
+	err = detect.Run(src, noBackground, opt, func(frame int, dets []detect.Detection) error {
+		if err := ctx.Err(); err != nil {
+			return err
+		}
+		for len(out) <= frame {
+			out = append(out, nil)
+		}
+		ld := make([]link.Detection, len(dets))
+		dg := &t.Diagnostics
+		for i, x := range dets {
+			ld[i] = link.Detection{XPx: x.XPx, YPx: x.YPx, Brightness: x.Brightness, SizePx: x.SizePx}
+			dg.SNR = append(dg.SNR, x.SNR)
+			dg.FracX = append(dg.FracX, x.XPx-math.Floor(x.XPx))
+			dg.FracY = append(dg.FracY, x.YPx-math.Floor(x.YPx))
+		}
+		out[frame] = ld
+		t.Detections += len(dets)
+		n++
+		r.cfg.report(StageDetect, n, total)
+		return nil
+	})
+	if err != nil {
+		return nil, inputErr(err)
+	}
+	if n == 0 {
+		return nil, inputErrf("input %s: no frames", r.cfg.Input)
+	}
+	t.Info.Frames = len(out)
+	if t.Detections == 0 {
+		return nil, inputErrf("no tracers found in %d frames of %s (tracer diameter %g px, polarity %s)", n, r.cfg.Input, d, opt.Polarity)
+	}
+	return out, nil
+}
+
+// maxWallSpeed returns the largest moving-wall speed of the program, um/s.
+func maxWallSpeed(p experiment.Program) float64 {
+	v := 0.0
+	for _, s := range p {
+		v = math.Max(v, math.Abs(s.WallSpeedUMPerS))
+	}
+	return v
+}
+
+// linkAll links the detections into tracks in gap coordinates.
+func (r *Recording) linkAll(ctx context.Context, t *Tracked, dets [][]link.Detection) error {
+	if err := ctx.Err(); err != nil {
+		return err
+	}
+	r.cfg.report(StageLink, 0, 1)
+	cal := r.Calibration
+	v := maxWallSpeed(r.cfg.Experiment.Program())
+	if v == 0 {
+		v = fastestTracerFraction * float64(t.Info.WidthPx) * cal.UMPerPx * t.Info.FPS
+	}
+	// The camera's jitter is measured on the tracks of the linker's first
+	// pass and removed in its final pass (link.Options.MeasureCommonMode,
+	// which keeps only the fast part along the flow).
+	opt := link.Options{FPS: t.Info.FPS, MaxStepPx: link.MaxStepFor(v, t.Info.FPS, cal.UMPerPx),
+		GapFrames: link.DefaultGapFrames, MeasureCommonMode: !r.cfg.NoJitter}
+	pts, st, err := link.Link(dets, cal, opt)
+	if err != nil {
+		return err
+	}
+	if st.Tracks == 0 {
+		return inputErrf("no tracks: %d detections in %d frames could not be linked", st.Detections, len(dets))
+	}
+	t.Points, t.Link = pts, st
+	r.cfg.report(StageLink, 1, 1)
+	return ctx.Err()
+}
+
+// findPhases finds the phases of wall motion in the tracks, sets the
+// direction of the flow from them (flipping x_um when the moving wall
+// travels towards -x of the image), and reconciles them with the motion
+// program: t.Phases is set to the detected phases when the program has
+// none.
+func (t *Tracked) findPhases(prog experiment.Program) {
+	det, err := phases.Detect(phases.WallSignal(t.Points, t.Calibration, t.Info.Frames), t.Info.FPS)
+	if err != nil {
+		if len(prog) == 0 {
+			t.Warnings = append(t.Warnings, fmt.Sprintf("no motion program and no wall motion detected in the video: %v", err))
+		} else {
+			t.Warnings = append(t.Warnings, fmt.Sprintf("phases not detected in the video: %v", err))
+		}
+		return
+	}
+	// +x of the gap is the direction the moving wall travels in the first
+	// shear phase (the contract's convention).
+	if det.FlowSign != 0 && det.FlowSign != t.Calibration.FlowSign {
+		t.Calibration.FlowSign = det.FlowSign
+		for i := range t.Points {
+			t.Points[i].XUM = -t.Points[i].XUM
+		}
+	}
+	durS := float64(t.Info.Frames) / t.Info.FPS
+	use, warn := phases.Reconcile(phases.FromProgram(prog, durS), det.Phases, t.Info.FPS)
+	t.Warnings = append(t.Warnings, warn...)
+	if len(prog) == 0 {
+		t.Phases = use
+	}
+}
+
+// WriteTracks writes the tracks as tracks.csv (package tracks).
+func (t *Tracked) WriteTracks(w io.Writer) error { return tracks.WriteCSV(w, t.Points) }
