@@ -1,0 +1,9 @@
+package pipeline
+
+import (
+	"testing"
+
+	"gaptrace/track/matleak"
+)
+
+func TestMain(m *testing.M) { matleak.Main(m) }

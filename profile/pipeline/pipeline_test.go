@@ -1,0 +1,97 @@
+package pipeline
+
+import (
+	"context"
+	"errors"
+	"path/filepath"
+	"testing"
+
+	"gaptrace/calib/experiment"
+	"gaptrace/track/synth"
+)
+
+// rendered writes a built-in scenario as MJPEG and returns the pipeline's
+// configuration for it.
+func rendered(t *testing.T, name string) Config {
+	t.Helper()
+	dir := t.TempDir()
+	sc, err := synth.Builtin(name, 3)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if _, err := sc.Write(dir, synth.Output{Format: synth.FormatMJPEG}); err != nil {
+		t.Fatal(err)
+	}
+	exp, err := experiment.Load(filepath.Join(dir, synth.ExperimentFile))
+	if err != nil {
+		t.Fatal(err)
+	}
+	return Config{Experiment: exp, ExperimentDir: dir, Input: filepath.Join(dir, "video.avi")}
+}
+
+// TestCancel checks that a cancelled context stops each stage with the
+// context's error, wherever it is cancelled, and that nothing leaks (the
+// package's TestMain counts open Mats).
+func TestCancel(t *testing.T) {
+	cfg := rendered(t, "homogeneous")
+	cases := []struct {
+		name  string
+		stage string
+		done  int
+	}{
+		{"before the start", "", 0},
+		{"during calibration", StageCalibrate, 0},
+		{"a third into detection", StageDetect, 100},
+		{"during linking", StageLink, 0},
+		{"during the profiles", StageProfile, 0},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			ctx, cancel := context.WithCancel(context.Background())
+			defer cancel()
+			if c.stage == "" {
+				cancel()
+			}
+			cfg := cfg
+			var after int
+			cfg.Progress = func(p Progress) {
+				if ctx.Err() != nil {
+					after++
+				}
+				if p.Stage == c.stage && p.Done >= c.done {
+					cancel()
+				}
+			}
+			_, err := Run(ctx, cfg)
+			if !errors.Is(err, context.Canceled) {
+				t.Fatalf("Run after cancelling %s = %v, want context.Canceled", c.name, err)
+			}
+			// Detection runs ahead in workers: a few frames may still be
+			// reported, never the rest of the recording.
+			if after > maxFramesAfterCancel {
+				t.Errorf("%d progress reports after the cancellation, want at most %d", after, maxFramesAfterCancel)
+			}
+		})
+	}
+}
+
+// maxFramesAfterCancel bounds the frames still detected after a
+// cancellation: those already handed to the detection workers.
+const maxFramesAfterCancel = 16
+
+// TestInputErrors checks that what the user gave wrong comes back as an
+// InputError, and the rest does not.
+func TestInputErrors(t *testing.T) {
+	cfg := rendered(t, "homogeneous")
+	missing := cfg
+	missing.Input = filepath.Join(t.TempDir(), "no-such-video.avi")
+	noExp := cfg
+	noExp.Experiment = nil
+	for name, c := range map[string]Config{"missing input": missing, "no experiment": noExp} {
+		_, err := Run(context.Background(), c)
+		var ie *InputError
+		if !errors.As(err, &ie) {
+			t.Errorf("%s: error %v is not an InputError", name, err)
+		}
+	}
+}
