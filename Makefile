@@ -11,10 +11,10 @@ TAGS    := matprofile
 all: build
 
 deps:
-	@scripts/deps.sh
+	@cmd/scripts/deps.sh
 
 test-deps:
-	@scripts/deps.sh --test
+	@cmd/scripts/deps.sh --test
 
 build: deps
 	$(GO) build -o $(BIN) ./cmd/gaptrace
@@ -29,7 +29,7 @@ demo: build
 
 bench: test-deps build
 	$(GO) test -run '^$$' -bench . -benchtime 2x ./...
-	scripts/bench-track.sh
+	cmd/scripts/bench-track.sh
 
 clean:
 	rm -rf bin $(DEMO)

@@ -10,7 +10,7 @@ import (
 
 // BenchmarkFind finds the walls in the median of a rendered video, at the
 // renderer's default size and at the 1024x1024 of the throughput benchmark
-// (scripts/bench-track.sh).
+// (cmd/scripts/bench-track.sh).
 func BenchmarkFind(b *testing.B) {
 	for _, size := range [][2]int{{0, 0}, {1024, 1024}} {
 		s, err := synth.Builtin("dark", 1)

@@ -53,7 +53,7 @@ var loaded = regexp.MustCompile(`data-figures-loaded="(\d+)/(\d+)"`)
 // screenshot for a look.
 func TestChromiumRendersReport(t *testing.T) {
 	if _, err := os.Stat(chromiumPath); err != nil {
-		t.Skipf("Chromium not installed at %s (Debian package chromium; scripts/deps.sh --test installs it): %v", chromiumPath, err)
+		t.Skipf("Chromium not installed at %s (Debian package chromium; cmd/scripts/deps.sh --test installs it): %v", chromiumPath, err)
 	}
 	dir, _ := writeReport(t, fullData(t))
 	page, err := filepath.Abs(filepath.Join(dir, report.FileName))

@@ -1,6 +1,6 @@
 // Command benchrun times the stages of detection over one recording: reading
 // the frames alone, then reading and detecting with detect.Run, and prints
-// the times in seconds. It is the detection half of scripts/bench-track.sh.
+// the times in seconds. It is the detection half of cmd/scripts/bench-track.sh.
 //
 // Usage: benchrun [-d DIAMETER_PX] [-workers N] [-background] [-cpuprofile FILE] INPUT
 package main

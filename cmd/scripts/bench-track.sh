@@ -19,12 +19,12 @@
 # Environment: FRAMES (default "300 1000"), TRACERS (1000), REPEAT (3),
 # BENCH_DIR (a temporary folder, removed at the end unless given).
 set -euo pipefail
-cd "$(dirname "$0")/.."
+cd "$(dirname "$0")/../.."
 
 FRAMES=${FRAMES:-300 1000}
 TRACERS=${TRACERS:-1000}
 REPEAT=${REPEAT:-3}
-command -v ffmpeg >/dev/null || { echo "bench-track: ffmpeg is needed (scripts/deps.sh --test)" >&2; exit 1; }
+command -v ffmpeg >/dev/null || { echo "bench-track: ffmpeg is needed (cmd/scripts/deps.sh --test)" >&2; exit 1; }
 
 keep=1
 if [ -z "${BENCH_DIR:-}" ]; then
