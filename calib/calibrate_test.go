@@ -353,3 +353,18 @@ func writeBoard(t *testing.T, b testtarget.Board) string {
 	}
 	return dir
 }
+
+// TestLoadTestdata reads the reference calibration.json (testdata/slip),
+// written by gaptrace track on a rendered slip experiment at 4 um/px with
+// the 800 um gap filling 200 px.
+func TestLoadTestdata(t *testing.T) {
+	c, err := calib.Load(filepath.Join("..", "testdata", "slip", "calibration.json"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	// The wall distance is measured to a small fraction of a pixel.
+	const gapPxTol = 0.5
+	if c.UMPerPx != 4 || c.ScaleSource != calib.ScaleExperiment || math.Abs(c.GapPx-200) > gapPxTol {
+		t.Errorf("calibration %+v, want 4 um/px from the experiment and a 200 px gap", c)
+	}
+}

@@ -128,3 +128,38 @@ func TestProfileCommandBadInput(t *testing.T) {
 		t.Error("a failed run left summary.json behind")
 	}
 }
+
+// TestProfileTestdata runs profile on the reference tracks of testdata/slip
+// (tracked by gaptrace track from a rendered MJPEG video) and compares the
+// result with the rendering's truth, within the end-to-end tolerances.
+func TestProfileTestdata(t *testing.T) {
+	dir := filepath.Join("..", "..", "testdata", "slip")
+	out := t.TempDir()
+	var stderr bytes.Buffer
+	if st := mainArgs([]string{"profile", "-e", filepath.Join(dir, "experiment.yaml"), "-o", out, filepath.Join(dir, "tracks.csv")}, &stderr); st != 0 {
+		t.Fatalf("exit %d: %s", st, stderr.String())
+	}
+	got, err := summary.Read(filepath.Join(out, "summary.json"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	var truth struct{ Summary *summary.Summary }
+	b, err := os.ReadFile(filepath.Join(dir, "truth.json"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := json.Unmarshal(b, &truth); err != nil {
+		t.Fatal(err)
+	}
+	if len(got.ShearPhases) != 1 || len(truth.Summary.ShearPhases) != 1 {
+		t.Fatalf("%d shear phases, want 1", len(got.ShearPhases))
+	}
+	sp, tp := got.ShearPhases[0], truth.Summary.ShearPhases[0]
+	v := float64(tp.WallSpeedUMPerS)
+	if math.Abs(float64(sp.BulkRatePerS/tp.BulkRatePerS)-1) > e2eRateTol ||
+		math.Abs(float64(sp.SlipStationaryUMPerS-tp.SlipStationaryUMPerS))/v > e2eSlipTol ||
+		math.Abs(float64(sp.SlipMovingUMPerS-tp.SlipMovingUMPerS))/v > e2eSlipTol || sp.Verdict != tp.Verdict {
+		t.Errorf("rate %v, slips %v and %v um/s, %s; truth %v, %v, %v, %s", sp.BulkRatePerS, sp.SlipStationaryUMPerS,
+			sp.SlipMovingUMPerS, sp.Verdict, tp.BulkRatePerS, tp.SlipStationaryUMPerS, tp.SlipMovingUMPerS, tp.Verdict)
+	}
+}
