@@ -57,9 +57,11 @@ func runCalib(ctx context.Context, args []string, stderr io.Writer) error {
 	} else {
 		program = exp.Program()
 	}
-	if err := ensureDir(*outDir); err != nil {
+	od, err := holdOutDir(*outDir, false, false, stderr)
+	if err != nil {
 		return err
 	}
+	defer od.release()
 	removeStale(*outDir, calibrationName, calibrationPNGName)
 	rec, err := pipeline.Open(ctx, o.config(exp, stderr))
 	if err != nil {

@@ -36,9 +36,11 @@ func runDemo(ctx context.Context, args []string, stderr io.Writer) error {
 	if fs.NArg() != 0 {
 		return badInputf("demo takes no INPUT, got %q", fs.Arg(0))
 	}
-	if err := prepareOutDir(o.outDir, o.force); err != nil {
+	od, err := holdOutDir(o.outDir, true, o.force, stderr)
+	if err != nil {
 		return err
 	}
+	defer od.release()
 	sc, err := synth.Builtin(*scenario, *seed)
 	if err != nil {
 		return badInput(err)
@@ -54,7 +56,7 @@ func runDemo(ctx context.Context, args []string, stderr io.Writer) error {
 	o.expPath = filepath.Join(in, synth.ExperimentFile)
 	o.input = filepath.Join(in, "video.avi")
 	// The output folder now holds the rendered experiment: that is expected.
-	o.force = true
+	o.force, o.holding = true, true
 	s, err := runChain(ctx, o, stderr)
 	if err != nil {
 		return err

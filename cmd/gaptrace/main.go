@@ -96,6 +96,9 @@ func mainContext(ctx context.Context, args []string, stderr io.Writer) (status i
 		return 2
 	}
 	err := c.run(ctx, args[1:], stderr)
+	if err != nil {
+		endProgressLine(stderr)
+	}
 	var in interruption
 	if err != nil && ctx.Err() != nil && errors.As(context.Cause(ctx), &in) {
 		fmt.Fprintln(stderr, "gaptrace: interrupted")

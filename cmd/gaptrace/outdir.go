@@ -1,38 +1,69 @@
 package main
 
 import (
+	"errors"
 	"fmt"
+	"io"
 	"os"
 	"path/filepath"
+
+	"gaptrace/calib/atomicfile"
 )
 
-// prepareOutDir makes dir, refusing one that holds files unless force is
-// set (then the files gaptrace would write are replaced; others stay).
-func prepareOutDir(dir string, force bool) error {
-	if dir == "" {
-		return badInputf("no output folder: give -o DIR")
-	}
-	ents, err := os.ReadDir(dir)
-	switch {
-	case os.IsNotExist(err):
-		return os.MkdirAll(dir, 0o755)
-	case err != nil:
-		return badInputf("output folder %s: %v", dir, err)
-	case len(ents) > 0 && !force:
-		return badInputf("output folder %s is not empty (%d entries); give --force to replace its results", dir, len(ents))
-	}
-	return nil
+// outDir is an output folder held by this run (atomicfile.LockDir), so
+// that two runs cannot mix their results in it.
+type outDir struct {
+	dir  string
+	lock *atomicfile.DirLock
 }
 
-// ensureDir makes dir for a stage command, which replaces only its own files.
-func ensureDir(dir string) error {
+// release gives the folder up.
+func (o *outDir) release() {
+	if o != nil {
+		o.lock.Unlock()
+	}
+}
+
+// holdOutDir makes dir if needed and takes its lock; a lock left by a run
+// that died is taken over with a warning on stderr. Temporary files that an
+// interrupted run of gaptrace left are removed. With fresh, the folder must
+// hold nothing else unless force is set (run and demo); without it, the
+// stage commands replace only their own files.
+func holdOutDir(dir string, fresh, force bool, stderr io.Writer) (*outDir, error) {
 	if dir == "" {
-		return badInputf("no output folder: give -o DIR")
+		return nil, badInputf("no output folder: give -o DIR")
 	}
 	if err := os.MkdirAll(dir, 0o755); err != nil {
-		return fmt.Errorf("output folder: %w", err)
+		return nil, badInputf("output folder %s: %v", dir, errors.Unwrap(err))
 	}
-	return nil
+	l, stale, err := atomicfile.LockDir(dir)
+	var le *atomicfile.LockedError
+	switch {
+	case errors.As(err, &le):
+		return nil, badInput(err)
+	case err != nil:
+		return nil, err
+	}
+	if stale != "" {
+		fmt.Fprintf(stderr, "gaptrace: warning: output folder %s: %s\n", dir, stale)
+	}
+	o := &outDir{dir: dir, lock: l}
+	if fresh && !force {
+		ents, err := os.ReadDir(dir)
+		if err != nil {
+			o.release()
+			return nil, badInputf("output folder %s: %v", dir, errors.Unwrap(err))
+		}
+		if n := len(ents) - 1; n > 0 { // the lock is one
+			o.release()
+			return nil, badInputf("output folder %s is not empty (%d entries); give --force to replace its results", dir, n)
+		}
+	}
+	if _, err := atomicfile.RemoveLeftovers(dir); err != nil {
+		o.release()
+		return nil, fmt.Errorf("output folder %s: %w", dir, err)
+	}
+	return o, nil
 }
 
 // removeStale deletes the named result files of an earlier run in dir, so

@@ -69,9 +69,11 @@ func runProfile(ctx context.Context, args []string, stderr io.Writer) error {
 	if err != nil {
 		return err
 	}
-	if err := ensureDir(*out); err != nil {
+	od, err := holdOutDir(*out, false, false, stderr)
+	if err != nil {
 		return err
 	}
+	defer od.release()
 	removeStale(*out, summaryName, profileTableName, afterStopTableName)
 	in := fs.Arg(0)
 	if *calPath == "" {

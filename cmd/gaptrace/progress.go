@@ -14,6 +14,19 @@ import (
 // to look alive, rarely enough to cost nothing.
 const progressInterval = 250 * time.Millisecond
 
+// progressOpen is set while a progress line is drawn and not ended, so
+// that a final message starts on a line of its own (endProgressLine).
+var progressOpen bool
+
+// endProgressLine ends a progress line left open, as when a run stops
+// early.
+func endProgressLine(w io.Writer) {
+	if progressOpen {
+		fmt.Fprintln(w)
+		progressOpen = false
+	}
+}
+
 // progress prints "stage: done/total units, rate, time left" on one
 // rewritten stderr line. A nil *progress prints nothing.
 type progress struct {
@@ -56,6 +69,7 @@ func (p *progress) update(done int) {
 		return
 	}
 	p.last = now
+	progressOpen = true
 	el := now.Sub(p.start).Seconds()
 	rate := 0.0
 	if el > 0 {
@@ -75,6 +89,7 @@ func (p *progress) done() {
 		return
 	}
 	fmt.Fprintf(p.w, "\r%s: done in %v%30s\n", p.stage, time.Since(p.start).Round(10*time.Millisecond), "")
+	progressOpen = false
 }
 
 // stageUnits names what each stage of the pipeline counts.

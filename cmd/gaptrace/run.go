@@ -24,6 +24,7 @@ type runOptions struct {
 	stageOptions
 	outDir  string
 	force   bool
+	holding bool // the caller holds outDir already
 	bins    int
 	windows windowList
 	seed    uint64
@@ -75,8 +76,12 @@ func runChain(ctx context.Context, o runOptions, stderr io.Writer) (*summary.Sum
 		return nil, err
 	}
 	yaml, _ := os.ReadFile(o.expPath)
-	if err := prepareOutDir(o.outDir, o.force); err != nil {
-		return nil, err
+	if !o.holding {
+		od, err := holdOutDir(o.outDir, true, o.force, stderr)
+		if err != nil {
+			return nil, err
+		}
+		defer od.release()
 	}
 	removeStale(o.outDir, runFiles...)
 	// Figures of an earlier run that this one may not draw.

@@ -84,9 +84,11 @@ func runSynth(ctx context.Context, args []string, stderr io.Writer) error {
 	if err := s.Validate(); err != nil {
 		return badInput(err)
 	}
-	if err := ensureDir(*out); err != nil {
+	od, err := holdOutDir(*out, false, false, stderr)
+	if err != nil {
 		return err
 	}
+	defer od.release()
 	p := newProgress(stderr, *showProgress, "synth", s.Frames)
 	o := synth.Output{Format: *format, BitDepth: *bits}
 	if p != nil {

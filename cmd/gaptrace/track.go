@@ -44,9 +44,11 @@ func runTrack(ctx context.Context, args []string, stderr io.Writer) error {
 	if err != nil {
 		return err
 	}
-	if err := ensureDir(*outDir); err != nil {
+	od, err := holdOutDir(*outDir, false, false, stderr)
+	if err != nil {
 		return err
 	}
+	defer od.release()
 	removeStale(*outDir, tracksName, calibrationName)
 	rec, err := pipeline.Open(ctx, o.config(exp, stderr))
 	if err != nil {
