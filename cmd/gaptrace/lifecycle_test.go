@@ -199,3 +199,41 @@ func scanProgress(data []byte, atEOF bool) (int, []byte, error) {
 	}
 	return 0, nil, nil
 }
+
+// TestStderrIsOneLine runs inputs that OpenCV itself would complain about
+// (a missing target image, a frame that is not an image) in a process of
+// their own, so that anything OpenCV writes to the process's stderr is
+// seen, and checks that stderr holds gaptrace's one line alone.
+func TestStderrIsOneLine(t *testing.T) {
+	bin := gaptraceBinary(t)
+	dir := t.TempDir()
+	frames := filepath.Join("..", "..", "testdata", "frames", "8bit")
+	bad := filepath.Join(dir, "bad")
+	os.Mkdir(bad, 0o755)
+	b, _ := os.ReadFile(filepath.Join(frames, "frame_00000.png"))
+	os.WriteFile(filepath.Join(bad, "frame_00000.png"), b, 0o644)
+	os.WriteFile(filepath.Join(bad, "frame_00001.png"), []byte("not a picture"), 0o644)
+	write := func(name, yaml string) string {
+		p := filepath.Join(dir, name)
+		os.WriteFile(p, []byte(yaml), 0o644)
+		return p
+	}
+	plain := write("plain.yaml", "geometry: {kind: plates, gap_um: 200}\ncamera: {fps: 100}\n")
+	target := write("target.yaml", "geometry: {kind: plates, gap_um: 200}\ncamera: {fps: 100, target: {image: missing.png, kind: ruler, pitch_um: 100}}\n")
+	for _, c := range []struct{ name, exp, input string }{
+		{"missing target image", target, frames},
+		{"a frame that is not an image", plain, bad},
+		{"a missing frame folder", plain, filepath.Join(dir, "none", "*.png")},
+	} {
+		t.Run(c.name, func(t *testing.T) {
+			var stderr bytes.Buffer
+			cmd := exec.Command(bin, "calib", "-e", c.exp, "-o", filepath.Join(dir, "out"), c.input)
+			cmd.Stderr = &stderr
+			cmd.Run()
+			out := stderr.String()
+			if code := cmd.ProcessState.ExitCode(); code != 2 || strings.Count(out, "\n") != 1 || !strings.HasPrefix(out, "gaptrace: ") {
+				t.Errorf("exit %d, stderr %q; want 2 and one gaptrace line", code, out)
+			}
+		})
+	}
+}

@@ -17,6 +17,8 @@ import (
 	"sort"
 	"strings"
 	"syscall"
+
+	"gaptrace/track/frames"
 )
 
 // command is one sub-command. run stops early, returning the context's
@@ -44,6 +46,15 @@ func badInput(err error) error {
 
 // badInputf formats a bad-input error.
 func badInputf(format string, a ...any) error { return usageError{fmt.Errorf(format, a...)} }
+
+// init silences OpenCV's own logging, so that stderr carries gaptrace's
+// one-line messages alone. A user who wants OpenCV's messages sets
+// OPENCV_LOG_LEVEL.
+func init() {
+	if _, set := os.LookupEnv("OPENCV_LOG_LEVEL"); !set {
+		frames.SilenceOpenCV()
+	}
+}
 
 func main() {
 	ctx, cancel := context.WithCancelCause(context.Background())
