@@ -20,7 +20,7 @@ func TestRenderSpotsAtPositions(t *testing.T) {
 	}
 	const frame = 120
 	img := r.Expected(frame)
-	all := s.positions(s.geom(), nil, s.Program(), frame, false)
+	all := s.positionsAt(s.geom(), nil, s.Program(), frame, s.FrameTimeS(frame), nil, false, nil)
 	const win = 5                            // px: 4 sigma of an in-focus spot
 	isolation := 4*s.SigmaPx()*2.5 + win + 1 // no other spot's box reaches the window
 	c := s.Calibration()

@@ -12,16 +12,24 @@ import (
 )
 
 // WallStyle is how the two plates look in the image: the plate regions
-// beyond the wall lines are uniformly lit at PlatePhotons per pixel, with a
-// sharp edge (blurred by EdgeSigmaPx, the optics' line spread) at the wall
-// line, and a thin reflection line on the wall line, a Gaussian of sd
-// ReflectionSigmaPx whose integral across the line is ReflectionPhotons per
-// pixel of length (negative: a dark line).
+// beyond the wall lines are lit at PlatePhotons per pixel, with a sharp edge
+// (blurred by EdgeSigmaPx, the optics' line spread) at the wall line, and a
+// thin reflection line on the wall line, a Gaussian of sd ReflectionSigmaPx
+// whose integral across the line is ReflectionPhotons per pixel of length
+// (negative: a dark line).
+//
+// With TextureContrast > 0 the plates carry a fixed texture (machining marks,
+// a matt finish): their level is PlatePhotons x (1 + TextureContrast x T),
+// T a smooth random field of unit sd with correlation length TextureScalePx,
+// drawn once from the seed. Each plate's texture belongs to the plate: the
+// moving plate's texture travels with it along the wall.
 type WallStyle struct {
 	PlatePhotons      float64
 	EdgeSigmaPx       float64
 	ReflectionPhotons float64
 	ReflectionSigmaPx float64
+	TextureContrast   float64 // relative sd of the plates' texture (0: uniform plates)
+	TextureScalePx    float64 // sd of the Gaussian that smooths the texture, px; 0: 2 px
 }
 
 // Scenario is everything needed to render a synthetic experiment and to know
@@ -66,6 +74,75 @@ type Scenario struct {
 	Walls              WallStyle
 	DropFraction       float64 // probability that a tracer is missing from a frame
 
+	// The camera's faults. Each is off at its zero value.
+
+	// ExposureFraction is the exposure time over the frame interval (0..1;
+	// at most 0.5 when Interlaced). Each spot is integrated along its true
+	// path over the exposure, which is centred on the frame's time: the
+	// truth's position is the middle of the streak. 0: an instantaneous
+	// exposure, as before.
+	ExposureFraction float64
+	// Interlaced makes each frame of two fields: the even rows (0, 2, ...)
+	// exposed a quarter frame interval before the frame's time, the odd rows
+	// a quarter after, so that the fields lie half a frame interval apart
+	// and the truth's frame time is midway between them.
+	Interlaced bool
+	// VariableRate makes the frame times irregular (see VariableRate).
+	VariableRate VariableRate
+	// SwayPx is the amplitude, per axis, of a slow sinusoidal sway of the
+	// camera on top of the per-frame JitterPx, px; it can reach 2 px and more.
+	SwayPx float64
+	// SwayPeriodS is the period of the sway along x, s (along y it is longer
+	// by the golden ratio, so that the path is not a line); 0: 2 s.
+	SwayPeriodS float64
+	// Flicker varies the illumination from frame to frame (see Flicker).
+	Flicker Flicker
+	// Colour makes the camera a colour camera (see Colour); zero: grey.
+	Colour Colour
+	// StoredRotationDeg is 0 or 180: the video file stores every frame
+	// rotated by this angle and carries a display-rotation tag that undoes
+	// it, as a phone held upside down does. Only the mp4-h264 format can
+	// carry the tag; Render and Source give the frames as displayed.
+	StoredRotationDeg int
+
+	// Harder tracers.
+
+	// OutOfFocusBlurMin, when > 0, spreads the out-of-focus tracers' blur:
+	// each one's spot sigma over the in-focus sigma is drawn uniformly
+	// between OutOfFocusBlurMin and OutOfFocusBlur (their photons are
+	// OutOfFocusDim of an in-focus tracer's, so the wider, the dimmer).
+	OutOfFocusBlurMin float64
+	// FaintFraction is the fraction of in-focus tracers drawn faint: their
+	// peak SNR (as PeakSNR defines it) uniform in FaintSNR.
+	FaintFraction float64
+	// FaintSNR is the range of the faint tracers' peak SNR; zero: 5 to 15.
+	FaintSNR [2]float64
+	// NearWallFraction is the fraction of tracers placed with their centre
+	// within NearWallPx of a wall line (half at each wall, from on the
+	// line inwards), where the others keep half a diameter away.
+	NearWallFraction float64
+	// NearWallPx is the depth of that layer, px; 0: 5 px.
+	NearWallPx float64
+	// StuckTracers is the mean number of tracers in view that are stuck to
+	// a wall (half to each, centre half a diameter inside the gap) and move
+	// with their wall. They are tracers: Positions lists them (Stuck says
+	// which wall).
+	StuckTracers int
+	// Dust puts static spots on the cell's window (see Dust).
+	Dust Dust
+
+	// Start-up and the rheometer.
+
+	// Transient makes the profile of each shear step develop from the
+	// affine one (see Transient).
+	Transient Transient
+	// Stress is the sample's stress response, for the rheometer log and the
+	// truth's stress maximum (see StressModel); zero: none.
+	Stress StressModel
+	// Log, when its RateHz > 0, makes Write add rheometer_log.csv (see
+	// RheometerLog).
+	Log RheometerLog
+
 	OmitScale  bool // leave camera.um_per_px out of the experiment file
 	StateWalls bool // write the true wall lines into the experiment file
 
@@ -87,6 +164,7 @@ type Named struct{ Name, Description string }
 // its spot is centred in the image (including the camera jitter of the
 // frame); XUM, YUM its position in gap coordinates (without jitter), x along
 // the flow from the stationary wall's left end, y from the stationary wall.
+// With motion blur the position is the one at mid-exposure.
 type Tracer struct {
 	ID       int
 	XPx, YPx float64
@@ -94,6 +172,7 @@ type Tracer struct {
 	Photons  float64 // total photons of the spot (its contrast in dark polarity)
 	SigmaPx  float64 // sd of the spot
 	InFocus  bool
+	Stuck    string // "" for a tracer in the sample, else the wall it is stuck to: "stationary" or "moving"
 }
 
 // Defaults.
@@ -116,6 +195,18 @@ const (
 	maxTiltDeg = 20.0
 )
 
+// Bounds on the sizes a user controls, checked before anything is
+// allocated: a frame's buffers take about 30 bytes per pixel, so that a
+// 16 Mpx frame needs about 0.5 GB; the truth holds a row per tracer and
+// frame.
+const (
+	MaxSidePx      = 16384     // image width or height, px
+	MaxPixels      = 16 << 20  // image area, px
+	MaxFrames      = 1_000_000 // frames of a recording
+	MaxTracers     = 1_000_000 // tracers in the image
+	minPxPerTracer = 16        // at most one tracer per 4x4 px: denser, the spots merge into a texture
+)
+
 // Noise streams, so that each random quantity of a frame is reproducible on
 // its own.
 const (
@@ -123,6 +214,16 @@ const (
 	streamNoise
 	streamJitter
 	streamDrop
+	streamTiming  // frame times of a variable rate
+	streamSway    // the sway's phases
+	streamFlicker // the lamp's phase and the per-frame changes
+	streamTraits  // faint, near-wall and blur draws of the population
+	streamDust    // the dust on the window
+	streamTexture // the plates' texture
+	streamNoiseG  // noise of the green channel of a colour camera
+	streamNoiseR  // noise of the red channel
+	streamStuck   // the tracers stuck to the walls
+	streamLog     // noise of the rheometer log
 )
 
 func (s *Scenario) rng(stream, frame int) *rand.Rand {
@@ -202,8 +303,16 @@ func (s *Scenario) Validate() error {
 	switch {
 	case s.WidthPx < 16 || s.HeightPx < 16:
 		return e("size %dx%d px is too small (at least 16x16)", s.WidthPx, s.HeightPx)
+	case s.WidthPx > MaxSidePx || s.HeightPx > MaxSidePx || s.WidthPx*s.HeightPx > MaxPixels:
+		return e("size %dx%d px exceeds %d px a side or %d Mpx", s.WidthPx, s.HeightPx, MaxSidePx, MaxPixels>>20)
 	case s.Frames < 1:
 		return e("frames %d, need at least 1", s.Frames)
+	case s.Frames > MaxFrames:
+		return e("frames %d exceed %d", s.Frames, MaxFrames)
+	case s.Tracers > MaxTracers || s.Tracers > s.WidthPx*s.HeightPx/minPxPerTracer:
+		return e("tracers %d exceed %d, or one per %d px of the %dx%d image", s.Tracers, MaxTracers, minPxPerTracer, s.WidthPx, s.HeightPx)
+	case s.StuckTracers < 0 || s.StuckTracers > MaxTracers:
+		return e("stuck tracers %d, must be in [0, %d]", s.StuckTracers, MaxTracers)
 	case !(s.FPS > 0):
 		return e("fps %g, must be positive", s.FPS)
 	case s.BitDepth != 0 && s.BitDepth != 8 && s.BitDepth != 16:
@@ -254,7 +363,47 @@ func (s *Scenario) Validate() error {
 	if c := s.centreYPx(); s.GapPx() >= float64(s.HeightPx) || c-s.GapPx()/2 < 0 || c+s.GapPx()/2 > float64(s.HeightPx-1) {
 		return e("the gap of %.1f px centred on row %.1f does not fit into %d rows", s.GapPx(), c, s.HeightPx)
 	}
+	if err := s.validateFaults(); err != nil {
+		return e("%v", err)
+	}
 	return nil
+}
+
+// validateFaults reports the first unusable field of the camera's faults,
+// the harder tracers, the dust, the start-up and the rheometer.
+func (s *Scenario) validateFaults() error {
+	if err := s.validateCamera(); err != nil {
+		return err
+	}
+	lo, hi := s.faintSNR()
+	blurMax := orDefault(s.OutOfFocusBlur, defaultOutOfFocusBlur)
+	switch {
+	case !(s.FaintFraction >= 0 && s.FaintFraction <= 1):
+		return fmt.Errorf("faint fraction %g, must be in [0, 1]", s.FaintFraction)
+	case !(lo > 0 && hi >= lo) || math.IsInf(hi, 0):
+		return fmt.Errorf("faint SNR range %v, must be positive and increasing", s.FaintSNR)
+	case !(s.NearWallFraction >= 0 && s.NearWallFraction <= 1):
+		return fmt.Errorf("near-wall fraction %g, must be in [0, 1]", s.NearWallFraction)
+	case !(s.NearWallPx >= 0) || orDefault(s.NearWallPx, defaultNearWallPx) > s.GapPx()/2:
+		return fmt.Errorf("near-wall layer %g px, must be positive and within half the gap", s.NearWallPx)
+	case !(s.OutOfFocusBlurMin >= 0) || s.OutOfFocusBlurMin > blurMax:
+		return fmt.Errorf("out-of-focus blur range %g to %g, must be increasing", s.OutOfFocusBlurMin, blurMax)
+	case !(s.Walls.TextureContrast >= 0 && s.Walls.TextureContrast <= 1) || !(s.Walls.TextureScalePx >= 0):
+		return fmt.Errorf("plate texture contrast %g (0..1) and scale %g px (not negative)", s.Walls.TextureContrast, s.Walls.TextureScalePx)
+	}
+	if err := s.Dust.validate(); err != nil {
+		return err
+	}
+	if err := s.Transient.validate(); err != nil {
+		return err
+	}
+	if s.Transient.on() && s.Geometry.Kind == geometry.Couette {
+		return fmt.Errorf("a start-up transient needs a plate-like geometry, not %q (its affine profile is curved)", s.Geometry.Kind)
+	}
+	if err := s.Stress.validate(); err != nil {
+		return err
+	}
+	return s.validateLog()
 }
 
 // Experiment returns the experiment file that goes with the scenario: its
@@ -338,24 +487,37 @@ func (s *Scenario) Calibration() *calib.Calibration {
 }
 
 // member is one tracer of the population: fixed height, starting position
-// along the wall strip, brightness and focus.
+// along the wall strip, brightness and focus, and the wall it is stuck to
+// ("" for none).
 type member struct {
 	yUM, u0Px        float64
 	photons, sigmaPx float64
 	inFocus          bool
+	stuck            string
 }
 
-// population draws the scenario's tracers from its seed.
+// Defaults of the harder tracers.
+const (
+	defaultFaintSNRLo = 5.0
+	defaultFaintSNRHi = 15.0
+	defaultNearWallPx = 5.0
+)
+
+// population draws the scenario's tracers from its seed. The draws of the
+// harder tracers (faint, near the walls, spread blur) come from a stream of
+// their own, after the others, so that switching them on changes only the
+// tracers they pick; the stuck tracers follow the others in ID order.
 func (s *Scenario) population(g frameGeom) []member {
 	rng := s.rng(streamPopulation, 0)
-	n := int(math.Round(float64(s.Tracers) * g.periodPx * g.ex / float64(s.WidthPx)))
+	strip := g.periodPx * g.ex / float64(s.WidthPx) // the strip's length over the image width
+	n := int(math.Round(float64(s.Tracers) * strip))
 	gap := s.GapUM()
 	// A tracer's centre stays half a diameter from each wall: it is a
 	// particle of that size in the sample.
 	edgeUM := s.DiameterPx / 2 * s.UMPerPx
 	sig := s.SigmaPx()
 	spread := s.BrightnessSpread
-	pop := make([]member, n)
+	pop := make([]member, n, n+int(math.Round(float64(s.StuckTracers)*strip)))
 	for i := range pop {
 		m := member{
 			yUM:     edgeUM + rng.Float64()*(gap-2*edgeUM),
@@ -371,7 +533,71 @@ func (s *Scenario) population(g frameGeom) []member {
 		}
 		pop[i] = m
 	}
+	if s.OutOfFocusBlurMin > 0 || s.FaintFraction > 0 || s.NearWallFraction > 0 {
+		s.harderTracers(pop)
+	}
+	if s.StuckTracers > 0 {
+		r := s.rng(streamStuck, 0)
+		for k := range cap(pop) - n {
+			m := member{u0Px: (r.Float64() - 0.5) * g.periodPx, sigmaPx: sig, inFocus: true,
+				photons: s.Photons * math.Exp(spread*r.NormFloat64()-spread*spread/2)}
+			if k%2 == 0 {
+				m.stuck, m.yUM = WallStationary, edgeUM
+			} else {
+				m.stuck, m.yUM = WallMoving, gap-edgeUM
+			}
+			pop = append(pop, m)
+		}
+	}
 	return pop
+}
+
+// harderTracers redraws, from their own stream, the blur of out-of-focus
+// tracers, the photons of faint ones and the height of near-wall ones.
+func (s *Scenario) harderTracers(pop []member) {
+	r := s.rng(streamTraits, 0)
+	sig := s.SigmaPx()
+	blurMax := orDefault(s.OutOfFocusBlur, defaultOutOfFocusBlur)
+	lo, hi := s.faintSNR()
+	depthUM := orDefault(s.NearWallPx, defaultNearWallPx) * s.UMPerPx
+	for i := range pop {
+		m := &pop[i]
+		// Five draws per tracer whatever is switched on, so that each
+		// choice is the same tracer's for any combination.
+		uBlur, uFaint, uFaintSNR := r.Float64(), r.Float64(), r.Float64()
+		uNear, uNearY := r.Float64(), r.Float64()
+		if !m.inFocus && s.OutOfFocusBlurMin > 0 {
+			m.sigmaPx = sig * (s.OutOfFocusBlurMin + uBlur*(blurMax-s.OutOfFocusBlurMin))
+		}
+		if m.inFocus && uFaint < s.FaintFraction {
+			m.photons = s.photonsForSNR(lo + uFaintSNR*(hi-lo))
+		}
+		if uNear < s.NearWallFraction {
+			// Half at each wall: the lower half of uNear's range at the
+			// stationary wall.
+			d := uNearY * depthUM
+			if uNear < s.NearWallFraction/2 {
+				m.yUM = d
+			} else {
+				m.yUM = s.GapUM() - d
+			}
+		}
+	}
+}
+
+func (s *Scenario) faintSNR() (lo, hi float64) {
+	if s.FaintSNR == [2]float64{} {
+		return defaultFaintSNRLo, defaultFaintSNRHi
+	}
+	return s.FaintSNR[0], s.FaintSNR[1]
+}
+
+// photonsForSNR returns the photons of an in-focus tracer whose peak SNR,
+// as PeakSNR defines it, is snr.
+func (s *Scenario) photonsForSNR(snr float64) float64 {
+	var w [1]float64
+	frac := pixelWeights(w[:0], 0, 1, 0, s.SigmaPx())[0]
+	return snr * math.Sqrt(s.BackgroundPhotons+s.ReadNoise*s.ReadNoise) / (frac * frac)
 }
 
 // Program returns the resolved motion program.
@@ -421,12 +647,20 @@ func (s *Scenario) DisplacementUM(yUM, tS float64) float64 {
 
 func (s *Scenario) displacement(p experiment.Program, yUM, tS float64) float64 {
 	sense := flowSense(p)
-	f := s.VelocityFraction(yUM)
 	d := 0.0
-	for _, st := range p {
-		dt := min(tS, st.EndS) - st.StartS
-		if dt > 0 {
-			d += sense * st.WallSpeedUMPerS * f * dt
+	if s.Transient.on() {
+		for _, st := range p {
+			if dt := min(tS, st.EndS) - st.StartS; dt > 0 {
+				d += s.stepDisplacement(sense*st.WallSpeedUMPerS, yUM, dt)
+			}
+		}
+	} else {
+		f := s.VelocityFraction(yUM)
+		for _, st := range p {
+			dt := min(tS, st.EndS) - st.StartS
+			if dt > 0 {
+				d += sense * st.WallSpeedUMPerS * f * dt
+			}
 		}
 	}
 	if len(p) > 0 {
@@ -435,46 +669,54 @@ func (s *Scenario) displacement(p experiment.Program, yUM, tS float64) float64 {
 	return d
 }
 
-// JitterAt returns the camera's common-mode image shift in px of a frame.
+// JitterAt returns the camera's common-mode image shift in px of a frame:
+// its random jitter plus the sway at its time.
 func (s *Scenario) JitterAt(frame int) (dxPx, dyPx float64) {
-	if s.JitterPx == 0 {
+	if s.JitterPx == 0 && s.SwayPx == 0 {
 		return 0, 0
 	}
-	r := s.rng(streamJitter, frame)
-	return s.JitterPx * r.NormFloat64(), s.JitterPx * r.NormFloat64()
+	return s.shiftAt(frame, s.FrameTimeS(frame))
 }
 
 // Positions returns the true state of the tracers whose spot centre lies in
-// the image of that frame (and which are not dropped from it), in ID order.
-// It renders nothing and may be called for any frame in any order; the
-// result depends only on the scenario's fields and the frame index.
+// the image of that frame (and which are not dropped from it), in ID order,
+// at the frame's time (the middle of its exposure, midway between the
+// fields of an interlaced frame). It renders nothing and may be called for
+// any frame in any order; the result depends only on the scenario's fields
+// and the frame index.
 func (s *Scenario) Positions(frame int) []Tracer {
-	all := s.positions(s.geom(), nil, s.Program(), frame, true)
-	return all
+	return s.positionsAt(s.geom(), nil, s.Program(), frame, s.FrameTimeS(frame), nil, true, nil)
 }
 
-// positions computes the population's state in a frame, appending to dst.
-// With inImage only tracers centred in the image are kept; else every
-// tracer whose spot may touch the image.
-func (s *Scenario) positions(g frameGeom, pop []member, prog experiment.Program, frame int, inImage bool) []Tracer {
+// positionsAt computes the population's state in a frame shown at time tS
+// (pop nil: drawn here; cal nil: computed here), appending to dst. With
+// inImage only tracers centred in the image are kept; else every tracer
+// whose spot may touch the image.
+func (s *Scenario) positionsAt(g frameGeom, pop []member, prog experiment.Program, frame int, tS float64,
+	cal *calib.Calibration, inImage bool, dst []Tracer) []Tracer {
 	if pop == nil {
 		pop = s.population(g)
 	}
-	tS := float64(frame) / s.FPS
-	jx, jy := s.JitterAt(frame)
-	cal := s.Calibration()
+	jx, jy := s.shiftAt(frame, tS)
+	if cal == nil {
+		cal = s.Calibration()
+	}
 	var drop *rand.Rand
 	if s.DropFraction > 0 {
 		drop = s.rng(streamDrop, frame)
 	}
 	sign := s.flowSign()
 	w, h := float64(s.WidthPx), float64(s.HeightPx)
-	out := make([]Tracer, 0, len(pop))
-	for i, m := range pop {
+	out := dst[:0]
+	if cap(out) < len(pop) {
+		out = make([]Tracer, 0, len(pop))
+	}
+	for i := range pop {
+		m := &pop[i]
 		if drop != nil && drop.Float64() < s.DropFraction {
 			continue
 		}
-		u := m.u0Px + sign*s.displacement(prog, m.yUM, tS)/s.UMPerPx
+		u := m.u0Px + sign*s.memberDisplacement(prog, m, tS)/s.UMPerPx
 		u -= g.periodPx * math.Floor(u/g.periodPx+0.5) // wrap into [-P/2, P/2)
 		x, y := g.toImage(u, m.yUM/s.UMPerPx)
 		xUM, yUM := cal.ToGap(x, y)
@@ -483,9 +725,34 @@ func (s *Scenario) positions(g frameGeom, pop []member, prog experiment.Program,
 			continue
 		}
 		out = append(out, Tracer{ID: i, XPx: x, YPx: y, XUM: xUM, YUM: yUM,
-			Photons: m.photons, SigmaPx: m.sigmaPx, InFocus: m.inFocus})
+			Photons: m.photons, SigmaPx: m.sigmaPx, InFocus: m.inFocus, Stuck: m.stuck})
 	}
 	return out
+}
+
+// memberDisplacement is a tracer's displacement along gap +x since time 0,
+// um: the fluid's at its height, or its wall's for a stuck tracer.
+func (s *Scenario) memberDisplacement(prog experiment.Program, m *member, tS float64) float64 {
+	switch m.stuck {
+	case WallStationary:
+		return 0
+	case WallMoving:
+		return s.wallDisplacement(prog, tS)
+	}
+	return s.displacement(prog, m.yUM, tS)
+}
+
+// wallDisplacement is the moving wall's displacement along gap +x since
+// time 0, um.
+func (s *Scenario) wallDisplacement(p experiment.Program, tS float64) float64 {
+	sense := flowSense(p)
+	d := 0.0
+	for _, st := range p {
+		if dt := min(tS, st.EndS) - st.StartS; dt > 0 {
+			d += sense * st.WallSpeedUMPerS * dt
+		}
+	}
+	return d
 }
 
 // Resize changes the image size to widthPx x heightPx and keeps the picture:
