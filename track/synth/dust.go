@@ -9,10 +9,12 @@ import (
 // InGap of them over the gap and OnPlates over the plates. Each is a
 // Gaussian of sd drawn uniformly from SizeSigmas times the in-focus
 // tracer's sd, with a peak contrast drawn uniformly from Contrast. A dark
-// spot (absorbing) multiplies the light behind it by 1 - contrast x G, a
-// bright one (scattering the lamp's light) adds contrast x
-// BackgroundPhotons x G, G being the spot's profile with peak 1
-// (integrated over each pixel). They belong to the cell: they never move
+// spot (absorbing) multiplies the light behind it by 1 - contrast x G; a
+// bright one (scattering the lamp's light into the lens) adds contrast x P
+// x G, P the photons in the brightest pixel of a mean in-focus tracer
+// centred on a pixel, so that it looks like a tracer of that relative
+// brightness; G is the spot's profile with peak 1 (integrated over each
+// pixel). They belong to the cell: they never move
 // in it, and move in the image only with the camera's shake, as the walls
 // do. DustSpots lists them; truth.json holds the list. Zero: a clean window.
 type Dust struct {
@@ -153,7 +155,7 @@ func (r *Renderer) addDust(dst []float64, jx, jy float64) {
 			row := dst[(y0+j)*w+x0 : (y0+j)*w+x0+nx]
 			f := peak * fy
 			if d.Kind == DustBright {
-				f *= s.BackgroundPhotons
+				f *= r.dustPeak
 				for i, fx := range wx {
 					row[i] += f * fx
 				}

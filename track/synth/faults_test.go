@@ -313,7 +313,10 @@ func TestDust(t *testing.T) {
 			got, b := img[j*w+i], base[j*w+i]
 			want := b * (1 - d.Contrast*g)
 			if d.Kind == DustBright {
-				want = b + d.Contrast*g*s.BackgroundPhotons
+				// A tracer's peak: photons x the centred pixel's share (the
+				// erf difference across one pixel, squared).
+				frac := normCDF(0.5/s.SigmaPx()) - normCDF(-0.5/s.SigmaPx())
+				want = b + d.Contrast*g*s.Photons*frac*frac
 			}
 			if math.Abs(got-want) > 1e-9*b {
 				t.Errorf("frame %d, %s spot %d: centre pixel %g photons, want %g", f, d.Kind, k, got, want)

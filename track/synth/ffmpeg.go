@@ -28,6 +28,9 @@ func ffmpegArgs(o Output, variable bool) []string {
 			preset = defaultPreset
 		}
 		a := []string{"-c:v", "libx264", "-preset", preset, "-crf", strconv.Itoa(crf), "-pix_fmt", "yuv420p"}
+		if o.NoBFrames {
+			a = append(a, "-bf", "0")
+		}
 		if variable {
 			a = append(a, "-video_track_timescale", strconv.Itoa(FrameTickRate))
 		}

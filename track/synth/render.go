@@ -43,6 +43,7 @@ type Renderer struct {
 	// The camera's faults.
 	flickerPh float64       // the lamp's phase
 	dust      []DustSpot    // the dust on the window
+	dustPeak  float64       // photons of a bright dust spot of contrast 1
 	tex       *plateTexture // the plates' texture, nil without
 	scratch   []float64     // one colour channel or the Bayer mosaic
 	plane     []byte        // the quantized Bayer mosaic
@@ -62,6 +63,7 @@ func NewRenderer(s *Scenario) (*Renderer, error) {
 	r.times = s.frameTimes()
 	r.flickerPh = s.flickerPhase()
 	r.dust = s.DustSpots()
+	r.dustPeak = s.tracerPeakPhotons()
 	if s.Walls.TextureContrast > 0 {
 		r.tex = s.newPlateTexture(r.g)
 	}

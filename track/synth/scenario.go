@@ -773,11 +773,17 @@ func (s *Scenario) Resize(widthPx, heightPx int) {
 	s.WidthPx, s.HeightPx = widthPx, heightPx
 }
 
+// tracerPeakPhotons is the photons in the brightest pixel of a mean
+// in-focus tracer centred on a pixel.
+func (s *Scenario) tracerPeakPhotons() float64 {
+	var w [1]float64
+	frac := pixelWeights(w[:0], 0, 1, 0, s.SigmaPx())[0]
+	return s.Photons * frac * frac
+}
+
 // PeakSNR returns the signal-to-noise ratio of a mean in-focus tracer
 // centred on a pixel: the photons of its brightest pixel over the noise sd
 // of the background there, sqrt(BackgroundPhotons + ReadNoise^2).
 func (s *Scenario) PeakSNR() float64 {
-	var w [1]float64
-	frac := pixelWeights(w[:0], 0, 1, 0, s.SigmaPx())[0]
-	return s.Photons * frac * frac / math.Sqrt(s.BackgroundPhotons+s.ReadNoise*s.ReadNoise)
+	return s.tracerPeakPhotons() / math.Sqrt(s.BackgroundPhotons+s.ReadNoise*s.ReadNoise)
 }

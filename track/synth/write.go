@@ -57,6 +57,11 @@ type Output struct {
 	// Preset is libx264's speed preset for mp4-h264 ("ultrafast" ...
 	// "veryslow"); "": medium, libx264's default.
 	Preset string
+	// NoBFrames makes mp4-h264 without B-frames (-bf 0). With B-frames
+	// (libx264's default) OpenCV 4.6's FFmpeg backend reports a position
+	// (CAP_PROP_POS_MSEC) of 0 for the last frames, which the decoder
+	// gives out only when the file has ended.
+	NoBFrames bool
 	// Quality, when not 0, makes avi-mjpeg through ffmpeg at this JPEG
 	// quality scale (-q:v, 2..31, lower is better: 3 gives large files that
 	// decode fast); 0 keeps OpenCV's own MJPEG writer.
