@@ -68,6 +68,39 @@ func logAxis(vs []float64) bool {
 	return hi >= decadeSpan*lo
 }
 
+// Room around the data of a campaign figure: xMargin of the rate span on a
+// linear axis (a factor of 1 + xMargin on a logarithmic one), so that end
+// points are not cut by the frame, and legendRoom of the y span above the
+// data for the legend.
+const (
+	xMargin    = 0.06
+	legendRoom = 0.35
+)
+
+// frame sets the ranges of p around the finite points (x, y) with their
+// y errors, 0 included on the y axis (the no-slip level).
+func frame(p *plot.Plot, x, y, yErr []float64, logX bool) {
+	pts := make(plotter.XYs, len(x))
+	lo, hi := math.Inf(1), math.Inf(-1)
+	for i := range x {
+		pts[i] = plotter.XY{X: x[i], Y: y[i]}
+		if finite(x[i]) {
+			lo, hi = math.Min(lo, x[i]), math.Max(hi, x[i])
+		}
+	}
+	if !(hi >= lo) {
+		return
+	}
+	if logX {
+		p.X.Min, p.X.Max = lo/(1+xMargin), hi*(1+xMargin)
+	} else {
+		pad := xMargin * math.Max(hi-lo, math.Abs(hi))
+		p.X.Min, p.X.Max = lo-pad, hi+pad
+	}
+	yLo, yHi := rangeY([]plotter.XYs{pts}, [][]float64{yErr})
+	p.Y.Min, p.Y.Max = yLo, yHi+legendRoom*(yHi-yLo)
+}
+
 // setLog makes an axis of p logarithmic.
 func setLog(a *plot.Axis) {
 	a.Scale = plot.LogScale{}
@@ -166,7 +199,8 @@ func CampaignSlipPlot(pts []CampaignPoint, stress bool) (*Figure, error) {
 		return nil, fmt.Errorf("figure: no point has both a slip velocity and a %s", xLabel)
 	}
 	names, idx := groups(pts)
-	xs := column(pts, allIndices(len(pts)), xOf)
+	all := allIndices(len(pts))
+	xs := column(pts, all, xOf)
 	var panels [][]*plot.Plot
 	for w, wall := range walls {
 		label := ""
@@ -174,9 +208,11 @@ func CampaignSlipPlot(pts []CampaignPoint, stress bool) (*Figure, error) {
 			label = xLabel
 		}
 		p := newPlot(label, wall.label)
-		if logAxis(xs) {
+		logX := logAxis(xs)
+		if logX {
 			setLog(&p.X)
 		}
+		frame(p, xs, column(pts, all, wall.v), column(pts, all, wall.err), logX)
 		for k, g := range names {
 			x, xe := column(pts, idx[g], xOf), column(pts, idx[g], xErrOf)
 			if err := series(p, k, g, x, column(pts, idx[g], wall.v), xe, column(pts, idx[g], wall.err)); err != nil {
@@ -184,7 +220,7 @@ func CampaignSlipPlot(pts []CampaignPoint, stress bool) (*Figure, error) {
 			}
 		}
 		// The no-slip level: a slip velocity of 0.
-		if err := zeroLine(p, xs); err != nil {
+		if err := zeroLine(p); err != nil {
 			return nil, err
 		}
 		p.Legend.Top, p.Legend.Left = true, true
@@ -203,10 +239,13 @@ func CampaignSlipFractionPlot(pts []CampaignPoint) (*Figure, error) {
 		return nil, fmt.Errorf("figure: no point has both a nominal rate and a slip fraction")
 	}
 	p := newPlot("nominal shear rate (1/s)", "slip fraction")
-	xs := column(pts, allIndices(len(pts)), xOf)
-	if logAxis(xs) {
+	all := allIndices(len(pts))
+	xs := column(pts, all, xOf)
+	logX := logAxis(xs)
+	if logX {
 		setLog(&p.X)
 	}
+	frame(p, xs, column(pts, all, yOf), column(pts, all, func(p *CampaignPoint) float64 { return p.SlipFractionErr }), logX)
 	names, idx := groups(pts)
 	for k, g := range names {
 		if err := series(p, k, g, column(pts, idx[g], xOf), column(pts, idx[g], yOf), nil,
@@ -214,7 +253,7 @@ func CampaignSlipFractionPlot(pts []CampaignPoint) (*Figure, error) {
 			return nil, err
 		}
 	}
-	if err := zeroLine(p, xs); err != nil {
+	if err := zeroLine(p); err != nil {
 		return nil, err
 	}
 	p.Legend.Top, p.Legend.Left = true, true
@@ -276,18 +315,13 @@ func CampaignBulkRatePlot(pts []CampaignPoint) (*Figure, error) {
 	return renderPlot(p, SingleColumnCM, CampaignHeightCM)
 }
 
-// zeroLine draws a thin grey line at y = 0 across the finite xs.
-func zeroLine(p *plot.Plot, xs []float64) error {
-	lo, hi := math.Inf(1), math.Inf(-1)
-	for _, v := range xs {
-		if finite(v) {
-			lo, hi = math.Min(lo, v), math.Max(hi, v)
-		}
-	}
-	if !(hi >= lo) {
+// zeroLine draws a thin grey dashed line at y = 0 across the x range of p
+// (set by frame).
+func zeroLine(p *plot.Plot) error {
+	if !(p.X.Max > p.X.Min) {
 		return nil
 	}
-	return addLine(p, plotter.XYs{{X: lo, Y: 0}, {X: hi, Y: 0}}, color.Gray{Y: 120}, refLinePt, dashes[1], "")
+	return addLine(p, plotter.XYs{{X: p.X.Min, Y: 0}, {X: p.X.Max, Y: 0}}, color.Gray{Y: 120}, refLinePt, dashes[1], "")
 }
 
 func positive(vs []float64) bool {
