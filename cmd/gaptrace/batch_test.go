@@ -5,8 +5,10 @@ import (
 	"encoding/csv"
 	"fmt"
 	"os"
+	"os/exec"
 	"path/filepath"
 	"strings"
+	"syscall"
 	"testing"
 	"time"
 
@@ -205,4 +207,179 @@ func TestBatchKeep(t *testing.T) {
 	})
 	code, errs := runGaptrace("batch", manifest, "-o", filepath.Join(keep, "out"), "--jobs", "2")
 	t.Log(code, errs)
+}
+
+// runCounts reads the run log: how many times each row's run started.
+func runCounts(t testing.TB, path string) map[string]int {
+	t.Helper()
+	b, err := os.ReadFile(path)
+	if err != nil && !os.IsNotExist(err) {
+		t.Fatal(err)
+	}
+	n := map[string]int{}
+	for _, l := range strings.Fields(string(b)) {
+		n[l]++
+	}
+	return n
+}
+
+// batchCommand is a batch run as a process of its own (this test binary
+// acting as gaptrace), so that a test can kill it.
+func batchCommand(runLog string, args ...string) *exec.Cmd {
+	cmd := exec.Command(os.Args[0], append([]string{"batch"}, args...)...)
+	cmd.Env = append(os.Environ(), asCommandEnv+"=1", runLogEnv+"="+runLog)
+	return cmd
+}
+
+// waitFor polls cond every resumePoll until it holds or timeout passes.
+func waitFor(t *testing.T, timeout time.Duration, what string, cond func() bool) {
+	t.Helper()
+	// resumePoll: a run of a tiny recording takes about a second.
+	const resumePoll = 20 * time.Millisecond
+	for end := time.Now().Add(timeout); time.Now().Before(end); time.Sleep(resumePoll) {
+		if cond() {
+			return
+		}
+	}
+	t.Fatalf("timed out after %v waiting for %s", timeout, what)
+}
+
+// TestBatchResume kills a batch with SIGKILL while it analyses its second
+// row, then runs it again: the row finished before the kill is not run
+// again (same summary.json, modification time included), the interrupted
+// row's half-written folder is not taken as complete, is cleared (said on
+// stderr) and analysed again, as is a half-written folder planted for a
+// row not yet run; every row ends analysed exactly once, once in the table.
+func TestBatchResume(t *testing.T) {
+	dir := t.TempDir()
+	rows := []campaignRow{
+		{name: "a", ratePerS: 1, gapUM: 800}, {name: "b", ratePerS: 0.5, gapUM: 800},
+		{name: "c", ratePerS: 1, gapUM: 600}, {name: "d", ratePerS: 2, gapUM: 800},
+	}
+	manifest := writeCampaign(t, dir, rows)
+	out := filepath.Join(dir, "out")
+	runLog := filepath.Join(dir, "runs.log")
+	l := campaign.Layout{Root: out}
+	summaryOf := func(name string) string { return filepath.Join(l.RowDir(name), campaign.SummaryFile) }
+	exists := func(p string) bool { _, err := os.Stat(p); return err == nil }
+
+	start := time.Now()
+	batch := batchCommand(runLog, manifest, "-o", out, "--jobs", "1")
+	var errb bytes.Buffer
+	batch.Stderr = &errb
+	if err := batch.Start(); err != nil {
+		t.Fatal(err)
+	}
+	// resumeTimeout: four tiny runs take a few seconds; a loaded 2-core
+	// machine may take ten times longer.
+	const resumeTimeout = 2 * time.Minute
+	waitFor(t, resumeTimeout, "row a complete and row b started", func() bool {
+		return exists(summaryOf("a")) && exists(l.RowDir("b"))
+	})
+	if err := batch.Process.Signal(syscall.SIGKILL); err != nil {
+		t.Fatal(err)
+	}
+	batch.Wait()
+	t.Logf("killed the batch after %v:\n%s", time.Since(start).Round(10*time.Millisecond), errb.String())
+	aInfo, err := os.Stat(summaryOf("a"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	aBytes, _ := os.ReadFile(summaryOf("a"))
+	// The run of b died with the batch: give an orphan the time to finish
+	// (a run takes about a second here) and check it did not.
+	time.Sleep(3 * time.Second)
+	if exists(summaryOf("b")) {
+		t.Fatal("row b's run went on after its batch was killed and finished")
+	}
+	// A half-written folder for a row not yet run, as a crash mid-row leaves.
+	if err := os.MkdirAll(l.RowDir("d"), 0o755); err != nil {
+		t.Fatal(err)
+	}
+	os.WriteFile(filepath.Join(l.RowDir("d"), "tracks.csv"), []byte("track,frame\n1,"), 0o644)
+
+	// Before the rerun, the table lists b and d as incomplete, not ok.
+	code, errs := runGaptrace("batch", "--collect", out)
+	if code != 1 {
+		t.Errorf("--collect on the killed campaign: exit %d, want 1 (rows missing)\n%s", code, errs)
+	}
+	byName := tableByName(readTable(t, filepath.Join(out, campaign.TableFile)))
+	for _, n := range []string{"b", "d"} {
+		if st := byName[n+"#"]["status"]; !strings.HasPrefix(st, "incomplete") {
+			t.Errorf("row %s after the kill: status %q, want incomplete", n, st)
+		}
+	}
+
+	asCommand(t)
+	t.Setenv(runLogEnv, runLog)
+	rerun := time.Now()
+	code, errs = runGaptrace("batch", manifest, "-o", out, "--jobs", "1")
+	t.Logf("rerun in %v:\n%s", time.Since(rerun).Round(10*time.Millisecond), errs)
+	if code != 0 {
+		t.Fatalf("rerun: exit %d", code)
+	}
+	for _, n := range []string{"b", "d"} {
+		if !strings.Contains(errs, "batch: "+n+": clearing the incomplete folder") {
+			t.Errorf("the rerun did not say it cleared row %s's incomplete folder", n)
+		}
+	}
+	if !strings.Contains(errs, "1 complete already") {
+		t.Errorf("the rerun did not keep row a")
+	}
+	runs := runCounts(t, runLog)
+	want := map[string]int{"a": 1, "b": 2, "c": 1, "d": 1} // b: the killed run and the rerun
+	for n, w := range want {
+		if runs[n] != w {
+			t.Errorf("row %s was run %d times, want %d (runs: %v)", n, runs[n], w, runs)
+		}
+	}
+	if st, _ := os.Stat(summaryOf("a")); !st.ModTime().Equal(aInfo.ModTime()) {
+		t.Errorf("row a's summary.json was rewritten by the rerun")
+	}
+	if b, _ := os.ReadFile(summaryOf("a")); !bytes.Equal(b, aBytes) {
+		t.Errorf("row a's summary.json changed")
+	}
+	recs := readTable(t, filepath.Join(out, campaign.TableFile))
+	if len(recs) != 1+len(rows) {
+		t.Errorf("campaign.csv has %d records, want %d (one shear phase per row)", len(recs)-1, len(rows))
+	}
+	for n, r := range tableByName(recs) {
+		if r["status"] != "ok" {
+			t.Errorf("%s: status %q after the rerun", n, r["status"])
+		}
+	}
+	if ents, _ := filepath.Glob(filepath.Join(out, "*", ".*partial*")); len(ents) > 0 {
+		t.Errorf("temporary files left: %v", ents)
+	}
+}
+
+// TestBatchRowLocked holds a row's lock as another batch would: the batch
+// must leave the row alone, say why, and run nothing.
+func TestBatchRowLocked(t *testing.T) {
+	asCommand(t)
+	dir := t.TempDir()
+	manifest := writeCampaign(t, dir, []campaignRow{{name: "held", ratePerS: 1, gapUM: 800}})
+	out := filepath.Join(dir, "out")
+	runLog := filepath.Join(dir, "runs.log")
+	t.Setenv(runLogEnv, runLog)
+	l := campaign.Layout{Root: out}
+	if err := l.Prepare(); err != nil {
+		t.Fatal(err)
+	}
+	lock, err := l.Lock("held")
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer lock.Close()
+	code, errs := runGaptrace("batch", manifest, "-o", out)
+	if !strings.Contains(errs, "held: skipped: being analysed by another process") {
+		t.Errorf("stderr does not say the row is held:\n%s", errs)
+	}
+	if n := runCounts(t, runLog)["held"]; n != 0 {
+		t.Errorf("the held row was run %d times", n)
+	}
+	if _, err := os.Stat(l.RowDir("held")); err == nil {
+		t.Error("the batch made the held row's folder")
+	}
+	t.Logf("exit %d", code)
 }
