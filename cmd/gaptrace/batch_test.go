@@ -383,3 +383,149 @@ func TestBatchRowLocked(t *testing.T) {
 	}
 	t.Logf("exit %d", code)
 }
+
+// TestBatchBadManifest checks that every wrong manifest and wrong use is
+// refused before anything runs: exit 2, one line on stderr naming the
+// problem, and no row folder made.
+func TestBatchBadManifest(t *testing.T) {
+	dir := t.TempDir()
+	exp, video := tinyRecording(t, filepath.Join(dir, "data"), 1, 1, 800)
+	rel := func(p string) string { s, _ := filepath.Rel(dir, p); return s }
+	good := rel(video) + "," + rel(exp)
+	cases := []struct {
+		name, manifest string
+		args           []string
+		want           string
+	}{
+		{"empty file", "", nil, "empty"},
+		{"no rows", "name,input,experiment\n", nil, "no rows"},
+		{"no name column", "input,experiment\n" + good + "\n", nil, `"name"`},
+		{"no experiment column", "name,input\nr1," + rel(video) + "\n", nil, `"experiment"`},
+		{"column twice", "name,input,experiment,gap_um,gap_um\nr1," + good + ",800,800\n", nil, `"gap_um" appears twice`},
+		{"free column named like a result", "name,input,experiment,verdict\nr1," + good + ",x\n", nil, `"verdict"`},
+		{"short row", "name,input,experiment,gap_um\nr1," + good + "\n", nil, "line 2"},
+		{"duplicate name", "name,input,experiment\nr1," + good + "\nr1," + good + "\n", nil, "line 3: name \"r1\" is already the name of line 2"},
+		{"parent folder name", "name,input,experiment\n..," + good + "\n", nil, `".."`},
+		{"slash in name", "name,input,experiment\na/b," + good + "\n", nil, `"a/b"`},
+		{"hidden name", "name,input,experiment\n.r1," + good + "\n", nil, `".r1"`},
+		{"reserved name", "name,input,experiment\nslurm," + good + "\n", nil, `"slurm"`},
+		{"no name", "name,input,experiment\n," + good + "\n", nil, "line 2: no name"},
+		{"no input", "name,input,experiment\nr1,," + rel(exp) + "\n", nil, "no input"},
+		{"missing input", "name,input,experiment\nr1,nope.avi," + rel(exp) + "\n", nil, "nope.avi"},
+		{"missing experiment", "name,input,experiment\nr1," + rel(video) + ",nope.yaml\n", nil, "nope.yaml"},
+		{"wrong experiment", "name,input,experiment\nr1," + rel(video) + ",bad.yaml\n", nil, "camera.shutter"},
+		{"missing log", "name,input,experiment,log\nr1," + good + ",nope.csv\n", nil, "nope.csv"},
+		{"log column without log", "name,input,experiment,log_kind\nr1," + good + ",rate\n", nil, `"log_kind" without`},
+		{"log offset not a number", "name,input,experiment,log,log_offset_s\nr1," + good + "," + rel(exp) + ",soon\n", nil, "soon"},
+		{"unbalanced quote", "name,input,experiment\n\"r1," + good + "\n", nil, "line"},
+		{"bad shard", "name,input,experiment\nr1," + good + "\n", []string{"--shard", "2/2"}, "2/2"},
+		{"shard not a fraction", "name,input,experiment\nr1," + good + "\n", []string{"--shard", "1"}, `"1"`},
+		{"no jobs", "name,input,experiment\nr1," + good + "\n", []string{"--jobs", "0"}, "--jobs"},
+		{"submit without slurm", "name,input,experiment\nr1," + good + "\n", []string{"--submit"}, "--slurm"},
+		{"slurm and shard", "name,input,experiment\nr1," + good + "\n", []string{"--slurm", "--shard", "0/2"}, "--shard"},
+		{"slurm option not an option", "name,input,experiment\nr1," + good + "\n", []string{"--slurm", "--slurm-opt", "partition=short"}, "partition=short"},
+		{"slurm option of our own", "name,input,experiment\nr1," + good + "\n", []string{"--slurm", "--slurm-opt", "--array=0-9"}, "--array"},
+		{"more shards than rows", "name,input,experiment\nr1," + good + "\n", []string{"--slurm", "--shards", "4"}, "--shards 4"},
+	}
+	os.WriteFile(filepath.Join(dir, "bad.yaml"), []byte("geometry: {kind: plates, gap_um: 800}\ncamera: {fps: 100, shutter: 2}\n"), 0o644)
+	for i, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			path := filepath.Join(dir, fmt.Sprintf("manifest%d.csv", i))
+			if err := os.WriteFile(path, []byte(c.manifest), 0o644); err != nil {
+				t.Fatal(err)
+			}
+			out := filepath.Join(dir, fmt.Sprintf("out%d", i))
+			code, errs := runGaptrace(append([]string{"batch", path, "-o", out}, c.args...)...)
+			checkBadInput(t, code, errs, c.want)
+			if _, err := os.Stat(filepath.Join(out, "r1")); err == nil {
+				t.Error("a row folder was made")
+			}
+		})
+	}
+	t.Run("no manifest", func(t *testing.T) {
+		code, errs := runGaptrace("batch", "-o", filepath.Join(dir, "o"))
+		checkBadInput(t, code, errs, "MANIFEST")
+	})
+	t.Run("no outroot", func(t *testing.T) {
+		code, errs := runGaptrace("batch", filepath.Join(dir, "manifest0.csv"))
+		checkBadInput(t, code, errs, "-o OUTROOT")
+	})
+	t.Run("collect without a campaign", func(t *testing.T) {
+		code, errs := runGaptrace("batch", "--collect", filepath.Join(dir, "nothing"))
+		checkBadInput(t, code, errs, "manifest.csv")
+	})
+}
+
+// TestBatchShardsAndCollect runs a campaign of five rows as three shards,
+// one after the other, then --collect: every row must have been run by
+// exactly one shard, no shard writes the table, --collect lists them all,
+// and a second --collect rebuilds byte-identical campaign.csv and
+// campaign.html. The manifest's copy under OUTROOT serves --collect OUTROOT.
+func TestBatchShardsAndCollect(t *testing.T) {
+	asCommand(t)
+	dir := t.TempDir()
+	rows := []campaignRow{
+		{name: "s0", ratePerS: 0.5, gapUM: 800}, {name: "s1", ratePerS: 1, gapUM: 800},
+		{name: "s2", ratePerS: 2, gapUM: 800}, {name: "s3", ratePerS: 1, gapUM: 600},
+		{name: "s4", ratePerS: 2, gapUM: 600},
+	}
+	manifest := writeCampaign(t, dir, rows)
+	out := filepath.Join(dir, "out")
+	runLog := filepath.Join(dir, "runs.log")
+	t.Setenv(runLogEnv, runLog)
+	start := time.Now()
+	for k := 0; k < 3; k++ {
+		before := runCounts(t, runLog)
+		code, errs := runGaptrace("batch", manifest, "-o", out, "--shard", fmt.Sprintf("%d/3", k))
+		if code != 0 {
+			t.Fatalf("shard %d/3: exit %d\n%s", k, code, errs)
+		}
+		after := runCounts(t, runLog)
+		for i, r := range rows {
+			ran := after[r.name] - before[r.name]
+			if want := map[bool]int{true: 1, false: 0}[i%3 == k]; ran != want {
+				t.Errorf("shard %d/3 ran row %d (%s) %d times, want %d", k, i, r.name, ran, want)
+			}
+		}
+	}
+	t.Logf("three shards of five rows: %v", time.Since(start).Round(10*time.Millisecond))
+	if _, err := os.Stat(filepath.Join(out, campaign.TableFile)); err == nil {
+		t.Error("a shard wrote campaign.csv")
+	}
+	for _, r := range rows {
+		if n := runCounts(t, runLog)[r.name]; n != 1 {
+			t.Errorf("row %s run %d times over the shards", r.name, n)
+		}
+	}
+	if code, errs := runGaptrace("batch", "--collect", out); code != 0 {
+		t.Fatalf("--collect: exit %d\n%s", code, errs)
+	}
+	files := []string{campaign.TableFile, campaign.PageFile}
+	first := map[string][]byte{}
+	for _, f := range files {
+		first[f], _ = os.ReadFile(filepath.Join(out, f))
+		os.Remove(filepath.Join(out, f))
+	}
+	recs := readTable(t, filepath.Join(dir, "out", "manifest.csv")) // the copy: absolute paths
+	if len(recs) != 1+len(rows) || !filepath.IsAbs(recs[1][1]) {
+		t.Errorf("manifest copy: %d rows, input %q", len(recs)-1, recs[1][1])
+	}
+	if code, errs := runGaptrace("batch", manifest, "-o", out, "--collect"); code != 0 {
+		t.Fatalf("second --collect: exit %d\n%s", code, errs)
+	}
+	for _, f := range files {
+		b, _ := os.ReadFile(filepath.Join(out, f))
+		if len(b) == 0 || !bytes.Equal(b, first[f]) {
+			t.Errorf("%s rebuilt by a second --collect differs from the first (%d and %d bytes)", f, len(b), len(first[f]))
+		}
+	}
+	byName := tableByName(readTable(t, filepath.Join(out, campaign.TableFile)))
+	for _, r := range rows {
+		if byName[r.name+"#1"]["status"] != "ok" {
+			t.Errorf("%s not ok in the collected table", r.name)
+		}
+	}
+	if n := runCounts(t, runLog); len(n) != len(rows) {
+		t.Errorf("--collect ran rows: %v", n)
+	}
+}

@@ -139,7 +139,7 @@ func (t *Table) Figures() []shownFigure {
 
 // pageData fills the page template.
 type pageData struct {
-	Title, Tool, Manifest             string
+	Title, Tool                       string
 	Rows, OK, Failed, Incomplete, Not int
 	Figures                           []shownFigure
 	Drawn                             int
@@ -147,12 +147,11 @@ type pageData struct {
 	Columns                           []string
 	Records                           [][]string
 	Reports                           map[string]string // name -> relative link to its report
-	NameCol                           int
 }
 
 func (t *Table) renderPage(w *bytes.Buffer, m *Manifest, l Layout, figs []shownFigure) error {
 	d := pageData{Title: filepath.Base(filepath.Clean(l.Root)), Tool: "gaptrace " + summary.Version,
-		Manifest: m.Path, Rows: len(m.Rows), Figures: figs, Columns: t.Columns, Records: t.Records,
+		Rows: len(m.Rows), Figures: figs, Columns: t.Columns, Records: t.Records,
 		Reports: map[string]string{}}
 	d.OK, d.Failed, d.Incomplete, d.Not = t.Counts()
 	for _, f := range figs {
@@ -184,7 +183,7 @@ func formatCell(s string) string {
 }
 
 var pageTemplate = template.Must(template.New("campaign").Funcs(template.FuncMap{
-	"cell": formatCell,
+	"cell":   formatCell,
 	"report": func(links map[string]string, name string) string { return links[name] },
 }).Parse(`<!DOCTYPE html>
 <html lang="en">
@@ -217,7 +216,7 @@ footer { color: #5b6472; font-size: .82rem; margin: 28px 0; }
 <body>
 <header><div class="page">
 <h1>Campaign {{.Title}}</h1>
-<p>{{.Rows}} recordings in {{.Manifest}} · {{.OK}} analysed · {{.Failed}} failed · {{.Incomplete}} incomplete · {{.Not}} not run · {{.Tool}}</p>
+<p>{{.Rows}} recordings (manifest.csv beside this page) · {{.OK}} analysed · {{.Failed}} failed · {{.Incomplete}} incomplete · {{.Not}} not run · {{.Tool}}</p>
 </div></header>
 <main class="page">
 <h2>Figures</h2>
