@@ -1,80 +1,45 @@
 package report_test
 
 import (
-	"bytes"
-	"context"
 	"image/png"
 	"os"
-	"os/exec"
 	"path/filepath"
-	"regexp"
-	"strconv"
 	"testing"
-	"time"
 
+	"gaptrace/profile/internal/headless"
 	"gaptrace/profile/report"
 	"gaptrace/profile/report/figure"
 )
-
-// chromiumPath is Debian's chromium package.
-const chromiumPath = "/usr/bin/chromium"
-
-// chromiumTimeout bounds one headless run; a cold start on a busy 2-core
-// machine takes a few seconds.
-const chromiumTimeout = 90 * time.Second
-
-// chromium runs headless Chromium on page with extra arguments, offline.
-func chromium(t *testing.T, page string, args ...string) []byte {
-	t.Helper()
-	ctx, cancel := context.WithTimeout(context.Background(), chromiumTimeout)
-	defer cancel()
-	base := []string{"--headless", "--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run",
-		"--disable-background-networking", "--disable-component-update", "--disable-sync",
-		"--disable-dev-shm-usage", "--user-data-dir=" + t.TempDir()}
-	cmd := exec.CommandContext(ctx, chromiumPath, append(append(base, args...), "file://"+page)...)
-	var out, errb bytes.Buffer
-	cmd.Stdout, cmd.Stderr = &out, &errb
-	if err := cmd.Run(); err != nil {
-		t.Fatalf("chromium %v: %v\n%s", args, err, errb.String())
-	}
-	return out.Bytes()
-}
 
 func near(v uint32, want uint8, slack int) bool {
 	d := int(v) - int(want)
 	return d >= -slack && d <= slack
 }
 
-var loaded = regexp.MustCompile(`data-figures-loaded="(\d+)/(\d+)"`)
-
 // TestChromiumRendersReport opens report.html in headless Chromium, checks
 // that every figure decoded (the page's own script counts the images with a
 // natural width) and screenshots the page. REPORT_SCREENSHOT=path keeps the
 // screenshot for a look.
 func TestChromiumRendersReport(t *testing.T) {
-	if _, err := os.Stat(chromiumPath); err != nil {
-		t.Skipf("Chromium not installed at %s (Debian package chromium; cmd/scripts/deps.sh --test installs it): %v", chromiumPath, err)
-	}
+	headless.SkipWithout(t)
 	dir, _ := writeReport(t, fullData(t))
 	page, err := filepath.Abs(filepath.Join(dir, report.FileName))
 	if err != nil {
 		t.Fatal(err)
 	}
-	dom := chromium(t, page, "--virtual-time-budget=10000", "--dump-dom")
-	m := loaded.FindSubmatch(dom)
-	if m == nil {
-		t.Fatalf("the page's load script did not run: no data-figures-loaded in the DOM (%d bytes)", len(dom))
+	ok, all, ran := headless.FiguresLoaded(t, page)
+	if !ran {
+		t.Fatal("the page's load script did not run: no data-figures-loaded in the DOM")
 	}
-	ok, all := string(m[1]), string(m[2])
-	if ok != all || all != strconv.Itoa(len(figureStems)) {
-		t.Errorf("Chromium loaded %s of %s figures, want all %d", ok, all, len(figureStems))
+	if ok != all || all != len(figureStems) {
+		t.Errorf("Chromium loaded %d of %d figures, want all %d", ok, all, len(figureStems))
 	}
 
 	shot := filepath.Join(t.TempDir(), "report.png")
 	if keep := os.Getenv("REPORT_SCREENSHOT"); keep != "" {
 		shot = keep
 	}
-	chromium(t, page, "--hide-scrollbars", "--window-size=1200,4000", "--screenshot="+shot)
+	headless.Chromium(t, page, "--hide-scrollbars", "--window-size=1200,4000", "--screenshot="+shot)
 	f, err := os.Open(shot)
 	if err != nil {
 		t.Fatalf("no screenshot: %v", err)
