@@ -188,8 +188,14 @@ func TestBatchFailingRow(t *testing.T) {
 	if _, err := os.Stat(filepath.Join(out, "broken", "summary.json")); err == nil {
 		t.Error("the failed row has a summary.json")
 	}
-	if _, err := os.Stat(filepath.Join(out, campaign.PageFile)); err != nil {
-		t.Errorf("no campaign page: %v", err)
+	page, err := os.ReadFile(filepath.Join(out, campaign.PageFile))
+	if err != nil {
+		t.Fatalf("no campaign page: %v", err)
+	}
+	for _, want := range []string{`href="r1/report.html"`, "<b>broken</b>: failed: "} {
+		if !strings.Contains(string(page), want) {
+			t.Errorf("the campaign page lacks %s", want)
+		}
 	}
 }
 

@@ -293,13 +293,17 @@ func CampaignBulkRatePlot(pts []CampaignPoint) (*Figure, error) {
 			}
 		}
 	}
-	var line plotter.XYs
+	// The axes frame the data with room above for the legend; the no-slip
+	// line runs across the whole x range.
 	if logLog {
-		line = plotter.XYs{{X: lo / 1.2, Y: lo / 1.2}, {X: hi * 1.2, Y: hi * 1.2}}
+		p.X.Min, p.X.Max = lo/(1+xMargin), hi*(1+xMargin)
+		p.Y.Min, p.Y.Max = p.X.Min, p.X.Max*math.Pow(p.X.Max/p.X.Min, legendRoom)
 	} else {
 		lo = math.Min(lo, 0)
-		line = plotter.XYs{{X: lo, Y: lo}, {X: hi * 1.05, Y: hi * 1.05}}
+		p.X.Min, p.X.Max = lo, hi+xMargin*(hi-lo)
+		p.Y.Min, p.Y.Max = lo, hi+legendRoom*(hi-lo)
 	}
+	line := plotter.XYs{{X: p.X.Min, Y: p.X.Min}, {X: p.X.Max, Y: p.X.Max}}
 	if err := addLine(p, line, Black, refLinePt, dashes[2], "no slip"); err != nil {
 		return nil, err
 	}

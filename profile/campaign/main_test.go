@@ -1,0 +1,9 @@
+package campaign
+
+import (
+	"testing"
+
+	"gaptrace/track/matleak"
+)
+
+func TestMain(m *testing.M) { matleak.Main(m) }
