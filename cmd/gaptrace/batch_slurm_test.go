@@ -65,6 +65,10 @@ func shortHostname(t *testing.T) string {
 // when a daemon is missing or will not start.
 func startSlurm(t *testing.T) *slurmCluster {
 	t.Helper()
+	// The daemons live in /usr/sbin, which the PATH may lack.
+	if !strings.Contains(":"+os.Getenv("PATH")+":", ":/usr/sbin:") {
+		t.Setenv("PATH", os.Getenv("PATH")+":/usr/sbin")
+	}
 	for _, b := range []string{"munged", "slurmctld", "slurmd", "sbatch", "sinfo", "scontrol", "scancel"} {
 		if _, err := exec.LookPath(b); err != nil {
 			t.Fatalf("%s not found (Debian packages munge and slurm-wlm; scripts/deps.sh --test installs them): %v", b, err)

@@ -1,7 +1,8 @@
 #!/usr/bin/env bash
 # Installs what gaptrace needs to build and test, when it is missing:
 # OpenCV 4 development files (for gocv), and, with --test, ffmpeg (for the
-# throughput benchmark) and Chromium (to render the report in a test).
+# throughput benchmark), Chromium (to render the report in a test), and
+# Slurm with munge (the batch test starts a one-node cluster of its own).
 set -euo pipefail
 want_test=0
 [ "${1:-}" = "--test" ] && want_test=1
@@ -14,6 +15,11 @@ pkg-config --exists opencv4 2>/dev/null || apt_pkgs+=(libopencv-dev)
 if [ "$want_test" = 1 ]; then
   command -v ffmpeg >/dev/null || apt_pkgs+=(ffmpeg)
   command -v chromium >/dev/null || apt_pkgs+=(chromium)
+  # The daemons live in /usr/sbin, which a user's PATH may lack.
+  have() { command -v "$1" >/dev/null || [ -x "/usr/sbin/$1" ]; }
+  # slurm-wlm brings slurmctld, slurmd and the client commands (sbatch).
+  have slurmctld && have slurmd && have sbatch || apt_pkgs+=(slurm-wlm)
+  have munged || apt_pkgs+=(munge)
 fi
 [ ${#apt_pkgs[@]} -eq 0 ] && exit 0
 
