@@ -199,22 +199,6 @@ func TestBatchFailingRow(t *testing.T) {
 	}
 }
 
-// TestBatchKeep is a developer's look at a campaign's files: KEEP_CAMPAIGN=dir.
-func TestBatchKeep(t *testing.T) {
-	keep := os.Getenv("KEEP_CAMPAIGN")
-	if keep == "" {
-		t.Skip("KEEP_CAMPAIGN not set")
-	}
-	asCommand(t)
-	manifest := writeCampaign(t, keep, []campaignRow{
-		{name: "r0.5", ratePerS: 0.5, gapUM: 800}, {name: "r1", ratePerS: 1, gapUM: 800},
-		{name: "r2", ratePerS: 2, gapUM: 800}, {name: "r1-g600", ratePerS: 1, gapUM: 600},
-		{name: "r2-g600", ratePerS: 2, gapUM: 600}, {name: "r0.5-g600", ratePerS: 0.5, gapUM: 600},
-	})
-	code, errs := runGaptrace("batch", manifest, "-o", filepath.Join(keep, "out"), "--jobs", "2")
-	t.Log(code, errs)
-}
-
 // runCounts reads the run log: how many times each row's run started.
 func runCounts(t testing.TB, path string) map[string]int {
 	t.Helper()
