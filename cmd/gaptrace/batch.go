@@ -40,19 +40,19 @@ func (s *stringList) Set(v string) error { *s = append(*s, v); return nil }
 
 // batchOptions are the flags of batch.
 type batchOptions struct {
-	outRoot, shard                  string
-	jobs, shards                    int
-	force, collect, progress        bool
-	slurm, submit                   bool
-	slurmName                       string
-	slurmOpts                       stringList
-	shardK, shardN                  int
-	manifestPath                    string
-	executable                      string
-	stderr                          io.Writer
-	progressLine                    *batchProgress
-	mu                              sync.Mutex
-	done, failed, skipped int
+	outRoot, shard           string
+	jobs, shards             int
+	force, collect, progress bool
+	slurm, submit            bool
+	slurmName                string
+	slurmOpts                stringList
+	shardK, shardN           int
+	manifestPath             string
+	executable               string
+	stderr                   io.Writer
+	progressLine             *batchProgress
+	mu                       sync.Mutex
+	done, failed, skipped    int
 }
 
 func runBatch(args []string, stderr io.Writer) error {
