@@ -8,7 +8,6 @@ import (
 	"io"
 	"os"
 	"os/exec"
-	"os/signal"
 	"path/filepath"
 	"runtime"
 	"strings"
@@ -16,8 +15,8 @@ import (
 	"syscall"
 	"time"
 
+	"gaptrace/calib/atomicfile"
 	"gaptrace/profile/campaign"
-	"gaptrace/profile/summary"
 )
 
 func init() {
@@ -55,7 +54,7 @@ type batchOptions struct {
 	done, failed, skipped    int
 }
 
-func runBatch(args []string, stderr io.Writer) error {
+func runBatch(ctx context.Context, args []string, stderr io.Writer) error {
 	fs := newFlags("batch", "MANIFEST.csv", stderr)
 	o := &batchOptions{stderr: stderr}
 	fs.StringVar(&o.outRoot, "o", "", "campaign folder OUTROOT: one folder per manifest row, campaign.csv, campaign.html")
@@ -118,7 +117,7 @@ func runBatch(args []string, stderr io.Writer) error {
 	if o.slurm {
 		return o.runSlurm(m, l)
 	}
-	return o.runRows(m, l)
+	return o.runRows(ctx, m, l)
 }
 
 // executable is the absolute path of this program, which runs each row.
@@ -139,7 +138,7 @@ func writeManifestCopy(m *campaign.Manifest, l campaign.Layout) error {
 	if err := m.WriteResolved(&b); err != nil {
 		return err
 	}
-	return summary.WriteFileAtomic(filepath.Join(l.Root, campaign.ManifestCopy), b.Bytes())
+	return atomicfile.WriteBytes(filepath.Join(l.Root, campaign.ManifestCopy), b.Bytes())
 }
 
 // runCollect rebuilds the table and page: "batch --collect OUTROOT", or
@@ -189,8 +188,10 @@ func (o *batchOptions) writeTable(m *campaign.Manifest, l campaign.Layout, stric
 }
 
 // runRows analyses the rows of the shard, --jobs at a time, then writes
-// the table (not for a shard: the shards' collect does).
-func (o *batchOptions) runRows(m *campaign.Manifest, l campaign.Layout) error {
+// the table (not for a shard: the shards' collect does). When ctx is
+// cancelled (SIGINT, SIGTERM: a Slurm job's end) the rows running are
+// stopped and left incomplete, for the next batch to clear and rerun.
+func (o *batchOptions) runRows(ctx context.Context, m *campaign.Manifest, l campaign.Layout) error {
 	var todo []*campaign.Row
 	complete := 0
 	for i := range m.Rows {
@@ -210,8 +211,6 @@ func (o *batchOptions) runRows(m *campaign.Manifest, l campaign.Layout) error {
 	}
 	fmt.Fprintf(o.stderr, "batch: %d rows to analyse%s, %d complete already (kept; --force analyses them again), %d at once\n",
 		len(todo), where, complete, min(o.jobs, max(len(todo), 1)))
-	ctx, stop := signal.NotifyContext(context.Background(), os.Interrupt, syscall.SIGTERM)
-	defer stop()
 	o.progressLine = newBatchProgress(o.stderr, o.progress, len(todo), o.jobs)
 	queue := make(chan *campaign.Row)
 	var wg sync.WaitGroup
@@ -234,7 +233,6 @@ func (o *batchOptions) runRows(m *campaign.Manifest, l campaign.Layout) error {
 	wg.Wait()
 	o.progressLine.end()
 	interrupted := ctx.Err() != nil
-	stop()
 	if o.shard == "" && !interrupted {
 		if err := o.writeTable(m, l, false); err != nil {
 			return err
@@ -242,7 +240,8 @@ func (o *batchOptions) runRows(m *campaign.Manifest, l campaign.Layout) error {
 	}
 	switch {
 	case interrupted:
-		return fmt.Errorf("interrupted: %d of %d rows done; run the same command again to resume", o.done, len(todo))
+		fmt.Fprintf(o.stderr, "batch: stopped with %d of %d rows done; run the same command again to resume\n", o.done, len(todo))
+		return ctx.Err()
 	case o.failed > 0:
 		return fmt.Errorf("%d of %d rows failed (their reasons are in %s and %s)", o.failed, len(todo),
 			campaign.TableFile, filepath.Join(l.Root, campaign.LogDir))
@@ -384,7 +383,7 @@ func (o *batchOptions) runSlurm(m *campaign.Manifest, l campaign.Layout) error {
 		{arrayPath, j.ArrayScript()}, {collectPath, j.CollectScript()},
 		{filepath.Join(dir, "submit.sh"), "#!/bin/bash\n# Submits the campaign's array, then its collect job after it.\nset -eu\n" + j.SubmitCommands()},
 	} {
-		if err := summary.WriteFileAtomic(f.path, []byte(f.body)); err != nil {
+		if err := atomicfile.WriteBytes(f.path, []byte(f.body)); err != nil {
 			return err
 		}
 	}

@@ -71,7 +71,7 @@ func startSlurm(t *testing.T) *slurmCluster {
 	}
 	for _, b := range []string{"munged", "slurmctld", "slurmd", "sbatch", "sinfo", "scontrol", "scancel"} {
 		if _, err := exec.LookPath(b); err != nil {
-			t.Fatalf("%s not found (Debian packages munge and slurm-wlm; scripts/deps.sh --test installs them): %v", b, err)
+			t.Fatalf("%s not found (Debian packages munge and slurm-wlm; cmd/scripts/deps.sh --test installs them): %v", b, err)
 		}
 	}
 	dir := t.TempDir()

@@ -9,7 +9,7 @@ import (
 	"path/filepath"
 	"strings"
 
-	"gaptrace/profile/summary"
+	"gaptrace/calib/atomicfile"
 )
 
 // Names under OUTROOT.
@@ -122,7 +122,7 @@ func (l Layout) Clear(name string) (bool, error) {
 // RecordFailure writes the reason of a failed run, one line.
 func (l Layout) RecordFailure(name, reason string) error {
 	reason = strings.Join(strings.Fields(reason), " ")
-	return summary.WriteFileAtomic(l.FailurePath(name), []byte(reason+"\n"))
+	return atomicfile.WriteBytes(l.FailurePath(name), []byte(reason+"\n"))
 }
 
 // FailureReason is the reason of a failed run from its log: the last line

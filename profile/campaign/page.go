@@ -9,6 +9,7 @@ import (
 	"path/filepath"
 	"strconv"
 
+	"gaptrace/calib/atomicfile"
 	"gaptrace/profile/report/figure"
 	"gaptrace/profile/summary"
 )
@@ -30,7 +31,7 @@ func Write(m *Manifest, l Layout) (*Table, error) {
 	if err := t.WriteCSV(&csvBuf); err != nil {
 		return t, err
 	}
-	if err := summary.WriteFileAtomic(filepath.Join(l.Root, TableFile), csvBuf.Bytes()); err != nil {
+	if err := atomicfile.WriteBytes(filepath.Join(l.Root, TableFile), csvBuf.Bytes()); err != nil {
 		return t, err
 	}
 	figs := t.Figures()
@@ -42,7 +43,7 @@ func Write(m *Manifest, l Layout) (*Table, error) {
 			continue
 		}
 		for ext, b := range map[string][]byte{".png": f.fig.PNG, ".svg": f.fig.SVG} {
-			if err := summary.WriteFileAtomic(filepath.Join(l.Root, FigureDir, f.Stem+ext), b); err != nil {
+			if err := atomicfile.WriteBytes(filepath.Join(l.Root, FigureDir, f.Stem+ext), b); err != nil {
 				return t, err
 			}
 		}
@@ -51,7 +52,7 @@ func Write(m *Manifest, l Layout) (*Table, error) {
 	if err := t.renderPage(&page, m, l, figs); err != nil {
 		return t, err
 	}
-	return t, summary.WriteFileAtomic(filepath.Join(l.Root, PageFile), page.Bytes())
+	return t, atomicfile.WriteBytes(filepath.Join(l.Root, PageFile), page.Bytes())
 }
 
 // Points are the figures' data: the records of analysed rows, grouped by
