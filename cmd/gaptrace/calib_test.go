@@ -11,6 +11,7 @@ import (
 	"gocv.io/x/gocv"
 
 	"gaptrace/calib"
+	"gaptrace/profile/report/figure"
 	"gaptrace/track/synth"
 )
 
@@ -73,9 +74,10 @@ func TestCalibCommand(t *testing.T) {
 	}
 	png := gocv.IMRead(filepath.Join(out, "calibration.png"), gocv.IMReadColor)
 	defer png.Close()
-	// The overlay is the frame enlarged by a whole factor, so lines and text stay sharp.
-	if png.Empty() || png.Cols()%want.WidthPx != 0 || png.Rows()*want.WidthPx != png.Cols()*want.HeightPx {
-		t.Errorf("calibration.png: %dx%d", png.Cols(), png.Rows())
+	// The overlay is the report's frame figure: across both columns of a
+	// journal page at the figures' resolution.
+	if wantPx := figure.DoubleColumnCM / 2.54 * figure.DPI; png.Empty() || math.Abs(float64(png.Cols())-wantPx) > 1 {
+		t.Errorf("calibration.png: %dx%d, want %.0f px wide", png.Cols(), png.Rows(), wantPx)
 	}
 	// Replacing only its own files: a foreign file stays.
 	keep := filepath.Join(out, "notes.txt")

@@ -161,8 +161,8 @@ func (r *Recording) WallMotion(ctx context.Context, program experiment.Program) 
 }
 
 // CalibrationPNG returns calibration.png: the median image with the walls,
-// the gap axes and a scale bar drawn on it (figure.DrawOverlay, as in the
-// report's frame figure), PNG-encoded.
+// the gap axes and a scale bar drawn over it (figure.OverlayPlot, the
+// report's frame figure), PNG-encoded with its resolution.
 func (r *Recording) CalibrationPNG() ([]byte, error) {
 	grey := gocv.NewMat()
 	defer grey.Close()
@@ -172,15 +172,9 @@ func (r *Recording) CalibrationPNG() ([]byte, error) {
 		gocv.Normalize(r.Median, &grey, 0, 255, gocv.NormMinMax)
 		grey.ConvertTo(&grey, gocv.MatTypeCV8U)
 	}
-	img, err := figure.DrawOverlay(&figure.Overlay{Frame: grey, Calibration: r.Calibration})
+	fig, err := figure.OverlayPlot(&figure.Overlay{Frame: grey, Calibration: r.Calibration})
 	if err != nil {
 		return nil, fmt.Errorf("calibration.png: %w", err)
 	}
-	defer img.Close()
-	buf, err := gocv.IMEncode(gocv.PNGFileExt, img)
-	if err != nil {
-		return nil, fmt.Errorf("calibration.png: %w", err)
-	}
-	defer buf.Close()
-	return append([]byte(nil), buf.GetBytes()...), nil
+	return fig.PNG, nil
 }

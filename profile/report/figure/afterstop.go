@@ -4,9 +4,9 @@ import (
 	"fmt"
 	"image/color"
 	"math"
+	"strconv"
 
 	"gonum.org/v1/plot/plotter"
-	"gonum.org/v1/plot/vg"
 )
 
 // DisplacementPoint is the mean displacement along the flow since
@@ -38,6 +38,8 @@ type AfterStop struct {
 	Profiles     []DisplacementProfile
 	NoiseFloorUM float64 // displacement indistinguishable from noise, um (NaN: unknown)
 	PlaneUM      float64 // height of a failure plane, um (NaN: none)
+	// Axis is how the position across the gap is drawn.
+	Axis GapAxis
 }
 
 // maxAfterStopProfiles bounds the number of times drawn: with more, markers
@@ -57,14 +59,35 @@ func (a *AfterStop) Check() error {
 	return nil
 }
 
-// AfterStopPlot draws the displacement since cessation against height at
-// each time, the fitted recovery and jump, the noise floor as a grey strip
-// and the failure plane, single column wide.
+// AfterStopPlot draws the displacement since cessation against the
+// position across the gap at each time, the fitted recovery and jump, the
+// noise floor as a grey strip and the failure plane, single column wide.
 func AfterStopPlot(a *AfterStop) (*Figure, error) {
 	if err := a.Check(); err != nil {
 		return nil, err
 	}
-	p := newPlot("height y (µm)", "displacement since stop Δx (µm)")
+	s := House
+	h := a.GapUM
+	x := func(yUM float64) float64 { return a.Axis.Coord(yUM, h) }
+	pn := &Panel{Plot: NewPlot(a.Axis.Label(), "displacement since the stop Δx (µm)"), WallsX: true}
+	p := pn.Plot
+	cols := []string{"series", "t_after_stop_s", "y_um"}
+	if a.Axis.Column() != "" {
+		cols = append(cols, a.Axis.Column())
+	}
+	tab := NewTable(append(cols, "dx_um", "dx_err_um", "n")...)
+	row := func(series string, t, yUM, dx, err float64, n int) {
+		cells := []any{series, t, yUM}
+		if a.Axis.Column() != "" {
+			cells = append(cells, x(yUM))
+		}
+		nv := math.NaN()
+		if n > 0 {
+			nv = float64(n)
+		}
+		tab.Row(append(cells, dx, err, nv)...)
+	}
+
 	lo, hi := 0.0, 0.0
 	for _, pr := range a.Profiles {
 		for _, q := range pr.Points {
@@ -85,57 +108,59 @@ func AfterStopPlot(a *AfterStop) (*Figure, error) {
 	if finite(a.NoiseFloorUM) {
 		lo, hi = math.Min(lo, -a.NoiseFloorUM), math.Max(hi, a.NoiseFloorUM)
 	}
-	if hi == lo {
-		hi = lo + 1
-	}
-	const headroom = 0.45 // of the data range, for the legend
-	yMin, yMax := lo-floorMargin*(hi-lo), hi+headroom*(hi-lo)
+	yMin, yMax := withMargin(lo, hi)
 	p.Y.Min, p.Y.Max = yMin, yMax
-	p.X.Min, p.X.Max = -wallMargin*a.GapUM, (1+wallMargin)*a.GapUM
+	p.X.Min, p.X.Max = 0, h
 
 	if finite(a.NoiseFloorUM) && a.NoiseFloorUM > 0 {
-		poly, err := plotter.NewPolygon(plotter.XYs{{X: 0, Y: -a.NoiseFloorUM}, {X: a.GapUM, Y: -a.NoiseFloorUM},
-			{X: a.GapUM, Y: a.NoiseFloorUM}, {X: 0, Y: a.NoiseFloorUM}})
+		poly, err := span(0, h, -a.NoiseFloorUM, a.NoiseFloorUM, noiseGrey)
 		if err != nil {
 			return nil, err
 		}
-		poly.Color, poly.LineStyle.Width = color.Gray{Y: 225}, 0
 		p.Add(poly)
-		p.Legend.Add("noise floor", poly)
-	}
-	for _, x := range []float64{0, a.GapUM} {
-		if err := vLine(p, x, yMin, yMax, Black, wallLinePt, nil); err != nil {
-			return nil, err
-		}
+		pn.AddLegend("noise floor", swatch{fill: noiseGrey})
+		row("noise_floor", math.NaN(), 0, a.NoiseFloorUM, math.NaN(), 0)
+		row("noise_floor", math.NaN(), h, a.NoiseFloorUM, math.NaN(), 0)
 	}
 	if finite(a.PlaneUM) {
-		if err := vLine(p, a.PlaneUM, yMin, yMax, Vermillion, boundaryLnPt, dashes[3]); err != nil {
+		plane := lineStyle(Vermillion, s.BoundaryLinePt, s.Dashes[dashDot])
+		if err := vLine(pn, x(a.PlaneUM), yMin, yMax, plane); err != nil {
 			return nil, err
 		}
-		p.Legend.Add("failure plane", lineThumb{lineStyle(Vermillion, boundaryLnPt, dashes[3])})
+		pn.AddLegend("failure plane", lineSymbol{plane})
+		row("failure_plane", math.NaN(), a.PlaneUM, math.NaN(), math.NaN(), 0)
 	}
 	for i, pr := range a.Profiles {
-		c := Series[i%len(Series)]
-		if i%len(Series) == 1 {
+		c, shape, d := s.series(i)
+		if i%len(s.Series) == 1 {
 			c = SkyBlue // vermillion marks the failure plane
 		}
 		pts := make(plotter.XYs, len(pr.Points))
 		errs := make([]float64, len(pr.Points))
 		for j, q := range pr.Points {
-			pts[j], errs[j] = plotter.XY{X: q.YUM, Y: q.DxUM}, q.ErrUM
+			pts[j], errs[j] = plotter.XY{X: x(q.YUM), Y: q.DxUM}, q.ErrUM
+			row("measured", pr.TAfterStopS, q.YUM, q.DxUM, q.ErrUM, q.N)
 		}
 		fit := make(plotter.XYs, len(pr.Fit))
 		for j, q := range pr.Fit {
-			fit[j] = plotter.XY{X: q.YUM, Y: q.DxUM}
+			fit[j] = plotter.XY{X: x(q.YUM), Y: q.DxUM}
+			row("fit", pr.TAfterStopS, q.YUM, q.DxUM, math.NaN(), 0)
 		}
-		if err := addLine(p, fit, c, dataLinePt, dashes[i%len(dashes)], ""); err != nil {
+		st := lineStyle(c, s.DataLinePt, d)
+		if err := addLine(pn, fit, st, ""); err != nil {
 			return nil, err
 		}
-		if err := addPoints(p, pts, errs, c, markers[i%len(markers)], fmt.Sprintf("%.3g s", pr.TAfterStopS)); err != nil {
+		if err := addPoints(pn, pts, errs, c, shape, strconv.FormatFloat(pr.TAfterStopS, 'g', 3, 64)+" s", st); err != nil {
 			return nil, err
 		}
 	}
-	p.Legend.Top, p.Legend.Left = true, true
-	p.Legend.XOffs = vg.Points(legendInsetPt)
-	return renderPlot(p, SingleColumnCM, afterStopHeightCM)
+	f, err := Compose(SingleColumnCM, afterStopHeightCM, [][]*Panel{{pn}})
+	if err != nil {
+		return nil, err
+	}
+	f.CSV = tab.CSV()
+	return f, nil
 }
+
+// noiseGrey is the strip of the noise floor.
+var noiseGrey = color.Gray{Y: 222}

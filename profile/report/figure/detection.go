@@ -5,7 +5,6 @@ import (
 	"image/color"
 	"math"
 
-	"gonum.org/v1/plot"
 	"gonum.org/v1/plot/plotter"
 	"gonum.org/v1/plot/vg"
 )
@@ -51,33 +50,44 @@ func (d *Detection) Check() error {
 	return nil
 }
 
-// DetectionPlot draws the SNR histogram (left) and the histograms of the
-// fractional pixel positions in x and y (right), across both columns.
+// DetectionPlot draws the SNR histogram (panel a) and the histograms of
+// the fractional pixel positions in x and y (panel b), across both
+// columns.
 func DetectionPlot(d *Detection) (*Figure, error) {
 	if err := d.Check(); err != nil {
 		return nil, err
 	}
-	left := newPlot("signal-to-noise ratio", "detections")
+	st := House
+	tab := NewTable("series", "bin_from", "bin_to", "count", "fraction")
+	left := &Panel{Plot: NewPlot("signal-to-noise ratio", "detections")}
 	h, err := plotter.NewHist(plotter.Values(d.SNR), snrBins)
 	if err != nil {
 		return nil, err
 	}
-	h.FillColor, h.LineStyle.Color, h.LineStyle.Width = SkyBlue, Blue, vg.Points(gridLinePt)
-	left.Add(h)
+	h.FillColor, h.LineStyle.Color, h.LineStyle.Width = SkyBlue, Blue, vg.Points(st.TickLinePt)
+	left.Plot.Add(h)
+	ymax := 0.0
+	for _, b := range h.Bins {
+		ymax = math.Max(ymax, b.Weight)
+		tab.Row("snr", b.Min, b.Max, b.Weight, b.Weight/float64(len(d.SNR)))
+	}
+	left.Plot.X.Min, left.Plot.X.Max = h.Bins[0].Min, h.Bins[len(h.Bins)-1].Max
+	left.AddLegend("detections", swatch{fill: SkyBlue})
 	if d.SNRThreshold > 0 {
-		ymax := 0.0
-		for _, b := range h.Bins {
-			ymax = math.Max(ymax, b.Weight)
-		}
-		if err := vLine(left, d.SNRThreshold, 0, ymax, Vermillion, dataLinePt, dashes[1]); err != nil {
+		thr := lineStyle(Vermillion, st.DataLinePt, st.Dashes[dashed])
+		if err := vLine(left, d.SNRThreshold, 0, ymax, thr); err != nil {
 			return nil, err
 		}
-		left.Legend.Add("threshold", lineThumb{lineStyle(Vermillion, dataLinePt, dashes[1])})
-		left.Legend.Top = true
+		left.AddLegend("threshold", lineSymbol{thr})
+		tab.Row("threshold", d.SNRThreshold, d.SNRThreshold)
+		// The threshold stays clear of the frame.
+		lo, hi := math.Min(left.Plot.X.Min, d.SNRThreshold), left.Plot.X.Max
+		left.Plot.X.Min = lo - dataMargin*(hi-lo)
 	}
+	left.Plot.Y.Min, left.Plot.Y.Max = 0, ymax*(1+dataMargin)
 
-	right := newPlot("fractional position (px)", "fraction of detections per bin")
-	right.X.Min, right.X.Max = 0, 1
+	right := &Panel{Plot: NewPlot("fractional position (px)", "fraction of detections per bin")}
+	right.Plot.X.Min, right.Plot.X.Max = 0, 1
 	type series struct {
 		v    []float64
 		name string
@@ -85,7 +95,7 @@ func DetectionPlot(d *Detection) (*Figure, error) {
 		d    []vg.Length
 	}
 	peak := 0.0
-	for _, s := range []series{{d.FracXPx, "x", Blue, nil}, {d.FracYPx, "y", Vermillion, dashes[1]}} {
+	for _, s := range []series{{d.FracXPx, "x", Blue, nil}, {d.FracYPx, "y", Vermillion, st.Dashes[dashed]}} {
 		if len(s.v) == 0 {
 			continue
 		}
@@ -98,18 +108,23 @@ func DetectionPlot(d *Detection) (*Figure, error) {
 		for i, c := range counts {
 			y := c / float64(len(s.v))
 			peak = math.Max(peak, y)
-			pts = append(pts, plotter.XY{X: float64(i) / fracBins, Y: y}, plotter.XY{X: float64(i+1) / fracBins, Y: y})
+			x0, x1 := float64(i)/fracBins, float64(i+1)/fracBins
+			pts = append(pts, plotter.XY{X: x0, Y: y}, plotter.XY{X: x1, Y: y})
+			tab.Row("frac_"+s.name, x0, x1, c, y)
 		}
-		if err := addLine(right, pts, s.c, dataLinePt, s.d, s.name); err != nil {
+		if err := addLine(right, pts, lineStyle(s.c, st.DataLinePt, s.d), s.name); err != nil {
 			return nil, err
 		}
 	}
 	flat := 1.0 / fracBins
-	if err := addLine(right, plotter.XYs{{X: 0, Y: flat}, {X: 1, Y: flat}}, Black, refLinePt, dashes[2], "uniform"); err != nil {
+	if err := addLine(right, plotter.XYs{{X: 0, Y: flat}, {X: 1, Y: flat}}, lineStyle(st.Ink, st.RefLinePt, st.Dashes[dotted]), "uniform"); err != nil {
 		return nil, err
 	}
-	const headroom = 0.4 // of the highest bin, for the legend
-	right.Y.Min, right.Y.Max = 0, math.Max(peak, flat)*(1+headroom)
-	right.Legend.Top = true
-	return renderGrid([][]*plot.Plot{{left, right}}, DoubleColumnCM, detectionHeightCM)
+	right.Plot.Y.Min, right.Plot.Y.Max = 0, math.Max(peak, flat)*(1+dataMargin)
+	f, err := Compose(DoubleColumnCM, detectionHeightCM, [][]*Panel{{left, right}})
+	if err != nil {
+		return nil, err
+	}
+	f.CSV = tab.CSV()
+	return f, nil
 }

@@ -24,6 +24,6 @@ func ExampleProfilePlot() {
 	if err != nil {
 		log.Fatal(err)
 	}
-	fmt.Printf("%.1f cm x %.1f cm, PNG and SVG\n", fig.WidthCM, fig.HeightCM)
-	// Output: 8.5 cm x 7.5 cm, PNG and SVG
+	fmt.Printf("%.1f cm x %.1f cm, PNG, SVG and PDF\n", fig.WidthCM, fig.HeightCM)
+	// Output: 8.7 cm x 7.5 cm, PNG, SVG and PDF
 }

@@ -2,7 +2,6 @@ package figure
 
 import (
 	"fmt"
-	"image"
 	"image/color"
 	"math"
 	"strconv"
@@ -34,50 +33,31 @@ type Overlay struct {
 	ScaleBarUM float64
 }
 
-// Drawing sizes on the frame, in frame pixels before upscaling.
+// Sizes of the annotations, as fractions of the frame's width or in pt.
 const (
-	// overlayTargetPx is the width the frame is enlarged towards (by an
-	// integer factor) so that lines and text drawn by OpenCV stay sharp in
-	// print.
-	overlayTargetPx = 1280
-	// overlayMaxUpscale bounds the enlargement of small frames.
-	overlayMaxUpscale = 4
 	// axisTicks is the number of intervals on the drawn y axis.
 	axisTicks = 4
-	// overlayFontScale is the Hershey font scale of the labels: about 11 px
-	// high per upscale step.
-	overlayFontScale = 0.45
 	// axisInset is where the gap axes start, as a fraction of the width from
 	// the side the flow comes from; xAxisLength and scaleBarLength are the x
 	// arrow's and the scale bar's length as fractions of the width.
 	axisInset      = 0.1
 	xAxisLength    = 0.15
 	scaleBarLength = 0.2
-	// wallLabelInset is the distance of a wall's label from the wall, as a
-	// fraction of the gap.
-	wallLabelInset = 0.06
-	// tickLenPx is the length of its ticks.
-	tickLenPx = 6
-	// arrowHeadPx is the length of the arrow heads of the gap axes.
-	arrowHeadPx = 8
+	// Line widths and lengths on the image, pt.
+	overlayWallPt   = 1.4
+	overlayTrackPt  = 0.8
+	overlayDotPt    = 1.3 // radius of a track's latest position
+	overlayAxisPt   = 0.8
+	overlayTickPt   = 3
+	overlayArrowPt  = 4.5 // length of an arrow head
+	overlayBarPt    = 1.6
+	overlayInsetPt  = 5 // from the image's edge to the scale bar
+	overlayBoxPadPt = 1.2
 )
 
-// arrow draws a line from a to b with a head of length headPx at b.
-func arrow(img *gocv.Mat, a, b image.Point, c color.RGBA, thick, headPx int) {
-	gocv.Line(img, a, b, c, thick)
-	dx, dy := float64(b.X-a.X), float64(b.Y-a.Y)
-	n := math.Hypot(dx, dy)
-	if n == 0 {
-		return
-	}
-	dx, dy = dx/n, dy/n
-	const halfAngle = math.Pi / 7 // about 26 degrees either side of the shaft
-	for _, s := range []float64{-1, 1} {
-		cs, sn := math.Cos(halfAngle), s*math.Sin(halfAngle)
-		hx, hy := -(dx*cs - dy*sn), -(dx*sn + dy*cs)
-		gocv.Line(img, b, image.Pt(b.X+int(math.Round(hx*float64(headPx))), b.Y+int(math.Round(hy*float64(headPx)))), c, thick)
-	}
-}
+// backdrop is the translucent dark box behind text on the image, so white
+// text reads on bright tracers too (alpha-premultiplied black, 60 %).
+var backdrop = color.RGBA{0, 0, 0, 153}
 
 // trackColours are the Okabe & Ito colours left after the walls' sky blue and
 // orange, in an order that alternates light and dark on a grey frame.
@@ -105,150 +85,6 @@ func (o *Overlay) Check() error {
 		}
 	}
 	return nil
-}
-
-// upscale is the integer factor by which a frame w px wide is enlarged.
-func upscale(w int) int {
-	return max(1, min(overlayMaxUpscale, int(math.Round(float64(overlayTargetPx)/float64(w)))))
-}
-
-// DrawOverlay returns a BGR copy of the frame, enlarged by a whole factor
-// (to about 1280 px wide, at most 4-fold) so lines and text stay sharp, with the walls, the gap axes (x along the flow, y across
-// the gap, ticks in um), a scale bar and the tracks drawn on it with
-// OpenCV. The caller closes the result; on error it is the zero Mat, which
-// needs no closing.
-func DrawOverlay(o *Overlay) (gocv.Mat, error) {
-	if err := o.Check(); err != nil {
-		return gocv.Mat{}, err
-	}
-	w, h := o.Frame.Cols(), o.Frame.Rows()
-	k := upscale(w)
-	big := gocv.NewMat()
-	defer big.Close()
-	gocv.Resize(o.Frame, &big, image.Pt(w*k, h*k), 0, 0, gocv.InterpolationNearestNeighbor)
-	out := gocv.NewMat()
-	gocv.CvtColor(big, &out, gocv.ColorGrayToBGR)
-
-	kf := float64(k)
-	// to maps a frame position to the enlarged image: pixel centres stay centres.
-	to := func(xPx, yPx float64) image.Point {
-		return image.Pt(int(math.Round((xPx+0.5)*kf-0.5)), int(math.Round((yPx+0.5)*kf-0.5)))
-	}
-	thick := max(1, k)
-	text := func(s string, at image.Point, c color.RGBA) {
-		scale := overlayFontScale * kf
-		gocv.PutText(&out, s, at, gocv.FontHersheySimplex, scale, color.RGBA{0, 0, 0, 255}, 3*thick)
-		gocv.PutText(&out, s, at, gocv.FontHersheySimplex, scale, c, thick)
-	}
-	white := color.RGBA{255, 255, 255, 255}
-
-	// Tracks first, so the walls and axes stay on top.
-	for i, tr := range o.Tracks {
-		if len(tr) == 0 {
-			continue
-		}
-		c := trackColours[i%len(trackColours)]
-		pts := make([]image.Point, len(tr))
-		for j, q := range tr {
-			pts[j] = to(q.XPx, q.YPx)
-		}
-		pv := gocv.NewPointsVectorFromPoints([][]image.Point{pts})
-		gocv.Polylines(&out, pv, false, c, thick)
-		pv.Close()
-		gocv.Circle(&out, pts[len(pts)-1], 2*thick, c, -1)
-	}
-
-	cal := o.Calibration
-	// The gap axes start near the image side the flow comes from, so the
-	// x arrow points into the image; labels and the scale bar go the other way.
-	ax0, _ := cal.ToImage(0, 0)
-	ax1, _ := cal.ToImage(1, 0)
-	flowLeft := ax1 < ax0
-	for _, wall := range []struct {
-		line calib.Line
-		name string
-		c    color.RGBA
-	}{{cal.StationaryWallPx, "stationary wall", SkyBlue}, {cal.MovingWallPx, "moving wall", Orange}} {
-		a, b, ok := clipLine(wall.line, float64(w), float64(h))
-		if !ok {
-			continue
-		}
-		gocv.Line(&out, to(a.XPx, a.YPx), to(b.XPx, b.YPx), wall.c, 2*thick)
-		// The label sits on the gap side of the wall, near the end away from
-		// the axes.
-		end := b
-		if (a.XPx > b.XPx) != flowLeft {
-			end = a
-		}
-		gx, gy := cal.ToGap(end.XPx, end.YPx)
-		inward := cal.GapUM * wallLabelInset
-		if wall.name == "moving wall" {
-			inward = -inward
-		}
-		lx, ly := cal.ToImage(gx, gy+inward)
-		sz := gocv.GetTextSize(wall.name, gocv.FontHersheySimplex, overlayFontScale*kf, thick)
-		at := to(lx, ly)
-		if flowLeft {
-			at.X = max(at.X, 4*k)
-		} else {
-			at.X = min(at.X, w*k-sz.X-4*k)
-		}
-		at.Y += sz.Y / 2
-		text(wall.name, at, wall.c)
-	}
-
-	// Gap axes from a point on the stationary wall a tenth of the way in.
-	originPx := axisInset * float64(w)
-	if flowLeft {
-		originPx = (1 - axisInset) * float64(w)
-	}
-	ox, _ := cal.ToGap(originPx, stationaryYAt(cal, originPx))
-	oPx, oPy := cal.ToImage(ox, 0)
-	xAxisUM := xAxisLength * float64(w) * cal.UMPerPx
-	xe, ye := cal.ToImage(ox+xAxisUM, 0)
-	arrow(&out, to(oPx, oPy), to(xe, ye), white, thick, arrowHeadPx*k)
-	text("x", to(xe, ye).Add(image.Pt(4*k, -4*k)), white)
-	tx, ty := cal.ToImage(ox, cal.GapUM)
-	arrow(&out, to(oPx, oPy), to(tx, ty), white, thick, arrowHeadPx*k)
-	outer := -14 * k // the side of the y axis away from the gap's middle
-	if flowLeft {
-		outer = 6 * k
-	}
-	text("y", to(tx, ty).Add(image.Pt(outer, -2*k)), white)
-	for i := 0; i <= axisTicks; i++ {
-		yUM := cal.GapUM * float64(i) / axisTicks
-		ax, ay := cal.ToImage(ox, yUM)
-		bx, by := cal.ToImage(ox-tickLenPx*cal.UMPerPx, yUM)
-		gocv.Line(&out, to(ax, ay), to(bx, by), white, thick)
-		lab := strconv.FormatFloat(yUM, 'g', 4, 64)
-		if i == axisTicks {
-			lab += " um"
-		}
-		at := to(ax, ay).Add(image.Pt(5*k, 4*k))
-		if flowLeft {
-			at.X -= 10*k + gocv.GetTextSize(lab, gocv.FontHersheySimplex, overlayFontScale*kf, thick).X
-		}
-		text(lab, at, white)
-	}
-
-	// Scale bar in the lower corner away from the axes.
-	barUM := o.ScaleBarUM
-	if !(barUM > 0) {
-		barUM = roundLength(scaleBarLength * float64(w) * cal.UMPerPx)
-	}
-	barPx := barUM / cal.UMPerPx * kf
-	bx1, by1 := w*k-8*k, h*k-8*k
-	bx0 := bx1 - int(math.Round(barPx))
-	if flowLeft {
-		bx0 = 8 * k
-		bx1 = bx0 + int(math.Round(barPx))
-	}
-	gocv.Rectangle(&out, image.Rect(bx0-4*k, by1-16*k, bx1+4*k, by1+4*k), color.RGBA{0, 0, 0, 255}, -1)
-	gocv.Line(&out, image.Pt(bx0, by1), image.Pt(bx1, by1), white, 2*thick)
-	lab := strconv.FormatFloat(barUM, 'g', 4, 64) + " um"
-	sz := gocv.GetTextSize(lab, gocv.FontHersheySimplex, overlayFontScale*kf, thick)
-	text(lab, image.Pt((bx0+bx1-sz.X)/2, by1-5*k), white)
-	return out, nil
 }
 
 // stationaryYAt is the image y of the stationary wall line at image x.
@@ -317,31 +153,249 @@ func (flippedTicks) Ticks(lo, hi float64) []plot.Tick {
 	return ts
 }
 
-// OverlayPlot draws the annotated frame (DrawOverlay) in a figure across
-// both columns, with the image axes in px.
+// OverlayPlot draws the frame as an image with the walls, the gap axes (x
+// along the flow, y across the gap, ticks in µm), a scale bar and the
+// tracks as vector marks over it, in a figure across both columns whose
+// image keeps the frame's aspect ratio, with the image axes in px.
 func OverlayPlot(o *Overlay) (*Figure, error) {
-	m, err := DrawOverlay(o)
-	if err != nil {
+	if err := o.Check(); err != nil {
 		return nil, err
 	}
-	img, err := m.ToImage()
-	m.Close()
+	img, err := o.Frame.ToImage()
 	if err != nil {
 		return nil, fmt.Errorf("figure: overlay: %w", err)
 	}
 	w, h := float64(o.Frame.Cols()), float64(o.Frame.Rows())
-	p := newPlot("image x (px)", "image y (px)")
+	pn := &Panel{Plot: NewPlot("image x (px)", "image y (px)")}
+	p := pn.Plot
 	p.Add(plotter.NewImage(img, -0.5, -(h - 0.5), w-0.5, 0.5))
 	p.X.Min, p.X.Max = -0.5, w-0.5
 	p.Y.Min, p.Y.Max = -(h - 0.5), 0.5
 	p.Y.Tick.Marker = flippedTicks{}
 	p.X.Tick.Marker = niceTicks{Major: 8}
+	marks := newOverlayMarks(o)
+	p.Add(marks)
+	pn.AddLegend("stationary wall", lineSymbol{lineStyle(SkyBlue, overlayWallPt, nil)})
+	pn.AddLegend("moving wall", lineSymbol{lineStyle(Orange, overlayWallPt, nil)})
+	if len(o.Tracks) > 0 {
+		pn.AddLegend("tracks (dot: latest position)", lineSymbol{lineStyle(Blue, overlayTrackPt, nil)},
+			markerSymbol{glyph: draw.GlyphStyle{Color: Blue, Radius: vg.Points(overlayDotPt), Shape: draw.CircleGlyph{}}})
+	}
 
-	// Choose the height so the data area has the frame's aspect ratio.
-	wL := cm(DoubleColumnCM)
-	hTry := cm(DoubleColumnCM * h / w)
-	da := p.DataCanvas(draw.Canvas{Rectangle: vg.Rectangle{Max: vg.Point{X: wL, Y: hTry}}})
-	dw, dh := da.Max.X-da.Min.X, da.Max.Y-da.Min.Y
-	hCM := float64(hTry+dw*vg.Length(h/w)-dh) / float64(cm(1))
-	return renderPlot(p, DoubleColumnCM, hCM)
+	// Choose the height so the data area has the frame's aspect ratio: the
+	// layout of a first guess, corrected by the data area's misfit.
+	hTry := DoubleColumnCM * h / w
+	da := measure(DoubleColumnCM, hTry, pn)
+	dw, dh := float64(da.Max.X-da.Min.X), float64(da.Max.Y-da.Min.Y)
+	hCM := hTry + (dw*h/w-dh)/float64(cm(1))
+	f, err := Compose(DoubleColumnCM, hCM, [][]*Panel{{pn}})
+	if err != nil {
+		return nil, err
+	}
+	f.CSV = marks.table().CSV()
+	return f, nil
+}
+
+// overlayMarks is the plotter of the annotations, in image px.
+type overlayMarks struct {
+	o    *Overlay
+	w, h float64 // frame size, px
+	// flowLeft: the flow runs towards -x of the image.
+	flowLeft bool
+	walls    [2][2]PointPx // clipped stationary and moving wall lines
+	haveWall [2]bool
+	// Gap axes: origin on the stationary wall, ends of the x and y arrows,
+	// and the y ticks with their heights, um.
+	origin, xEnd, yEnd PointPx
+	ticks              []PointPx
+	tickUM             []float64
+	barUM              float64
+}
+
+func newOverlayMarks(o *Overlay) *overlayMarks {
+	cal := o.Calibration
+	m := &overlayMarks{o: o, w: float64(o.Frame.Cols()), h: float64(o.Frame.Rows())}
+	// The gap axes start near the image side the flow comes from, so the
+	// x arrow points into the image; the scale bar goes the other way.
+	ax0, _ := cal.ToImage(0, 0)
+	ax1, _ := cal.ToImage(1, 0)
+	m.flowLeft = ax1 < ax0
+	for k, l := range []calib.Line{cal.StationaryWallPx, cal.MovingWallPx} {
+		a, b, ok := clipLine(l, m.w, m.h)
+		m.walls[k], m.haveWall[k] = [2]PointPx{a, b}, ok
+	}
+	originPx := axisInset * m.w
+	if m.flowLeft {
+		originPx = (1 - axisInset) * m.w
+	}
+	ox, _ := cal.ToGap(originPx, stationaryYAt(cal, originPx))
+	pt := func(xUM, yUM float64) PointPx {
+		x, y := cal.ToImage(xUM, yUM)
+		return PointPx{x, y}
+	}
+	m.origin = pt(ox, 0)
+	m.xEnd = pt(ox+xAxisLength*m.w*cal.UMPerPx, 0)
+	m.yEnd = pt(ox, cal.GapUM)
+	for i := 0; i <= axisTicks; i++ {
+		yUM := cal.GapUM * float64(i) / axisTicks
+		m.ticks = append(m.ticks, pt(ox, yUM))
+		m.tickUM = append(m.tickUM, yUM)
+	}
+	m.barUM = o.ScaleBarUM
+	if !(m.barUM > 0) {
+		m.barUM = roundLength(scaleBarLength * m.w * cal.UMPerPx)
+	}
+	return m
+}
+
+// table is the annotations' positions for the figure's CSV.
+func (m *overlayMarks) table() *Table {
+	t := NewTable("series", "x_px", "y_px", "y_um")
+	names := []string{"stationary_wall", "moving_wall"}
+	for k := range m.walls {
+		if m.haveWall[k] {
+			for _, q := range m.walls[k] {
+				t.Row(names[k], q.XPx, q.YPx)
+			}
+		}
+	}
+	t.Row("x_axis", m.origin.XPx, m.origin.YPx, 0.0)
+	t.Row("x_axis", m.xEnd.XPx, m.xEnd.YPx, 0.0)
+	for i, q := range m.ticks {
+		t.Row("y_axis_tick", q.XPx, q.YPx, m.tickUM[i])
+	}
+	t.Row("scale_bar_um", m.barUM)
+	for i, tr := range m.o.Tracks {
+		for _, q := range tr {
+			t.Row(fmt.Sprintf("track %d", i+1), q.XPx, q.YPx)
+		}
+	}
+	return t
+}
+
+// Plot implements plot.Plotter: tracks first, then walls, axes and the
+// scale bar on top.
+func (m *overlayMarks) Plot(c draw.Canvas, plt *plot.Plot) {
+	tx, ty := plt.Transforms(&c)
+	at := func(q PointPx) vg.Point { return vg.Point{X: tx(q.XPx), Y: ty(-q.YPx)} }
+	for i, tr := range m.o.Tracks {
+		if len(tr) == 0 {
+			continue
+		}
+		col := trackColours[i%len(trackColours)]
+		line := make([]vg.Point, len(tr))
+		for j, q := range tr {
+			line[j] = at(q)
+		}
+		c.StrokeLines(lineStyle(col, overlayTrackPt, nil), line)
+		c.DrawGlyph(draw.GlyphStyle{Color: col, Radius: vg.Points(overlayDotPt), Shape: draw.CircleGlyph{}}, line[len(line)-1])
+	}
+	for k, col := range []color.Color{SkyBlue, Orange} {
+		if m.haveWall[k] {
+			c.StrokeLine2(lineStyle(col, overlayWallPt, nil), at(m.walls[k][0]).X, at(m.walls[k][0]).Y,
+				at(m.walls[k][1]).X, at(m.walls[k][1]).Y)
+		}
+	}
+
+	white := color.White
+	ax := lineStyle(white, overlayAxisPt, nil)
+	o := at(m.origin)
+	arrowTo(c, o, at(m.xEnd), ax)
+	arrowTo(c, o, at(m.yEnd), ax)
+	pad := vg.Points(overlayArrowPt)
+	xe, ye := at(m.xEnd), at(m.yEnd)
+	dir := unit(xe.X-o.X, xe.Y-o.Y)
+	onImage(c, "x", vg.Point{X: xe.X + dir.X*pad, Y: xe.Y + dir.Y*pad}, draw.XCenter, draw.YCenter)
+	// Ticks on the side of the y axis away from the flow's start, labels
+	// beyond them; the axis's name on the other side, at its end.
+	side := vg.Length(1)
+	xa, xaName, labelSide := draw.XLeft, draw.XRight, vg.Length(1)
+	if m.flowLeft {
+		side, xa, xaName, labelSide = -1, draw.XRight, draw.XLeft, -1
+	}
+	tick := vg.Points(overlayTickPt)
+	onImage(c, "y", vg.Point{X: ye.X - labelSide*vg.Points(2), Y: ye.Y}, xaName, draw.YCenter)
+	for i, q := range m.ticks {
+		p := at(q)
+		c.StrokeLine2(ax, p.X, p.Y, p.X+side*tick, p.Y)
+		lab := minusSign(strconv.FormatFloat(m.tickUM[i], 'g', 4, 64))
+		if i == len(m.ticks)-1 {
+			lab += " µm"
+		}
+		onImage(c, lab, vg.Point{X: p.X + labelSide*(tick+vg.Points(2)), Y: p.Y}, xa, draw.YCenter)
+	}
+
+	// Scale bar in the lower corner away from the axes.
+	cal := m.o.Calibration
+	x0, x1 := tx(-0.5), tx(m.w-0.5)
+	yBottom := ty(-(m.h - 0.5))
+	inset := vg.Points(overlayInsetPt)
+	barLen := tx(m.barUM/cal.UMPerPx) - tx(0)
+	bx1 := x1 - inset
+	if m.flowLeft {
+		bx1 = x0 + inset + barLen
+	}
+	by := yBottom + inset
+	label := minusSign(strconv.FormatFloat(m.barUM, 'g', 4, 64)) + " µm"
+	sty := textStyleAt(House.NotePt, draw.XCenter, draw.YBottom)
+	sty.Color = white
+	lr := sty.Rectangle(label)
+	boxPad := vg.Points(overlayBoxPadPt)
+	top := by + vg.Points(overlayBarPt) + vg.Points(1.5) + (lr.Max.Y - lr.Min.Y)
+	halfW := max(barLen, lr.Max.X-lr.Min.X) / 2
+	mid := bx1 - barLen/2
+	fillRect(c, vg.Rectangle{Min: vg.Point{X: mid - halfW - boxPad, Y: by - boxPad - vg.Points(overlayBarPt)/2},
+		Max: vg.Point{X: mid + halfW + boxPad, Y: top + boxPad}}, backdrop)
+	c.StrokeLine2(lineStyle(white, overlayBarPt, nil), bx1-barLen, by, bx1, by)
+	c.FillText(sty, vg.Point{X: mid, Y: by + vg.Points(overlayBarPt)/2 + vg.Points(1.5) - lr.Min.Y}, label)
+}
+
+// DataRange implements plot.DataRanger: within the image.
+func (m *overlayMarks) DataRange() (xmin, xmax, ymin, ymax float64) {
+	return -0.5, m.w - 0.5, -(m.h - 0.5), 0.5
+}
+
+// unit is the unit vector along (dx, dy), zero for a zero vector.
+func unit(dx, dy vg.Length) vg.Point {
+	n := vg.Length(math.Hypot(float64(dx), float64(dy)))
+	if n == 0 {
+		return vg.Point{}
+	}
+	return vg.Point{X: dx / n, Y: dy / n}
+}
+
+// arrowTo draws a line from a to b ending in a filled head at b.
+func arrowTo(c draw.Canvas, a, b vg.Point, st draw.LineStyle) {
+	d := unit(b.X-a.X, b.Y-a.Y)
+	if d == (vg.Point{}) {
+		return
+	}
+	head := vg.Points(overlayArrowPt)
+	base := vg.Point{X: b.X - d.X*head, Y: b.Y - d.Y*head}
+	c.StrokeLine2(st, a.X, a.Y, base.X, base.Y)
+	// A head about 2 x 26 degrees wide.
+	half := head * vg.Length(math.Tan(math.Pi/7))
+	var tri vg.Path
+	tri.Move(b)
+	tri.Line(vg.Point{X: base.X - d.Y*half, Y: base.Y + d.X*half})
+	tri.Line(vg.Point{X: base.X + d.Y*half, Y: base.Y - d.X*half})
+	tri.Close()
+	c.SetColor(st.Color)
+	c.Fill(tri)
+}
+
+// fillRect fills r with col.
+func fillRect(c draw.Canvas, r vg.Rectangle, col color.Color) {
+	c.SetColor(col)
+	c.Fill(r.Path())
+}
+
+// onImage writes white text on its backdrop at p.
+func onImage(c draw.Canvas, txt string, p vg.Point, xa draw.XAlignment, ya draw.YAlignment) {
+	sty := textStyleAt(House.NotePt, xa, ya)
+	sty.Color = color.White
+	r := sty.Rectangle(txt).Add(p)
+	pad := vg.Points(overlayBoxPadPt)
+	fillRect(c, vg.Rectangle{Min: vg.Point{X: r.Min.X - pad, Y: r.Min.Y - pad}, Max: vg.Point{X: r.Max.X + pad, Y: r.Max.Y + pad}}, backdrop)
+	c.FillText(sty, p, txt)
 }

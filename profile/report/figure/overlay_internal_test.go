@@ -49,11 +49,3 @@ func TestRoundLength(t *testing.T) {
 		}
 	}
 }
-
-func TestUpscale(t *testing.T) {
-	for _, c := range []struct{ w, want int }{{640, 2}, {1280, 1}, {2560, 1}, {200, 4}, {320, 4}, {500, 3}} {
-		if got := upscale(c.w); got != c.want {
-			t.Errorf("upscale(%d) = %d, want %d", c.w, got, c.want)
-		}
-	}
-}

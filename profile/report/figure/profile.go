@@ -4,10 +4,9 @@ import (
 	"fmt"
 	"image/color"
 	"math"
+	"strconv"
 
 	"gonum.org/v1/plot/plotter"
-	"gonum.org/v1/plot/vg"
-	"gonum.org/v1/plot/vg/draw"
 )
 
 // ProfilePoint is the mean velocity along the flow in one gap bin.
@@ -27,7 +26,7 @@ type VelocityPoint struct {
 // Band is a layer of uniform local shear rate.
 type Band struct {
 	FromUM, ToUM float64 // its extent above the stationary wall, um
-	RatePerS     float64 // its local shear rate, 1/s (NaN: unknown)
+	RatePerS     float64 // its local shear rate, s⁻¹ (NaN: unknown)
 }
 
 // PhaseProfile is the steady velocity profile of one shear phase.
@@ -40,6 +39,8 @@ type PhaseProfile struct {
 	// NoSlip is the reference profile without slip of a Newtonian liquid
 	// (curved in a Couette cell); nil means the straight line v = V y / H.
 	NoSlip []VelocityPoint
+	// Axis is how the position across the gap is drawn.
+	Axis GapAxis
 }
 
 // Check reports the first value that makes p impossible to draw.
@@ -61,24 +62,53 @@ func (p *PhaseProfile) Check() error {
 }
 
 // Band shades, alternating light greys that keep the data readable.
-var bandShades = []color.Color{color.Gray{Y: 236}, color.Gray{Y: 250}}
+var bandShades = []color.Color{color.Gray{Y: 234}, color.Gray{Y: 247}}
 
-// ProfilePlot draws v/V against y/H: the measured profile with its error
-// bars, the fit, the bands (shaded, boundaries dashed, each labelled with
-// its rate), the no-slip line and the walls, single column wide.
+// bandBoundaryGrey is the colour of the dash-dotted band boundaries.
+var bandBoundaryGrey = color.Gray{Y: 90}
+
+// RateText is a shear rate for a figure, with its unit: 2.5 s⁻¹ in the
+// markup of NewPlot.
+func RateText(ratePerS float64) string {
+	if !finite(ratePerS) {
+		return "rate unknown"
+	}
+	return minusSign(strconv.FormatFloat(ratePerS, 'g', 3, 64)) + " s^{−1}"
+}
+
+// ProfilePlot draws v/V against the position across the gap over H: the
+// measured profile with its error bars, the fit, the bands (shaded,
+// boundaries dash-dotted, each labelled with its rate above the frame), the
+// no-slip line, and the walls at the frame's two sides; single column wide.
 func ProfilePlot(pp *PhaseProfile) (*Figure, error) {
 	if err := pp.Check(); err != nil {
 		return nil, err
 	}
+	s := House
 	h, v := pp.GapUM, pp.WallSpeedUMPerS
-	p := newPlot("height across the gap y/H", "velocity v/V")
+	x := func(yUM float64) float64 { return pp.Axis.Coord(yUM, h) / h }
+	pn := &Panel{Plot: NewPlot(pp.Axis.NormLabel(), "velocity v/V"), WallsX: true}
+	p := pn.Plot
 
-	// Value range first, so the shading and wall lines span it.
+	tab := NewTable(profileColumns(pp.Axis)...)
+	row := func(series string, yUM, vUM, errUM float64, n int, rate float64) {
+		cells := []any{series, yUM}
+		if pp.Axis.Column() != "" {
+			cells = append(cells, pp.Axis.Coord(yUM, h))
+		}
+		nv := math.NaN()
+		if n > 0 {
+			nv = float64(n)
+		}
+		cells = append(cells, x(yUM), vUM, errUM, vUM/v, nv, rate)
+		tab.Row(cells...)
+	}
+
 	lo, hi := 0.0, 1.0
 	pts := make(plotter.XYs, len(pp.Points))
 	errs := make([]float64, len(pp.Points))
 	for i, q := range pp.Points {
-		pts[i] = plotter.XY{X: q.YUM / h, Y: q.VUMPerS / v}
+		pts[i] = plotter.XY{X: x(q.YUM), Y: q.VUMPerS / v}
 		errs[i] = math.Abs(q.ErrUMPerS / v)
 		if finite(pts[i].Y) {
 			e := 0.0
@@ -87,82 +117,78 @@ func ProfilePlot(pp *PhaseProfile) (*Figure, error) {
 			}
 			lo, hi = math.Min(lo, pts[i].Y-e), math.Max(hi, pts[i].Y+e)
 		}
+		row("measured", q.YUM, q.VUMPerS, q.ErrUMPerS, q.N, math.NaN())
 	}
-	// Room above the data for the legend and the band labels, which sit a
-	// little above the data.
-	const (
-		headroom      = 0.5  // of the data range
-		bandLabelRise = 0.08 // of the data range
-	)
-	yMin, yMax := lo-floorMargin*(hi-lo), hi+headroom*(hi-lo)
+	for _, q := range pp.Fit {
+		if finite(q.VUMPerS) {
+			lo, hi = math.Min(lo, q.VUMPerS/v), math.Max(hi, q.VUMPerS/v)
+		}
+	}
+	yMin, yMax := withMargin(lo, hi)
 	p.Y.Min, p.Y.Max = yMin, yMax
-	p.X.Min, p.X.Max = -wallMargin, 1+wallMargin
+	p.X.Min, p.X.Max = 0, 1
 
+	boundary := lineStyle(bandBoundaryGrey, s.BoundaryLinePt, s.Dashes[dashDot])
 	if len(pp.Bands) > 1 {
-		var labels plotter.XYLabels
 		for i, b := range pp.Bands {
-			sp, err := span(b.FromUM/h, b.ToUM/h, yMin, yMax, bandShades[i%2])
+			x0, x1 := x(b.FromUM), x(b.ToUM)
+			sp, err := span(math.Min(x0, x1), math.Max(x0, x1), yMin, yMax, bandShades[i%2])
 			if err != nil {
 				return nil, err
 			}
 			p.Add(sp)
 			if i > 0 {
-				if err := vLine(p, b.FromUM/h, yMin, yMax, color.Gray{Y: 90}, boundaryLnPt, dashes[3]); err != nil {
+				if err := vLine(pn, x0, yMin, yMax, boundary); err != nil {
 					return nil, err
 				}
 			}
-			txt := "rate ?"
-			if finite(b.RatePerS) {
-				txt = fmt.Sprintf("%.3g /s", b.RatePerS)
-			}
-			labels.XYs = append(labels.XYs, plotter.XY{X: (b.FromUM + b.ToUM) / 2 / h, Y: hi + bandLabelRise*(hi-lo)})
-			labels.Labels = append(labels.Labels, txt)
-		}
-		l, err := plotter.NewLabels(labels)
-		if err != nil {
-			return nil, err
-		}
-		for i := range l.TextStyle {
-			l.TextStyle[i].Font.Size = vg.Points(legendPt)
-			l.TextStyle[i].Font.Variant = sansVariant
-			l.TextStyle[i].XAlign = draw.XCenter
-		}
-		p.Add(l)
-	}
-	for _, x := range []float64{0, 1} {
-		if err := vLine(p, x, yMin, yMax, Black, wallLinePt, nil); err != nil {
-			return nil, err
+			pn.Notes = append(pn.Notes, Note{X: (x0 + x1) / 2, Text: RateText(b.RatePerS)})
+			row(fmt.Sprintf("band %d", i+1), b.FromUM, math.NaN(), math.NaN(), 0, b.RatePerS)
+			row(fmt.Sprintf("band %d", i+1), b.ToUM, math.NaN(), math.NaN(), 0, b.RatePerS)
 		}
 	}
 
-	noSlip := plotter.XYs{{X: 0, Y: 0}, {X: 1, Y: 1}}
-	if pp.NoSlip != nil {
-		noSlip = make(plotter.XYs, len(pp.NoSlip))
-		for i, q := range pp.NoSlip {
-			noSlip[i] = plotter.XY{X: q.YUM / h, Y: q.VUMPerS / v}
-		}
+	noSlip := pp.NoSlip
+	if noSlip == nil {
+		noSlip = []VelocityPoint{{YUM: 0, VUMPerS: 0}, {YUM: h, VUMPerS: v}}
 	}
-	if err := addLine(p, noSlip, Black, refLinePt, dashes[2], "no slip"); err != nil {
+	ns := make(plotter.XYs, len(noSlip))
+	for i, q := range noSlip {
+		ns[i] = plotter.XY{X: x(q.YUM), Y: q.VUMPerS / v}
+		row("no slip", q.YUM, q.VUMPerS, math.NaN(), 0, math.NaN())
+	}
+	if err := addLine(pn, ns, lineStyle(s.Ink, s.RefLinePt, s.Dashes[dotted]), "no slip"); err != nil {
 		return nil, err
 	}
 	if len(pp.Fit) > 0 {
 		fit := make(plotter.XYs, len(pp.Fit))
 		for i, q := range pp.Fit {
-			fit[i] = plotter.XY{X: q.YUM / h, Y: q.VUMPerS / v}
+			fit[i] = plotter.XY{X: x(q.YUM), Y: q.VUMPerS / v}
+			row("fit", q.YUM, q.VUMPerS, math.NaN(), 0, math.NaN())
 		}
-		if err := addLine(p, fit, Vermillion, dataLinePt, dashes[1], "fit"); err != nil {
+		if err := addLine(pn, fit, lineStyle(Vermillion, s.DataLinePt, s.Dashes[dashed]), "fit"); err != nil {
 			return nil, err
 		}
 	}
-	if err := addPoints(p, pts, errs, Blue, markers[0], "measured ± s.e."); err != nil {
+	if err := addPoints(pn, pts, errs, Blue, s.Markers[0], "measured ± s.e."); err != nil {
 		return nil, err
 	}
 	if len(pp.Bands) > 1 {
-		// A legend entry for the band boundaries.
-		p.Legend.Add("band boundary", lineThumb{draw.LineStyle{Color: color.Gray{Y: 90},
-			Width: vg.Points(boundaryLnPt), Dashes: dashes[3]}})
+		pn.AddLegend("band boundary", lineSymbol{boundary})
 	}
-	p.Legend.Top, p.Legend.Left = true, true
-	p.Legend.XOffs = vg.Points(legendInsetPt)
-	return renderPlot(p, SingleColumnCM, profileHeightCM)
+	f, err := Compose(SingleColumnCM, profileHeightCM, [][]*Panel{{pn}})
+	if err != nil {
+		return nil, err
+	}
+	f.CSV = tab.CSV()
+	return f, nil
+}
+
+// profileColumns is the CSV header of a profile figure.
+func profileColumns(a GapAxis) []string {
+	c := []string{"series", "y_um"}
+	if a.Column() != "" {
+		c = append(c, a.Column())
+	}
+	return append(c, "position_over_gap", "v_um_per_s", "v_err_um_per_s", "v_over_wall_speed", "n", "band_rate_per_s")
 }

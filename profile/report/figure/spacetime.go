@@ -6,9 +6,7 @@ import (
 	"image/color"
 	"math"
 
-	"gonum.org/v1/plot"
 	"gonum.org/v1/plot/plotter"
-	"gonum.org/v1/plot/vg/draw"
 )
 
 // Quantity is what a space-time map shows.
@@ -17,7 +15,7 @@ type Quantity int
 // Quantities of a space-time map.
 const (
 	LocalVelocity Quantity = iota // velocity along the flow, um/s
-	LocalRate                     // local shear rate dv/dy, 1/s
+	LocalRate                     // local shear rate dv/dy, s⁻¹
 )
 
 // Noun names q in words, without its unit.
@@ -28,12 +26,21 @@ func (q Quantity) Noun() string {
 	return "local velocity"
 }
 
-// String returns the axis label of q with its unit.
+// String returns the axis label of q with its unit, in the markup of
+// NewPlot.
 func (q Quantity) String() string {
 	if q == LocalRate {
-		return "local shear rate (1/s)"
+		return "local shear rate (s^{−1})"
 	}
 	return "local velocity (µm/s)"
+}
+
+// column is the CSV column of q.
+func (q Quantity) column() string {
+	if q == LocalRate {
+		return "rate_per_s"
+	}
+	return "v_um_per_s"
 }
 
 // SpaceTime is a map of a local quantity over time and height in the gap.
@@ -45,6 +52,8 @@ type SpaceTime struct {
 	GapUM    float64 // wall distance, um
 	// PhaseBoundariesS are the times at which the motion program changes, s.
 	PhaseBoundariesS []float64
+	// Axis is how the position across the gap is drawn.
+	Axis GapAxis
 }
 
 // Check reports the first value that makes s impossible to draw.
@@ -73,13 +82,25 @@ func (s *SpaceTime) Check() error {
 	return nil
 }
 
-// grid adapts SpaceTime to plotter.GridXYZ: columns are times, rows heights.
+// grid adapts SpaceTime to plotter.GridXYZ: columns are times, rows the
+// drawn positions across the gap, increasing.
 type grid struct{ s *SpaceTime }
 
+// flipped reports whether the drawn position runs against y.
+func (g grid) flipped() bool { return g.s.Axis.Coord(0, 1) > g.s.Axis.Coord(1, 1) }
+
+// row is the index into YUM of grid row r.
+func (g grid) row(r int) int {
+	if g.flipped() {
+		return len(g.s.YUM) - 1 - r
+	}
+	return r
+}
+
 func (g grid) Dims() (c, r int)   { return len(g.s.TS), len(g.s.YUM) }
-func (g grid) Z(c, r int) float64 { return g.s.Values[c][r] }
+func (g grid) Z(c, r int) float64 { return g.s.Values[c][g.row(r)] }
 func (g grid) X(c int) float64    { return g.s.TS[c] }
-func (g grid) Y(r int) float64    { return g.s.YUM[r] }
+func (g grid) Y(r int) float64    { return g.s.Axis.Coord(g.s.YUM[g.row(r)], g.s.GapUM) }
 func (g grid) regular() bool      { return evenlySpaced(g.s.TS) && evenlySpaced(g.s.YUM) }
 func (g grid) valueRange() (lo, hi float64) {
 	lo, hi = math.Inf(1), math.Inf(-1)
@@ -115,13 +136,15 @@ const (
 )
 
 // cellImage paints the map's cells as blocks of pixels, time to the right
-// and height up.
+// and the drawn position across the gap up.
 func cellImage(s *SpaceTime, ramp *Ramp) *image.RGBA {
+	g := grid{s}
 	nt, ny := len(s.TS), len(s.YUM)
 	sx, sy := (cellImageMinWPx+nt-1)/nt, (cellImageMinHPx+ny-1)/ny
 	img := image.NewRGBA(image.Rect(0, 0, nt*sx, ny*sy))
-	for i, row := range s.Values {
-		for j, v := range row {
+	for i := range s.Values {
+		for j := range ny {
+			v := g.Z(i, j)
 			c := color.RGBA(noData)
 			if finite(v) {
 				cc, err := ramp.At(v)
@@ -147,13 +170,6 @@ const rampColours = 256
 // noData is the colour of unknown cells: white, lighter than every ramp colour.
 var noData = color.RGBA{255, 255, 255, 255}
 
-// colourBarCM is the width given to the colour bar and its label, and
-// colourBarGapCM the space either side of it, cm.
-const (
-	colourBarCM    = 2.3
-	colourBarGapCM = 0.2
-)
-
 // Phase boundaries on a map: a white halo under a dashed black line, pt.
 const (
 	boundaryHaloPt  = 2.2
@@ -161,11 +177,13 @@ const (
 )
 
 // SpaceTimePlot draws the map as a heat map across both columns, with the
-// phase boundaries as vertical lines and a colour bar.
+// phase boundaries as vertical lines, the walls as the frame's top and
+// bottom, and a colour bar.
 func SpaceTimePlot(s *SpaceTime) (*Figure, error) {
 	if err := s.Check(); err != nil {
 		return nil, err
 	}
+	st := House
 	g := grid{s}
 	lo, hi := g.valueRange()
 	if math.IsInf(lo, 0) {
@@ -175,13 +193,16 @@ func SpaceTimePlot(s *SpaceTime) (*Figure, error) {
 		hi = lo + 1
 	}
 	ramp := NewRamp(lo, hi)
-	p := newPlot("time t (s)", "height y (µm)")
+	pn := &Panel{Plot: NewPlot("time t (s)", s.Axis.Label()), WallsY: true,
+		ColourBar: &ColourBar{Map: ramp, Label: s.Quantity.String()}}
+	p := pn.Plot
 	nt, ny := len(s.TS), len(s.YUM)
 	t0, t1 := s.TS[0]-(s.TS[1]-s.TS[0])/2, s.TS[nt-1]+(s.TS[nt-1]-s.TS[nt-2])/2
-	y0, y1 := s.YUM[0]-(s.YUM[1]-s.YUM[0])/2, s.YUM[ny-1]+(s.YUM[ny-1]-s.YUM[ny-2])/2
+	// The drawn extent of the cells, from the first and last row.
+	c0, c1 := g.Y(0)-(g.Y(1)-g.Y(0))/2, g.Y(ny-1)+(g.Y(ny-1)-g.Y(ny-2))/2
 	if g.regular() {
 		// One image with sharp cell edges; gonum's own raster mode smooths them.
-		p.Add(plotter.NewImage(cellImage(s, ramp), t0, y0, t1, y1))
+		p.Add(plotter.NewImage(cellImage(s, ramp), t0, c0, t1, c1))
 	} else {
 		hm := plotter.NewHeatMap(g, ramp.Palette(rampColours))
 		hm.Min, hm.Max, hm.NaN = lo, hi, noData
@@ -189,35 +210,45 @@ func SpaceTimePlot(s *SpaceTime) (*Figure, error) {
 	}
 	p.X.Tick.Marker = niceTicks{Major: 10}
 	p.X.Min, p.X.Max = t0, t1
-	p.Y.Min, p.Y.Max = math.Min(0, y0), math.Max(s.GapUM, y1)
+	p.Y.Min, p.Y.Max = math.Min(0, c0), math.Max(s.GapUM, c1)
+	halo := lineStyle(color.White, boundaryHaloPt, nil)
+	dash := lineStyle(Black, boundaryOnMapPt, st.Dashes[dashed])
 	for _, tb := range s.PhaseBoundariesS {
 		if tb <= t0 || tb >= t1 {
 			continue
 		}
 		// A white line under a dashed black one shows on dark and light cells.
-		if err := vLine(p, tb, 0, s.GapUM, color.White, boundaryHaloPt, nil); err != nil {
+		if err := vLine(pn, tb, p.Y.Min, p.Y.Max, halo); err != nil {
 			return nil, err
 		}
-		if err := vLine(p, tb, 0, s.GapUM, Black, boundaryOnMapPt, dashes[1]); err != nil {
+		if err := vLine(pn, tb, p.Y.Min, p.Y.Max, dash); err != nil {
 			return nil, err
 		}
 	}
+	pn.AddLegend("change of the imposed motion", lineSymbol{halo}, lineSymbol{dash})
+	pn.AddLegend("too few tracers", swatch{fill: noData, edge: true})
 
-	bar := plot.New()
-	cb := &plotter.ColorBar{ColorMap: ramp, Vertical: true, Colors: rampColours}
-	bar.Add(cb)
-	bar.HideX()
-	bar.Y.Label.Text = s.Quantity.String()
-	setFonts(bar)
-	bar.Y.Tick.Marker = niceTicks{Major: 5}
-	bar.Y.Padding = 0
-
-	return render(DoubleColumnCM, spaceTimeHeightCM, func(dc draw.Canvas) {
-		left := draw.Crop(dc, 0, -cm(colourBarCM), 0, 0)
-		p.Draw(left)
-		da := p.DataCanvas(left)
-		right := draw.Crop(dc, dc.Max.X-dc.Min.X-cm(colourBarCM)+cm(colourBarGapCM), -cm(colourBarGapCM),
-			da.Min.Y-dc.Min.Y, da.Max.Y-dc.Max.Y)
-		bar.Draw(right)
-	})
+	cols := []string{"series", "t_s", "y_um"}
+	if s.Axis.Column() != "" {
+		cols = append(cols, s.Axis.Column())
+	}
+	tab := NewTable(append(cols, s.Quantity.column())...)
+	for i, t := range s.TS {
+		for j, y := range s.YUM {
+			cells := []any{"cell", t, y}
+			if s.Axis.Column() != "" {
+				cells = append(cells, s.Axis.Coord(y, s.GapUM))
+			}
+			tab.Row(append(cells, s.Values[i][j])...)
+		}
+	}
+	for _, tb := range s.PhaseBoundariesS {
+		tab.Row("phase_boundary", tb)
+	}
+	f, err := Compose(DoubleColumnCM, spaceTimeHeightCM, [][]*Panel{{pn}})
+	if err != nil {
+		return nil, err
+	}
+	f.CSV = tab.CSV()
+	return f, nil
 }

@@ -3,9 +3,19 @@ package figure
 import (
 	"math"
 	"strconv"
+	"strings"
 
 	"gonum.org/v1/plot"
 )
+
+// minusSign writes a leading hyphen-minus as the minus sign U+2212, as
+// typeset text has it.
+func minusSign(s string) string {
+	if strings.HasPrefix(s, "-") {
+		return "−" + s[1:]
+	}
+	return s
+}
 
 // niceTicks places about Major labelled ticks at 1, 2 or 5 times a power of
 // ten, with minor ticks between, and labels them with no more decimals than
@@ -51,7 +61,7 @@ func (n niceTicks) Ticks(lo, hi float64) []plot.Tick {
 			if v == 0 {
 				v = 0 // not "-0"
 			}
-			ticks = append(ticks, plot.Tick{Value: v, Label: strconv.FormatFloat(v, 'f', decimals, 64)})
+			ticks = append(ticks, plot.Tick{Value: v, Label: minusSign(strconv.FormatFloat(v, 'f', decimals, 64))})
 		} else {
 			ticks = append(ticks, plot.Tick{Value: v})
 		}
