@@ -25,13 +25,25 @@ import (
 
 // Experiment is one experiment file.
 type Experiment struct {
-	Name     string            `yaml:"name,omitempty"`
-	Geometry geometry.Geometry `yaml:"geometry"`
-	Camera   Camera            `yaml:"camera,omitempty"`
-	Walls    Walls             `yaml:"walls,omitempty"`
-	Motion   []Segment         `yaml:"motion,omitempty"`
-	Tracers  Tracers           `yaml:"tracers,omitempty"`
+	Name string `yaml:"name,omitempty"`
+	// Sample, Operator and Notes are free text for the lab record, copied
+	// into the report (extensions of the contract's file; optional).
+	Sample   string `yaml:"sample,omitempty"`
+	Operator string `yaml:"operator,omitempty"`
+	Notes    string `yaml:"notes,omitempty"`
+	// TemperatureC is the sample's temperature during the run, °C (nil:
+	// not given; an extension of the contract's file).
+	TemperatureC *float64          `yaml:"temperature_c,omitempty"`
+	Geometry     geometry.Geometry `yaml:"geometry"`
+	Camera       Camera            `yaml:"camera,omitempty"`
+	Walls        Walls             `yaml:"walls,omitempty"`
+	Motion       []Segment         `yaml:"motion,omitempty"`
+	Tracers      Tracers           `yaml:"tracers,omitempty"`
 }
+
+// absoluteZeroC is absolute zero in degrees Celsius (the definition of the
+// Celsius scale: 0 K = -273.15 °C, SI Brochure, 9th ed., 2019, 2.3.1).
+const absoluteZeroC = -273.15
 
 // Camera describes the recording.
 type Camera struct {
@@ -162,6 +174,9 @@ func tidyYAMLError(err error) error {
 func (e *Experiment) Validate() error {
 	if err := e.Geometry.Validate(); err != nil {
 		return err
+	}
+	if t := e.TemperatureC; t != nil && !(*t >= absoluteZeroC && !math.IsInf(*t, 0)) {
+		return fmt.Errorf("temperature_c: %g is not a temperature in °C (must be finite and above %g)", *t, absoluteZeroC)
 	}
 	c := e.Camera
 	if c.FPS < 0 || math.IsNaN(c.FPS) {

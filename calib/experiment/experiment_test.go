@@ -81,6 +81,9 @@ func TestParseErrors(t *testing.T) {
 		{"rate and speed together", base + "motion:\n  - start_s: 0\n    end_s: 1\n    rate_per_s: 1\n    wall_speed_um_per_s: 800\n", []string{"motion[0]", "rate_per_s=1", "wall_speed_um_per_s=800"}},
 		{"no rate at all", base + "motion:\n  - start_s: 0\n    end_s: 1\n", []string{"motion[0]", "rate_per_s"}},
 		{"bad target kind", base + "camera:\n  target: {image: t.png, kind: dots, pitch_um: 100}\n", []string{"camera.target.kind", "dots"}},
+		{"temperature below absolute zero", base + "temperature_c: -300\n", []string{"temperature_c", "-300", "-273.15"}},
+		{"temperature not a number", base + "temperature_c: warm\n", []string{"line 4", "warm"}},
+		{"operator not text", base + "operator: [a, b]\n", []string{"line 4"}},
 		{"not yaml", "geometry: [\n", []string{"line"}},
 		{"empty", "", []string{"empty"}},
 	}
@@ -99,6 +102,36 @@ func TestParseErrors(t *testing.T) {
 				t.Errorf("error is not one line: %q", err)
 			}
 		})
+	}
+}
+
+// The lab-record keys are optional, read as written and kept for the
+// report; notes may span lines.
+func TestLabRecordKeys(t *testing.T) {
+	e, err := Parse(strings.NewReader(`name: run 7
+sample: PIB-12 batch C
+operator: A. N. Other
+temperature_c: 0
+notes: |
+  Filled at 09:40.
+  Laser at 20 mW.
+geometry: {kind: plates, gap_um: 500}
+`))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if e.Sample != "PIB-12 batch C" || e.Operator != "A. N. Other" || e.Notes != "Filled at 09:40.\nLaser at 20 mW.\n" {
+		t.Errorf("read sample %q, operator %q, notes %q", e.Sample, e.Operator, e.Notes)
+	}
+	if e.TemperatureC == nil || *e.TemperatureC != 0 {
+		t.Errorf("temperature_c 0 read as %v, want a given 0 °C", e.TemperatureC)
+	}
+	e, err = Parse(strings.NewReader("geometry: {kind: plates, gap_um: 500}\n"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if e.TemperatureC != nil || e.Sample != "" {
+		t.Errorf("absent keys read as temperature %v, sample %q", e.TemperatureC, e.Sample)
 	}
 }
 

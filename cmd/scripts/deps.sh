@@ -1,8 +1,9 @@
 #!/usr/bin/env bash
 # Installs what gaptrace needs to build and test, when it is missing:
 # OpenCV 4 development files (for gocv), and, with --test, ffmpeg (for the
-# throughput benchmark), Chromium (to render the report in a test), and
-# Slurm with munge (the batch test starts a one-node cluster of its own).
+# throughput benchmark), Chromium (to render the report in a test),
+# poppler-utils (an independent reader of the figures' PDF files in a test),
+# and Slurm with munge (the batch test starts a one-node cluster of its own).
 set -euo pipefail
 want_test=0
 [ "${1:-}" = "--test" ] && want_test=1
@@ -20,6 +21,7 @@ if [ "$want_test" = 1 ]; then
   # slurm-wlm brings slurmctld, slurmd and the client commands (sbatch).
   have slurmctld && have slurmd && have sbatch || apt_pkgs+=(slurm-wlm)
   have munged || apt_pkgs+=(munge)
+  command -v pdfinfo >/dev/null || apt_pkgs+=(poppler-utils)
 fi
 [ ${#apt_pkgs[@]} -eq 0 ] && exit 0
 
@@ -28,12 +30,12 @@ Linux)
   if command -v apt-get >/dev/null; then
     echo "deps: installing ${apt_pkgs[*]}" >&2
     sudo_ apt-get update -qq
-    # Chromium is only for the report test, which skips without it.
+    # Chromium and poppler are only for report tests, which skip without them.
     core=(); opt=()
-    for p in "${apt_pkgs[@]}"; do [ "$p" = chromium ] && opt+=("$p") || core+=("$p"); done
+    for p in "${apt_pkgs[@]}"; do case "$p" in chromium|poppler-utils) opt+=("$p") ;; *) core+=("$p") ;; esac; done
     [ ${#core[@]} -gt 0 ] && sudo_ env DEBIAN_FRONTEND=noninteractive apt-get install -y -qq --no-install-recommends "${core[@]}" >/dev/null
     [ ${#opt[@]} -gt 0 ] && { sudo_ env DEBIAN_FRONTEND=noninteractive apt-get install -y -qq --no-install-recommends "${opt[@]}" >/dev/null ||
-      echo "deps: could not install chromium; the report rendering test will be skipped" >&2; }
+      echo "deps: could not install ${opt[*]}; the report tests that need them will be skipped" >&2; }
   else
     echo "deps: please install OpenCV 4.6 development files (pkg-config name opencv4) and ffmpeg" >&2; exit 1
   fi ;;

@@ -41,20 +41,24 @@ func FromAnalysis(s *summary.Summary, e *experiment.Experiment, r *profile.Resul
 		gapUM = e.Geometry.Gap()
 	}
 	bounds := phaseBoundaries(s.Phases)
+	axis := gapAxis(e)
 
 	for i := range s.ShearPhases {
 		var pp *figure.PhaseProfile
 		if i < len(r.Shear) {
 			pp = phaseProfile(&r.Shear[i], &s.ShearPhases[i], gapUM, e)
+			if pp != nil {
+				pp.Axis = axis
+			}
 		}
 		d.Profiles = append(d.Profiles, pp)
 	}
 
 	if m := r.Map; len(m.TS) >= 2 && len(m.YUM) >= 2 {
 		d.SpaceTime = &figure.SpaceTime{TS: m.TS, YUM: m.YUM, Values: m.VUMPerS, Quantity: figure.LocalVelocity,
-			GapUM: gapUM, PhaseBoundariesS: bounds}
+			GapUM: gapUM, PhaseBoundariesS: bounds, Axis: axis}
 		d.RateMap = &figure.SpaceTime{TS: m.TS, YUM: m.YUM, Values: m.RatePerS, Quantity: figure.LocalRate,
-			GapUM: gapUM, PhaseBoundariesS: bounds}
+			GapUM: gapUM, PhaseBoundariesS: bounds, Axis: axis}
 	}
 
 	slip := &figure.SlipSeries{PhaseBoundariesS: bounds}
@@ -82,8 +86,21 @@ func FromAnalysis(s *summary.Summary, e *experiment.Experiment, r *profile.Resul
 
 	if c := r.Cessation; c != nil && s.AfterStop != nil {
 		d.AfterStop = afterStop(c, s.AfterStop, gapUM)
+		if d.AfterStop != nil {
+			d.AfterStop.Axis = axis
+		}
 	}
 	return d
+}
+
+// gapAxis is how the figures draw the position across the gap of e's
+// tool: the radial position from the inner cylinder in a Couette cell,
+// the height above the stationary wall otherwise.
+func gapAxis(e *experiment.Experiment) figure.GapAxis {
+	if e == nil || e.Geometry.Kind != geometry.Couette {
+		return figure.GapAxis{}
+	}
+	return figure.GapAxis{Radial: true, InnerMoving: e.Geometry.Rotating != geometry.OuterRotates}
 }
 
 // phaseBoundaries are the times at which the time line changes phase.

@@ -45,6 +45,9 @@ type Data struct {
 	// Cautions are run-specific limits of the measurement, added to the
 	// report's general cautions.
 	Cautions []string
+	// Record is the lab record: the input's digest, the command line, when
+	// (optional).
+	Record *Record
 }
 
 // check reports the first thing that makes d impossible to report.

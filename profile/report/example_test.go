@@ -36,9 +36,15 @@ func ExampleWrite() {
 	// Output:
 	// figure_profile_1.png
 	// figure_profile_1.svg
+	// figure_profile_1.pdf
+	// figure_profile_1.csv
 	// figure_slip.png
 	// figure_slip.svg
+	// figure_slip.pdf
+	// figure_slip.csv
 	// figure_after_stop.png
 	// figure_after_stop.svg
+	// figure_after_stop.pdf
+	// figure_after_stop.csv
 	// report.html
 }

@@ -9,25 +9,29 @@ import (
 	"gaptrace/profile/summary"
 )
 
+// nan is the unknown float64.
+var nan = math.NaN()
+
 // Unknown is how the report prints a number that was not determined.
 const Unknown = "not determined"
 
+// Numbers with an uncertainty follow one rule in every text, table and
+// caption of the report: the uncertainty is rounded to uncertaintyDigits
+// significant digits and the value to the same decimal place. The GUM
+// (JCGM 100:2008, 7.2.6; from memory) says two significant digits of a
+// standard uncertainty usually suffice.
+const uncertaintyDigits = 2
+
 // errorDecimals returns the number of decimals (negative: tens, hundreds)
-// to which an uncertainty e > 0
-// and its value are rounded, by the rule of the Particle Data Group (Review
-// of Particle Physics, introduction, "Rounding"; from memory): take the
-// three leading digits of e; from 100 to 354 keep two significant digits,
-// from 355 to 949 one, from 950 up round e up to 1000 and keep two.
+// to which an uncertainty e > 0 and its value are rounded: those that keep
+// uncertaintyDigits significant digits of e, after rounding (0.0996 is
+// 0.10, not 0.100).
 func errorDecimals(e float64) int {
-	n := int(math.Floor(math.Log10(e)))
-	lead := math.Round(e / math.Pow(10, float64(n-2)))
-	if lead >= 1000 { // e rounded up into the next decade
-		n, lead = n+1, 100
+	d := uncertaintyDigits - 1 - int(math.Floor(math.Log10(e)))
+	if math.Round(e*math.Pow(10, float64(d))) >= math.Pow(10, uncertaintyDigits) {
+		d--
 	}
-	if lead <= 354 {
-		return 1 - n
-	}
-	return -n // one digit; or 950..999, where e is 10^(n+1) shown with two digits
+	return d
 }
 
 // fixed prints v rounded to d decimals; a negative d rounds to tens,
@@ -62,7 +66,7 @@ func formatValue(v float64, unit string) string {
 	if !known(v) {
 		return Unknown
 	}
-	return withUnit(strconv.FormatFloat(v, 'f', decimalsFor(v, valueDigits), 64), unit)
+	return withUnit(minus(strconv.FormatFloat(v, 'f', decimalsFor(v, valueDigits), 64)), unit)
 }
 
 // formatPM prints "v ± e unit" with e rounded by errorDecimals and v to the
@@ -80,7 +84,16 @@ func formatPM(v, e float64, unit string) string {
 	if strings.Trim(vs, "-0.") == "" {
 		vs = strings.TrimPrefix(vs, "-") // no "-0.0"
 	}
-	return withUnit(vs+" ± "+fixed(e, d), unit)
+	return withUnit(minus(vs)+" ± "+fixed(e, d), unit)
+}
+
+// minus writes a leading hyphen-minus as the minus sign U+2212, as
+// typeset text has it.
+func minus(s string) string {
+	if strings.HasPrefix(s, "-") {
+		return "−" + s[1:]
+	}
+	return s
 }
 
 func withUnit(s, unit string) string {
@@ -117,4 +130,23 @@ func formatTime(tS float64) string {
 // formatSpan prints a time interval.
 func formatSpan(t0, t1 float64) string {
 	return fmt.Sprintf("%s – %s", strings.TrimSuffix(formatTime(t0), " s"), formatTime(t1))
+}
+
+// roundUp rounds v > 0 up to uncertaintyDigits significant digits, as an
+// upper limit is rounded: never below what the data exclude.
+func roundUp(v float64) (float64, int) {
+	d := errorDecimals(v)
+	p := math.Pow(10, float64(d))
+	// upSlack keeps a value already on the grid (0.3 from 0.30000000000000004) from rising a step.
+	const upSlack = 1e-9
+	return math.Ceil(v*p-upSlack) / p, d
+}
+
+// formatLimit prints an upper limit v > 0, rounded up.
+func formatLimit(v float64, unit string) string {
+	if !known(v) || v <= 0 {
+		return Unknown
+	}
+	r, d := roundUp(v)
+	return withUnit(fixed(r, d), unit)
 }

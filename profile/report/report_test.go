@@ -2,6 +2,7 @@ package report_test
 
 import (
 	"bytes"
+	"encoding/csv"
 	"encoding/xml"
 	"errors"
 	"image/png"
@@ -13,6 +14,7 @@ import (
 	"slices"
 	"strings"
 	"testing"
+	"time"
 
 	"gaptrace/profile/report"
 	"gaptrace/profile/report/figure"
@@ -39,6 +41,12 @@ func fullData(t testing.TB) *report.Data {
 		OverlayWindowS: [2]float64{1.945, 2.0},
 		Detection:      scenario.Detection(),
 		Cautions:       []string{"The top 40 µm of the gap were in the shadow of the moving plate's chamfer."},
+		Record: &report.Record{
+			Input:       &report.Digest{Bytes: 123456789, SHA256: strings.Repeat("0123456789abcdef", 4), Files: 1},
+			CommandLine: []string{"gaptrace", "run", "-e", "k3.yaml", "-o", "out dir", "runs/k3-slide-04.avi"},
+			WorkDir:     "~/k3-runs",
+			AnalysedAt:  time.Date(2026, 3, 4, 10, 20, 30, 0, time.UTC),
+		},
 	}
 }
 
@@ -56,7 +64,7 @@ func TestWriteAllFiles(t *testing.T) {
 	}
 	var want []string
 	for _, s := range figureStems {
-		want = append(want, s+".png", s+".svg")
+		want = append(want, s+".png", s+".svg", s+".pdf", s+".csv")
 	}
 	want = append(want, report.FileName)
 	if !slices.Equal(names, want) {
@@ -101,7 +109,25 @@ func TestWriteAllFiles(t *testing.T) {
 		if err := parsesAsXML(svg); err != nil {
 			t.Errorf("%s.svg is not XML: %v", s, err)
 		}
+		pdf, err := os.ReadFile(filepath.Join(dir, s+".pdf"))
+		if err != nil {
+			t.Fatal(err)
+		}
+		if !bytes.HasPrefix(pdf, []byte("%PDF-")) || !bytes.Contains(pdf[max(0, len(pdf)-64):], []byte("%%EOF")) {
+			t.Errorf("%s.pdf is not a complete PDF file", s)
+		}
+		rows, err := csv.NewReader(bytes.NewReader(must(os.ReadFile(filepath.Join(dir, s+".csv"))))).ReadAll()
+		if err != nil || len(rows) < 2 {
+			t.Errorf("%s.csv: %d rows, %v", s, len(rows), err)
+		}
 	}
+}
+
+func must[T any](v T, err error) T {
+	if err != nil {
+		panic(err)
+	}
+	return v
 }
 
 func parsesAsXML(b []byte) error {
@@ -172,21 +198,30 @@ func TestSelfContained(t *testing.T) {
 func TestContentInWords(t *testing.T) {
 	_, html := writeReport(t, fullData(t))
 	for _, want := range []string{
-		// Verdicts with numbers and uncertainties, as computed from scenario.Summary.
-		"Wall slip at the moving wall: 300 ± 9 µm/s, 25.0 ± 0.8 % of the wall speed",
-		"Wall slip at the stationary wall: 50 ± 6 µm/s",
+		// Verdicts with numbers and uncertainties, as computed from
+		// scenario.Summary: uncertainties to two significant digits, values to match.
+		"Wall slip at the moving wall: 300.0 ± 9.4 µm/s, 25.00 ± 0.78 % of the wall speed",
+		"Wall slip at the stationary wall: 50.0 ± 6.1 µm/s, 4.17 ± 0.51 % of the wall speed",
 		"Navier slip length 20.0 ± 3.4 µm.", "<td class=\"num\">20.0 ± 3.4 / 1500 ± 21</td>",
-		"Bulk shear rate 1.062 ± 0.012 1/s against a nominal 1.50 1/s",
+		"Bulk shear rate 1.062 ± 0.012 s⁻¹ against a nominal 1.50 s⁻¹; wall speed 1200 µm/s;",
 		"split into 2 shear bands",
-		"band 1 from 0 to 300 ± 11 µm at 2.50 ± 0.04 1/s",
+		"band 1 from 0 to 300 ± 11 µm at 2.500 ± 0.040 s⁻¹",
+		"<th>bulk rate (s⁻¹)</th>", "<th>local rate (s⁻¹)</th>",
 		"failed along a plane inside the gap at 520 µm",
 		"began 0.15 s after the stop",
 		// Calibration and experiment.
 		"2.00 µm/px (from the gap over the wall distance in pixels)", "<td>plates</td>",
-		"<td class=\"num\">0.5 – 2.5 s</td><td class=\"num\">1200</td><td class=\"num\">1.50</td><td class=\"num\">3.00</td>", "0.230 °", "wall_speed_um_per_s: 1200",
-		// Warnings and cautions, general and of the run.
+		"<td class=\"num\">0.5 – 2.5 s</td><td class=\"num\">wall_speed_um_per_s: 1200</td><td class=\"num\">1200</td><td class=\"num\">1.50</td><td class=\"num\">3.00</td>",
+		"0.230 °", "Nominal rate: the moving plate&#39;s speed over the gap",
+		// Warnings and cautions, general, of the geometry and of the run.
 		"12 tracks crossed the moving wall line", "meniscus", "out of the image plane", "Laser",
-		"rotate", "hot", "licensed practice prevail", "shadow of the moving plate",
+		"Sliding-plate drives push with large force", "your qualified safety staff prevail", "shadow of the moving plate",
+		// The lab record.
+		"<td class=\"wrapall\">K-3 soft gel, batch 2 (made up)</td>", "<td class=\"wrapall\">23.5 °C</td>",
+		"<td class=\"wrapall\">course demonstrator</td>", "Loaded with a spatula, trimmed flush with the plates.\nLight sheet at low power.",
+		"123456789 bytes (118 MiB)", strings.Repeat("0123456789abcdef", 4),
+		"gaptrace run -e k3.yaml -o &#39;out dir&#39; runs/k3-slide-04.avi", "2026-03-04 10:20:30 UTC", "gaptrace 0.1.0",
+		"SVG and PDF, with the data it plots as CSV",
 	} {
 		if !strings.Contains(html, want) {
 			t.Errorf("report.html lacks %q", want)
@@ -211,10 +246,10 @@ func TestUnknownNumbers(t *testing.T) {
 		}
 	}
 	for _, want := range []string{
-		"Wall slip at the moving wall: not determined; Navier slip length not determined.",
+		"Wall slip at the moving wall: not determined.",
 		"failed along a plane inside the gap at not determined",
 		"The onset of the motion was not determined.",
-		"Bulk shear rate 1.06 1/s",
+		"Bulk shear rate 1.06 s⁻¹",
 		"<td>not determined</td>", // the tilt
 	} {
 		if !strings.Contains(html, want) {

@@ -55,6 +55,9 @@ table.kv th { font-weight: normal; color: var(--muted); width: 15em; background:
 .cols { display: grid; grid-template-columns: repeat(2, minmax(0, 1fr)); gap: 8px 36px; }
 pre { background: var(--band); border: 1px solid var(--rule); border-radius: 4px; padding: 12px 14px; font-size: .82rem; overflow-x: auto; line-height: 1.35; }
 .cautions li { margin: 0 0 7px; }
+.note { font-size: .86rem; color: var(--muted); max-width: 46em; }
+.wrapall { overflow-wrap: anywhere; font-variant-numeric: tabular-nums; }
+pre.notes { white-space: pre-wrap; font-family: inherit; font-size: .9rem; }
 footer { border-top: 1px solid var(--rule); margin-top: 30px; padding: 14px 0 30px; color: var(--muted); font-size: .82rem; }
 @media (max-width: 760px) { .figs, .cols { grid-template-columns: 1fr; } }
 @media print { header { background: none; color: var(--ink); } header .meta, header .kicker { color: var(--muted); } nav { display: none; } figure { break-inside: avoid; } }
@@ -67,7 +70,7 @@ footer { border-top: 1px solid var(--rule); margin-top: 30px; padding: 14px 0 30
 <p class="meta">{{.Tool}} · {{range $i, $r := .Input}}{{if $i}} · {{end}}{{index $r 0}}: {{index $r 1}}{{end}}</p>
 </div></header>
 <nav><div class="wrap">
-<a href="#findings">Findings</a><a href="#warnings">Warnings</a><a href="#figures">Figures</a><a href="#tables">Tables</a><a href="#experiment">Experiment and calibration</a><a href="#cautions">Cautions</a>
+<a href="#findings">Findings</a><a href="#warnings">Warnings</a><a href="#figures">Figures</a><a href="#tables">Tables</a><a href="#experiment">Experiment and calibration</a><a href="#record">Lab record</a><a href="#cautions">Cautions</a>
 </div></nav>
 <main class="wrap">
 
@@ -78,7 +81,7 @@ footer { border-top: 1px solid var(--rule); margin-top: 30px; padding: 14px 0 30
 <ul>{{range .Lines}}<li>{{.}}</li>{{end}}</ul>
 </div>
 {{else}}<p class="none">The run holds no shear phase and no time after a stop: there is nothing to report on the flow.</p>
-{{end}}<p class="none">Uncertainties are one standard error.</p>
+{{end}}<p class="none">Uncertainties are one standard uncertainty, rounded to two significant digits, with the value to the same digit. A wall without detected slip gets an upper limit instead.</p>
 </section>
 
 <section id="warnings">
@@ -91,7 +94,7 @@ footer { border-top: 1px solid var(--rule); margin-top: 30px; padding: 14px 0 30
 <div class="figs">
 {{range .Figures}}<figure class="{{if .Wide}}wide{{else}}single{{end}}" id="{{.Stem}}">
 <img src="{{.DataURI}}" alt="{{.Title}}">
-<figcaption><b>Figure {{.Number}}. {{.Title}}.</b> {{.Caption}} <span class="file">Files: {{.Stem}}.png, {{.Stem}}.svg.</span></figcaption>
+<figcaption><b>Figure {{.Number}}. {{.Title}}.</b> {{.Caption}} <span class="file">Files: {{.Stem}}.png, {{.Stem}}.svg, {{.Stem}}.pdf; plotted data {{.Stem}}.csv.</span></figcaption>
 </figure>
 {{end}}</div>
 {{if .Failed}}<p class="none">Could not be drawn (see the warnings): {{range $i, $n := .Failed}}{{if $i}}; {{end}}{{$n}}{{end}}.</p>{{end}}
@@ -107,7 +110,7 @@ footer { border-top: 1px solid var(--rule); margin-top: 30px; padding: 14px 0 30
 </table></div>{{else}}<p class="none">No shear phase.</p>{{end}}
 <h3>Shear bands</h3>
 {{if .Bands}}<table>
-<thead><tr><th>phase</th><th>band</th><th>from (µm)</th><th>to (µm)</th><th>local rate (1/s)</th></tr></thead>
+<thead><tr><th>phase</th><th>band</th><th>from (µm)</th><th>to (µm)</th><th>local rate (s⁻¹)</th></tr></thead>
 <tbody>{{range .Bands}}<tr>{{range .}}<td class="num">{{.}}</td>{{end}}</tr>{{end}}</tbody>
 </table>
 <p class="none">Bands are counted from the stationary wall up; a phase with one band has none.</p>{{else}}<p class="none">No bands.</p>{{end}}
@@ -143,21 +146,32 @@ footer { border-top: 1px solid var(--rule); margin-top: 30px; padding: 14px 0 30
 <div>
 <h3>Imposed motion</h3>
 {{if .Program}}<table>
-<thead><tr><th>step</th><th>time</th><th>wall speed (µm/s)</th><th>nominal rate (1/s)</th><th>nominal strain</th></tr></thead>
+<thead><tr><th>step</th><th>time</th><th>as given</th><th>wall speed (µm/s)</th><th>nominal rate (s⁻¹)</th><th>nominal strain</th></tr></thead>
 <tbody>{{range .Program}}<tr>{{range .}}<td class="num">{{.}}</td>{{end}}</tr>{{end}}</tbody>
-</table>{{else}}<p class="none">No motion program in the experiment file.</p>{{end}}
+</table>
+{{if .Convention}}<p class="note">{{.Convention}}</p>{{end}}{{else}}<p class="none">No motion program in the experiment file.</p>{{end}}
 </div>
 </div>
 {{end}}<h3>Experiment file</h3>
 {{if .YAML}}<pre>{{.YAML}}</pre>{{else}}<p class="none">Not given.</p>{{end}}
 </section>
 
+<section id="record">
+<h2>Lab record</h2>
+<table class="kv"><tbody>{{range .Record}}<tr><th>{{index . 0}}</th><td class="wrapall">{{index . 1}}</td></tr>{{end}}</tbody></table>
+{{if .Notes}}<h3>Notes</h3>
+<pre class="notes">{{.Notes}}</pre>{{end}}
+</section>
+
 <section id="cautions">
 <h2>Cautions</h2>
-<ul class="cautions">{{range .Cautions}}<li>{{.}}</li>{{end}}</ul>
+<h3>What the measurement cannot see</h3>
+<ul class="cautions">{{range .Limits}}<li>{{.}}</li>{{end}}</ul>
+<h3>Safety</h3>
+<ul class="cautions">{{range .Safety}}<li>{{.}}</li>{{end}}</ul>
 </section>
 </main>
-<footer><div class="wrap">Made by {{.Tool}}. Figures are also written beside this page as PNG (300 dpi) and SVG files.</div></footer>
+<footer><div class="wrap">Made by {{.Tool}}. Each figure is also written beside this page as PNG ({{.DPI}} dpi), SVG and PDF, with the data it plots as CSV.</div></footer>
 <script>
 window.addEventListener("load", function () {
   var imgs = document.images, ok = 0;

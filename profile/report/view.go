@@ -6,28 +6,35 @@ import (
 
 	"gaptrace/calib/geometry"
 	"gaptrace/profile/phases"
+	"gaptrace/profile/report/figure"
 	"gaptrace/profile/summary"
 )
 
 // view is what the page template shows, every number already in words.
 type view struct {
 	Name, Tool, YAML string
-	Input            [][2]string
-	Calibration      [][2]string
-	Geometry         [][2]string
-	Program          [][]string
-	Tracking         [][2]string
-	Findings         []finding
-	Phases           [][]string
-	ShearHead        []string
-	Shear            [][]string
-	Bands            [][]string
-	AfterStop        [][2]string
-	Figures          []numberedFigure
-	NotShown         []string
-	Failed           []string
-	Warnings         []string
-	Cautions         []string
+	// Record is the lab record (sample, operator, input digest, command);
+	// Notes the experiment file's notes, kept as written.
+	Record         [][2]string
+	Notes          string
+	Input          [][2]string
+	Calibration    [][2]string
+	Geometry       [][2]string
+	Program        [][]string
+	Convention     string
+	Tracking       [][2]string
+	Findings       []finding
+	Phases         [][]string
+	ShearHead      []string
+	Shear          [][]string
+	Bands          [][]string
+	AfterStop      [][2]string
+	Figures        []numberedFigure
+	NotShown       []string
+	Failed         []string
+	Warnings       []string
+	Limits, Safety []string
+	DPI            int
 }
 
 type finding struct {
@@ -41,23 +48,6 @@ type numberedFigure struct {
 	Number int
 }
 
-// generalCautions are the limits of the measurement and the safety notes
-// every report carries.
-var generalCautions = []string{
-	"The camera sees one plane near the free edge of the sample. The meniscus, edge effects and edge fracture " +
-		"can make the flow there differ from the flow inside the gap; a profile measured at the edge is not " +
-		"proof of the flow in the bulk of the sample.",
-	"Tracers that leave the focal plane, and motion out of the image plane (secondary flow, sample " +
-		"expulsion), are not measured; they show only as shorter tracks and missing cells.",
-	"The uncertainties are statistical (the scatter of tracer displacements and of whole tracks); errors of " +
-		"the scale, of the wall positions and of the frame timing come on top.",
-	"Laser light sheets and illuminators can injure the eye: follow the laser class of the source, use the " +
-		"eyewear and enclosures it requires, and never look into the beam or its reflections off the tools.",
-	"Rheometer tools rotate with force and the samples may be hot: keep hands, hair and cameras clear of moving " +
-		"parts, and handle heated tools and samples with protection.",
-	"Local rules, the instrument maker's instructions and licensed practice prevail over anything in this report.",
-}
-
 func newView(d *Data, figs []shownFigure, notShown []string) *view {
 	s := d.Summary
 	v := &view{
@@ -66,8 +56,11 @@ func newView(d *Data, figs []shownFigure, notShown []string) *view {
 		YAML:     d.ExperimentYAML,
 		NotShown: notShown,
 		Warnings: s.Warnings,
-		Cautions: append(append([]string{}, d.Cautions...), generalCautions...),
+		Limits:   append(append([]string{}, d.Cautions...), measurementCautions(d.Experiment)...),
+		Safety:   safetyCautions(d.Experiment),
+		DPI:      figure.DPI,
 	}
+	v.Record, v.Notes = labRecord(d)
 	in := s.Input
 	v.Input = [][2]string{
 		{"input", orUnknown(in.Path)},
@@ -103,9 +96,14 @@ func newView(d *Data, figs []shownFigure, notShown []string) *view {
 				[2]string{"outer radius", formatValue(g.OuterRadiusMM, "mm")}, [2]string{"rotating cylinder", rot})
 		}
 		for i, st := range e.Program() {
-			v.Program = append(v.Program, []string{strconv.Itoa(i + 1), formatSpan(st.StartS, st.EndS),
+			as := ""
+			if i < len(e.Motion) {
+				as = givenAs(e.Motion[i])
+			}
+			v.Program = append(v.Program, []string{strconv.Itoa(i + 1), formatSpan(st.StartS, st.EndS), orUnknown(as),
 				formatValue(st.WallSpeedUMPerS, ""), formatValue(st.RatePerS, ""), formatValue(st.Strain, "")})
 		}
+		v.Convention = rateConventionNote(g)
 	}
 	v.Tracking = [][2]string{
 		{"detections", strconv.Itoa(s.Tracking.Detections)},
@@ -114,7 +112,11 @@ func newView(d *Data, figs []shownFigure, notShown []string) *view {
 	}
 	for i := range s.ShearPhases {
 		sp := &s.ShearPhases[i]
-		h, ls := phaseFindings(i, sp)
+		conv, mean := "", nan
+		if e := d.Experiment; e != nil {
+			conv, mean = rateConvention(e.Geometry), meanRate(e.Geometry, num(sp.WallSpeedUMPerS))
+		}
+		h, ls := phaseFindings(i, sp, conv, mean)
 		v.Findings = append(v.Findings, finding{h, ls, sp.Verdict == summary.Homogeneous})
 	}
 	if a := s.AfterStop; a != nil {
@@ -124,7 +126,7 @@ func newView(d *Data, figs []shownFigure, notShown []string) *view {
 	for _, p := range s.Phases {
 		v.Phases = append(v.Phases, []string{phaseKind(p.Kind), formatTime(p.StartS), formatTime(p.EndS), p.Source})
 	}
-	v.ShearHead = []string{"phase", "time", "analysed", "wall speed (µm/s)", "nominal rate (1/s)", "bulk rate (1/s)",
+	v.ShearHead = []string{"phase", "time", "analysed", "wall speed (µm/s)", "nominal rate (s⁻¹)", "bulk rate (s⁻¹)",
 		"slip, stationary wall (µm/s)", "slip, moving wall (µm/s)", "slip length, stationary / moving (µm)",
 		"slip share of the motion", "verdict"}
 	for i, sp := range s.ShearPhases {
@@ -169,6 +171,50 @@ func newView(d *Data, figs []shownFigure, notShown []string) *view {
 		v.Figures = append(v.Figures, numberedFigure{f, i + 1})
 	}
 	return v
+}
+
+// labRecord is the lab record's rows and the experiment's notes.
+func labRecord(d *Data) ([][2]string, string) {
+	var rows [][2]string
+	add := func(k, v string) {
+		if v != "" {
+			rows = append(rows, [2]string{k, v})
+		}
+	}
+	notes := ""
+	if e := d.Experiment; e != nil {
+		add("sample", e.Sample)
+		if e.TemperatureC != nil {
+			add("temperature", formatValue(*e.TemperatureC, "°C"))
+		}
+		add("operator", e.Operator)
+		notes = e.Notes
+	}
+	s := d.Summary
+	add("input", s.Input.Path)
+	if r := d.Record; r != nil {
+		if in := r.Input; in != nil {
+			size := byteSize(in.Bytes)
+			if in.Files > 1 {
+				size += fmt.Sprintf(" in %d frame files", in.Files)
+			}
+			add("input size", size)
+			sha := in.SHA256
+			if in.Files > 1 {
+				sha += " (of the list of the frame files' SHA-256 digests in name order, as sha256sum prints it)"
+			}
+			add("input SHA-256", sha)
+		}
+		if len(r.CommandLine) > 0 {
+			add("command", commandLine(r.CommandLine))
+		}
+		add("working folder", r.WorkDir)
+		if !r.AnalysedAt.IsZero() {
+			add("analysed", r.AnalysedAt.Format("2006-01-02 15:04:05 MST"))
+		}
+	}
+	add("tool", s.Tool.Name+" "+s.Tool.Version)
+	return rows, notes
 }
 
 func orUnknown(s string) string {
@@ -216,6 +262,8 @@ func verdictWords(v string) string {
 		return "shear bands"
 	case summary.WallSlipBanded:
 		return "wall slip and shear bands"
+	case inconclusive:
+		return "inconclusive"
 	}
 	return orUnknown(v)
 }

@@ -17,7 +17,8 @@ import (
 // FileName is the name of the report page in the output folder.
 const FileName = "report.html"
 
-// Figure file stems; each is written as stem.png and stem.svg.
+// Figure file stems; each is written as stem.png, stem.svg and stem.pdf,
+// with its plotted data in stem.csv.
 const (
 	profileStem   = "figure_profile_" // + shear phase number
 	spaceTimeStem = "figure_space_time"
@@ -44,8 +45,8 @@ func (f shownFigure) DataURI() template.URL {
 }
 
 // Write renders the figures of d and the report page into dir, which must
-// exist: each figure as PNG and SVG, then report.html with the figures
-// embedded. Every file is written under a temporary name and renamed when
+// exist: each figure as PNG, SVG and PDF with its data as CSV, then
+// report.html with the figures embedded. Every file is written under a temporary name and renamed when
 // complete. It returns the names of the files written, relative to dir,
 // report.html last.
 //
@@ -67,7 +68,7 @@ func Write(dir string, d *Data) ([]string, error) {
 		for _, part := range []struct {
 			ext string
 			b   []byte
-		}{{".png", f.fig.PNG}, {".svg", f.fig.SVG}} {
+		}{{".png", f.fig.PNG}, {".svg", f.fig.SVG}, {".pdf", f.fig.PDF}, {".csv", f.fig.CSV}} {
 			name := f.Stem + part.ext
 			if err := atomicfile.WriteBytes(filepath.Join(dir, name), part.b); err != nil {
 				return names, fmt.Errorf("report: %w", err)
@@ -104,12 +105,13 @@ func renderFigures(d *Data) (figs []shownFigure, notShown, failed []string) {
 		}
 		sp, pp := &s.ShearPhases[i], d.Profiles[i]
 		caption := fmt.Sprintf("Steady velocity across the gap in shear phase %d, averaged over %s: velocity v over the "+
-			"wall speed V = %s against the height y over the gap H = %s (y = 0 at the stationary wall). Points: mean "+
-			"of each gap bin, bars one standard error; dashed line: the fitted profile (slip at each wall plus a "+
-			"uniform rate in each band); dotted line: the profile without slip; thick lines: the walls.",
-			i+1, formatSpan(sp.WindowS[0], sp.WindowS[1]), formatValue(pp.WallSpeedUMPerS, unitSpeed), formatValue(pp.GapUM, unitLen))
+			"wall speed V = %s against %s over the gap H = %s. Points: mean "+
+			"of each gap layer, bars one standard uncertainty; dashed line: the fitted profile (slip at each wall plus a "+
+			"uniform rate in each band); dotted line: the profile without slip; heavy sides of the frame: the walls (%s).",
+			i+1, formatSpan(sp.WindowS[0], sp.WindowS[1]), formatValue(pp.WallSpeedUMPerS, unitSpeed), pp.Axis.Words(),
+			formatValue(pp.GapUM, unitLen), wallSides(pp.Axis))
 		if len(pp.Bands) > 1 {
-			caption += " Shading: the shear bands, each labelled with its local rate."
+			caption += " Shading: the shear bands, with the local rate of each above the frame."
 		}
 		add(fmt.Sprintf("%s%d", profileStem, i+1), title, caption, false,
 			func() (*figure.Figure, error) { return figure.ProfilePlot(pp) })
@@ -123,37 +125,33 @@ func renderFigures(d *Data) (figs []shownFigure, notShown, failed []string) {
 	}
 	for _, o := range []optional{
 		{d.Slip != nil && len(d.Slip.Points) > 0, slipStem, "Wall slip and bulk rate", func() string {
-			return "Top: slip velocity at the stationary wall (fluid speed there) and at the moving wall (wall speed " +
-				"minus fluid speed there) in each time window, bars one standard error. Bottom: shear rate of the bulk " +
+			return "(a) Slip velocity at the stationary wall (fluid speed there) and at the moving wall (wall speed " +
+				"minus fluid speed there) in each time window, bars one standard uncertainty. (b) Shear rate of the bulk " +
 				"and the nominal rate of the imposed motion. Dashed lines: changes of the imposed motion."
 		}, false, func() (*figure.Figure, error) { return figure.SlipPlot(d.Slip) }},
 		{d.AfterStop != nil && len(d.AfterStop.Profiles) > 0, afterStopStem, "Displacement after the stop", func() string {
-			c := "Displacement along the flow since cessation against the height in the gap, at several times after " +
-				"the stop (legend), bars one standard error; lines: the fitted model of elastic recovery (a uniform " +
-				"strain) plus a jump; grey strip: the noise floor."
+			c := "Displacement along the flow since cessation against " + d.AfterStop.Axis.Words() + ", at several times after " +
+				"the stop (legend), bars one standard uncertainty; lines: the fitted model of elastic recovery (a uniform " +
+				"strain) plus a jump; grey strip: the noise floor; heavy sides of the frame: the walls (" + wallSides(d.AfterStop.Axis) + ")."
 			if known(d.AfterStop.PlaneUM) {
 				c += fmt.Sprintf(" Dash-dotted line: the failure plane at %s.", formatValue(d.AfterStop.PlaneUM, unitLen))
 			}
 			return c
 		}, false, func() (*figure.Figure, error) { return figure.AfterStopPlot(d.AfterStop) }},
 		{d.SpaceTime != nil, spaceTimeStem, mapTitle(d.SpaceTime, figure.LocalVelocity), func() string {
-			return fmt.Sprintf("The %s across the gap through the whole run, from the stationary wall (y = 0) to the "+
-				"moving wall; each cell is one time window and gap bin; white cells had too few tracers for a value. Dashed lines: "+
-				"changes of the imposed motion.", d.SpaceTime.Quantity.Noun())
+			return mapCaption(d.SpaceTime)
 		}, true, func() (*figure.Figure, error) { return figure.SpaceTimePlot(d.SpaceTime) }},
 		{d.RateMap != nil, rateMapStem, mapTitle(d.RateMap, figure.LocalRate), func() string {
-			return fmt.Sprintf("The %s across the gap through the whole run, from the stationary wall (y = 0) to the "+
-				"moving wall; each cell is one time window and gap bin; white cells had too few tracers for a value. Dashed lines: "+
-				"changes of the imposed motion.", d.RateMap.Quantity.Noun())
+			return mapCaption(d.RateMap)
 		}, true, func() (*figure.Figure, error) { return figure.SpaceTimePlot(d.RateMap) }},
 		{d.Overlay != nil, frameStem, "Frame with walls, gap axes and tracks", func() string {
 			return fmt.Sprintf("The frame at %s with the walls found by the calibration, the gap axes (x along the "+
-				"flow, y across the gap, ticks in µm), a scale bar, and the tracks of %s drawn over it (dot: the "+
-				"latest position).", formatTime(d.OverlayFrameS), formatSpan(d.OverlayWindowS[0], d.OverlayWindowS[1]))
+				"flow, y across the gap from the stationary wall, ticks in µm), a scale bar, and the tracks of %s drawn over it as "+
+				"vector marks (dot: the latest position).", formatTime(d.OverlayFrameS), formatSpan(d.OverlayWindowS[0], d.OverlayWindowS[1]))
 		}, true, func() (*figure.Figure, error) { return figure.OverlayPlot(d.Overlay) }},
 		{d.Detection != nil, detectionStem, "Detection diagnostics", func() string {
-			return fmt.Sprintf("Left: signal-to-noise ratio of the %d detections (dashed: the acceptance threshold). "+
-				"Right: the fractional part of the tracer centres in x and y, share of detections per bin; a flat "+
+			return fmt.Sprintf("(a) Signal-to-noise ratio of the %d detections (dashed: the acceptance threshold). "+
+				"(b) The fractional part of the tracer centres in x and y, share of detections per bin; a flat "+
 				"histogram (dotted) means no pull towards whole pixels (pixel locking).", len(d.Detection.SNR))
 		}, true, func() (*figure.Figure, error) { return figure.DetectionPlot(d.Detection) }},
 	} {
@@ -189,6 +187,24 @@ func renderFigures(d *Data) (figs []shownFigure, notShown, failed []string) {
 		drawn = append(drawn, figs[i])
 	}
 	return drawn, notShown, failed
+}
+
+// wallSides says which wall is at which side of a gap axis.
+func wallSides(a figure.GapAxis) string {
+	switch {
+	case a.Radial && a.InnerMoving:
+		return "the rotating inner cylinder at 0, the stationary outer one at the gap"
+	case a.Radial:
+		return "the stationary inner cylinder at 0, the rotating outer one at the gap"
+	}
+	return "the stationary wall at 0, the moving wall at the gap"
+}
+
+// mapCaption is the caption of a space-time map.
+func mapCaption(m *figure.SpaceTime) string {
+	return fmt.Sprintf("The %s across the gap through the whole run, against time and %s; "+
+		"each cell is one time window and gap layer; white cells had too few tracers for a value. Heavy edges of the "+
+		"frame: the walls (%s). Dashed lines: changes of the imposed motion.", m.Quantity.Noun(), m.Axis.Words(), wallSides(m.Axis))
 }
 
 // mapTitle is the title of a space-time map, after the quantity it shows

@@ -252,6 +252,12 @@ func Summary() *summary.Summary {
 
 // YAML is the run's experiment file.
 const YAML = `name: Sample K-3, soft gel between sliding plates (made-up teaching run)
+sample: K-3 soft gel, batch 2 (made up)
+operator: course demonstrator
+temperature_c: 23.5
+notes: |
+  Loaded with a spatula, trimmed flush with the plates.
+  Light sheet at low power.
 geometry:
   kind: plates
   gap_um: 800
