@@ -10,6 +10,7 @@ import (
 	"slices"
 	"strconv"
 	"strings"
+	"sync"
 	"testing"
 
 	"gocv.io/x/gocv"
@@ -23,7 +24,25 @@ import (
 type draw struct {
 	name   string
 	widthC float64
-	render func(t *testing.T) (*figure.Figure, error)
+	draw   func(t *testing.T) (*figure.Figure, error)
+}
+
+// rendered holds each figure of the scenario, drawn once for all tests
+// that only read it.
+var rendered sync.Map // name -> *renderedFigure
+
+type renderedFigure struct {
+	once sync.Once
+	fig  *figure.Figure
+	err  error
+}
+
+// render draws f once.
+func (f draw) render(t *testing.T) (*figure.Figure, error) {
+	v, _ := rendered.LoadOrStore(f.name, &renderedFigure{})
+	r := v.(*renderedFigure)
+	r.once.Do(func() { r.fig, r.err = f.draw(t) })
+	return r.fig, r.err
 }
 
 var figures = []draw{

@@ -81,8 +81,22 @@ func RateText(ratePerS float64) string {
 // boundaries dash-dotted, each labelled with its rate above the frame), the
 // no-slip line, and the walls at the frame's two sides; single column wide.
 func ProfilePlot(pp *PhaseProfile) (*Figure, error) {
-	if err := pp.Check(); err != nil {
+	pn, tab, err := profilePanel(pp)
+	if err != nil {
 		return nil, err
+	}
+	f, err := Compose(SingleColumnCM, profileHeightCM, [][]*Panel{{pn}})
+	if err != nil {
+		return nil, err
+	}
+	f.CSV = tab.CSV()
+	return f, nil
+}
+
+// profilePanel is the panel and the data of ProfilePlot.
+func profilePanel(pp *PhaseProfile) (*Panel, *Table, error) {
+	if err := pp.Check(); err != nil {
+		return nil, nil, err
 	}
 	s := House
 	h, v := pp.GapUM, pp.WallSpeedUMPerS
@@ -134,12 +148,12 @@ func ProfilePlot(pp *PhaseProfile) (*Figure, error) {
 			x0, x1 := x(b.FromUM), x(b.ToUM)
 			sp, err := span(math.Min(x0, x1), math.Max(x0, x1), yMin, yMax, bandShades[i%2])
 			if err != nil {
-				return nil, err
+				return nil, nil, err
 			}
 			p.Add(sp)
 			if i > 0 {
 				if err := vLine(pn, x0, yMin, yMax, boundary); err != nil {
-					return nil, err
+					return nil, nil, err
 				}
 			}
 			pn.Notes = append(pn.Notes, Note{X: (x0 + x1) / 2, Text: RateText(b.RatePerS)})
@@ -158,7 +172,7 @@ func ProfilePlot(pp *PhaseProfile) (*Figure, error) {
 		row("no slip", q.YUM, q.VUMPerS, math.NaN(), 0, math.NaN())
 	}
 	if err := addLine(pn, ns, lineStyle(s.Ink, s.RefLinePt, s.Dashes[dotted]), "no slip"); err != nil {
-		return nil, err
+		return nil, nil, err
 	}
 	if len(pp.Fit) > 0 {
 		fit := make(plotter.XYs, len(pp.Fit))
@@ -167,21 +181,16 @@ func ProfilePlot(pp *PhaseProfile) (*Figure, error) {
 			row("fit", q.YUM, q.VUMPerS, math.NaN(), 0, math.NaN())
 		}
 		if err := addLine(pn, fit, lineStyle(Vermillion, s.DataLinePt, s.Dashes[dashed]), "fit"); err != nil {
-			return nil, err
+			return nil, nil, err
 		}
 	}
 	if err := addPoints(pn, pts, errs, Blue, s.Markers[0], "measured ± s.e."); err != nil {
-		return nil, err
+		return nil, nil, err
 	}
 	if len(pp.Bands) > 1 {
 		pn.AddLegend("band boundary", lineSymbol{boundary})
 	}
-	f, err := Compose(SingleColumnCM, profileHeightCM, [][]*Panel{{pn}})
-	if err != nil {
-		return nil, err
-	}
-	f.CSV = tab.CSV()
-	return f, nil
+	return pn, tab, nil
 }
 
 // profileColumns is the CSV header of a profile figure.
