@@ -55,6 +55,7 @@ func runDemo(ctx context.Context, args []string, stderr io.Writer) error {
 	}
 	o.expPath = filepath.Join(in, synth.ExperimentFile)
 	o.input = filepath.Join(in, "video.avi")
+	o.commandLine = append([]string{argv0, "demo"}, args...)
 	// The output folder now holds the rendered experiment: that is expected.
 	o.force, o.holding = true, true
 	s, err := runChain(ctx, o, stderr)

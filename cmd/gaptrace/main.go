@@ -30,6 +30,13 @@ type command struct {
 
 var commands = map[string]command{}
 
+// stdout receives help and results meant for the user (the verdicts and
+// the report's path at the end of run); tests replace it.
+var stdout io.Writer = os.Stdout
+
+// argv0 is the program as invoked, for the command line in the report.
+var argv0 = "gaptrace"
+
 // usageError is bad usage or bad input: exit status 2.
 type usageError struct{ err error }
 
@@ -67,6 +74,7 @@ func main() {
 		s = <-sigs
 		os.Exit(128 + int(s.(syscall.Signal)))
 	}()
+	argv0 = os.Args[0]
 	os.Exit(mainContext(ctx, os.Args[1:], os.Stderr))
 }
 
@@ -90,15 +98,19 @@ func mainContext(ctx context.Context, args []string, stderr io.Writer) (status i
 			status = 1
 		}
 	}()
-	if len(args) == 0 || args[0] == "-h" || args[0] == "--help" || args[0] == "help" {
-		usage(stderr)
-		if len(args) == 0 {
-			return 2
+	if len(args) == 0 {
+		usage(stderr) // bad usage: the list goes with the error, to stderr
+		return 2
+	}
+	if args[0] == "-h" || args[0] == "--help" || args[0] == "help" {
+		if len(args) > 1 && args[0] == "help" {
+			return helpVerb(ctx, args[1], stderr)
 		}
+		usage(stdout)
 		return 0
 	}
 	if args[0] == "version" || args[0] == "--version" {
-		fmt.Fprintln(stderr, "gaptrace", version)
+		fmt.Fprintln(stdout, "gaptrace", version)
 		return 0
 	}
 	c, ok := commands[args[0]]
@@ -165,18 +177,29 @@ func usage(w io.Writer) {
 	for _, n := range names {
 		fmt.Fprintf(w, "  %-8s %s\n", n, commands[n].summary)
 	}
-	fmt.Fprintln(w, "\nRun gaptrace COMMAND -h for the flags of one command.")
+	fmt.Fprintln(w, "\nRun gaptrace help COMMAND (or gaptrace COMMAND -h) for what one command does and its flags.")
+}
+
+// helpVerb prints what the command verb does and its flags, on stdout.
+func helpVerb(ctx context.Context, verb string, stderr io.Writer) int {
+	c, ok := commands[verb]
+	if !ok {
+		fmt.Fprintf(stderr, "gaptrace: unknown command %q (try gaptrace help)\n", verb)
+		return 2
+	}
+	return exitStatus(c.run(ctx, []string{"-h"}, stderr), stderr)
 }
 
 // newFlags returns a flag set whose errors are reported in one line as bad
-// usage; -h prints its usage to stderr.
-func newFlags(name, args string, stderr io.Writer) *flag.FlagSet {
+// usage; -h prints what the command does and its flags to stdout (the
+// writer, once stderr, is no longer used).
+func newFlags(name, args string, _ io.Writer) *flag.FlagSet {
 	fs := flag.NewFlagSet(name, flag.ContinueOnError)
 	fs.SetOutput(io.Discard) // parse errors come back as one-line errors
 	fs.Usage = func() {}     // and without the usage text
 	usages[fs] = func() {
-		fs.SetOutput(stderr)
-		fmt.Fprintf(stderr, "Usage: gaptrace %s [flags] %s\n", name, args)
+		fmt.Fprintf(stdout, "gaptrace %s: %s\n\nUsage: gaptrace %s [flags] %s\n\nFlags:\n", name, commands[name].summary, name, args)
+		fs.SetOutput(stdout)
 		fs.PrintDefaults()
 		fs.SetOutput(io.Discard)
 	}

@@ -2,9 +2,11 @@ package main
 
 import (
 	"context"
+	"fmt"
 	"io"
 	"os"
 	"path/filepath"
+	"time"
 
 	"gaptrace/calib/atomicfile"
 	"gaptrace/profile/pipeline"
@@ -28,6 +30,8 @@ type runOptions struct {
 	bins    int
 	windows windowList
 	seed    uint64
+	// commandLine is the command as typed, for the report's lab record.
+	commandLine []string
 }
 
 func runRun(ctx context.Context, args []string, stderr io.Writer) error {
@@ -48,8 +52,33 @@ func runRun(ctx context.Context, args []string, stderr io.Writer) error {
 		return badInputf("run needs one INPUT (video, folder or glob of frames), got %d", fs.NArg())
 	}
 	o.input = fs.Arg(0)
-	_, err := runChain(ctx, o, stderr)
-	return err
+	o.commandLine = append([]string{argv0, "run"}, args...)
+	s, err := runChain(ctx, o, stderr)
+	if err != nil {
+		return err
+	}
+	for _, l := range report.VerdictLines(s) {
+		fmt.Fprintln(stdout, l)
+	}
+	fmt.Fprintln(stdout, filepath.Join(o.outDir, report.FileName))
+	return nil
+}
+
+// digestResult is the input's digest, computed beside the chain.
+type digestResult struct {
+	d   *report.Digest
+	err error
+}
+
+// startDigest reads the input once on its own goroutine for its size and
+// SHA-256, while the chain decodes it.
+func startDigest(input string) <-chan digestResult {
+	ch := make(chan digestResult, 1)
+	go func() {
+		d, err := report.DigestInput(input)
+		ch <- digestResult{d, err}
+	}()
+	return ch
 }
 
 // Files of run.
@@ -90,6 +119,8 @@ func runChain(ctx context.Context, o runOptions, stderr io.Writer) (*summary.Sum
 			os.Remove(f)
 		}
 	}
+	started := time.Now()
+	digest := startDigest(o.input)
 	cfg := o.config(exp, stderr)
 	cfg.Bins, cfg.Windows, cfg.Seed = o.bins, o.windows, o.seed
 	rec, err := pipeline.Open(ctx, cfg)
@@ -116,6 +147,13 @@ func runChain(ctx context.Context, o runOptions, stderr io.Writer) (*summary.Sum
 	}
 	d := a.Report(cfg, string(yaml))
 	defer d.Close()
+	wd, _ := os.Getwd()
+	d.Record = &report.Record{CommandLine: o.commandLine, WorkDir: wd, AnalysedAt: started}
+	if dr := <-digest; dr.err == nil {
+		d.Record.Input = dr.d
+	} else {
+		a.Summary.Warnings = append(a.Summary.Warnings, fmt.Sprintf("no digest of the input for the lab record: %v", dr.err))
+	}
 	if _, err := report.Write(o.outDir, d); err != nil {
 		return nil, err
 	}

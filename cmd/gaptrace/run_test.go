@@ -66,6 +66,17 @@ func runGaptrace(args ...string) (int, string) {
 	return code, errw.String()
 }
 
+// runGaptraceOut runs the command with args and returns its exit status,
+// stdout and stderr.
+func runGaptraceOut(args ...string) (code int, out, errs string) {
+	var o bytes.Buffer
+	old := stdout
+	stdout = &o
+	defer func() { stdout = old }()
+	code, errs = runGaptrace(args...)
+	return code, o.String(), errs
+}
+
 func TestRunEndToEnd(t *testing.T) {
 	cases := []struct {
 		name, scenario string
@@ -93,13 +104,15 @@ func TestRunEndToEnd(t *testing.T) {
 			}
 			exp, video, want := renderScenario(t, c.scenario, 3, change...)
 			out := filepath.Join(t.TempDir(), "out")
-			if code, errs := runGaptrace("run", "-e", exp, "-o", out, video); code != 0 {
+			code, printed, errs := runGaptraceOut("run", "-e", exp, "-o", out, video)
+			if code != 0 {
 				t.Fatalf("exit %d: %s", code, errs)
 			}
 			got, err := summary.Read(filepath.Join(out, "summary.json"))
 			if err != nil {
 				t.Fatal(err)
 			}
+			checkPrinted(t, printed, got, filepath.Join(out, report.FileName))
 			for _, f := range []string{"tracks.csv", "profiles.csv", "after_stop.csv", report.FileName, "calibration.json"} {
 				if _, err := os.Stat(filepath.Join(out, f)); err != nil {
 					t.Errorf("missing %s", f)
@@ -107,6 +120,28 @@ func TestRunEndToEnd(t *testing.T) {
 			}
 			compareSummaries(t, got, want)
 		})
+	}
+}
+
+// checkPrinted checks what run prints on stdout: a line per verdict,
+// starting with its word in summary.json, then the report's path.
+func checkPrinted(t *testing.T, printed string, s *summary.Summary, reportPath string) {
+	t.Helper()
+	lines := strings.Split(strings.TrimSpace(printed), "\n")
+	want := len(s.ShearPhases) + 1
+	if s.AfterStop == nil {
+		want--
+	}
+	if len(lines) != want+1 || lines[len(lines)-1] != reportPath {
+		t.Fatalf("run printed %q, want %d verdict lines and the report's path %s", printed, want, reportPath)
+	}
+	for i, sp := range s.ShearPhases {
+		if !strings.HasPrefix(lines[i], sp.Verdict+": Shear phase ") {
+			t.Errorf("line %d %q does not start with the verdict %s", i+1, lines[i], sp.Verdict)
+		}
+	}
+	if a := s.AfterStop; a != nil && !strings.HasPrefix(lines[want-1], a.Verdict) {
+		t.Errorf("line %q does not start with the after-stop verdict %s", lines[want-1], a.Verdict)
 	}
 }
 
