@@ -93,6 +93,6 @@ func TestPDFFigures(t *testing.T) {
 		}
 	}
 	if errInfo != nil {
-		t.Skipf("poppler's pdfinfo not installed (Debian package poppler-utils; scripts/deps.sh --test installs it): %v", errInfo)
+		t.Skipf("poppler's pdfinfo not installed (Debian package poppler-utils; cmd/scripts/deps.sh --test installs it): %v", errInfo)
 	}
 }
