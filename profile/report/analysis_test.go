@@ -6,17 +6,19 @@ import (
 	"strings"
 	"testing"
 
+	"gaptrace/calib/experiment"
 	"gaptrace/profile"
 	"gaptrace/profile/report"
 	"gaptrace/profile/summary"
 	"gaptrace/track/synth"
 )
 
-// TestFromAnalysis runs the profile stage on the tracks of a rendered
-// scenario (the synth package's step strain followed by a failure plane)
-// and checks that FromAnalysis hands every series to the figures.
-func TestFromAnalysis(t *testing.T) {
-	s, err := synth.Builtin("step-plane", 3)
+// analysed runs the profile stage on the tracks of a built-in synth
+// scenario, observed with a little noise, and returns the report data of
+// FromAnalysis with the scenario's experiment and the stage's result.
+func analysed(t *testing.T, name string, seed int64) (*report.Data, *experiment.Experiment, *profile.Result) {
+	t.Helper()
+	s, err := synth.Builtin(name, seed)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -28,7 +30,15 @@ func TestFromAnalysis(t *testing.T) {
 	summ := summary.New()
 	summ.Experiment, summ.Calibration = e.Name, c
 	r.Fill(summ)
-	d := report.FromAnalysis(summ, e, r)
+	return report.FromAnalysis(summ, e, r), e, r
+}
+
+// TestFromAnalysis runs the profile stage on the tracks of a rendered
+// scenario (the synth package's step strain followed by a failure plane)
+// and checks that FromAnalysis hands every series to the figures.
+func TestFromAnalysis(t *testing.T) {
+	d, _, r := analysed(t, "step-plane", 3)
+	summ := d.Summary
 	if len(d.Profiles) != len(summ.ShearPhases) || len(d.Profiles) == 0 || d.Profiles[0] == nil {
 		t.Fatalf("%d profiles for %d shear phases", len(d.Profiles), len(summ.ShearPhases))
 	}

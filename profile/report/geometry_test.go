@@ -12,12 +12,9 @@ import (
 	"testing"
 
 	"gaptrace/calib/experiment"
-	"gaptrace/profile"
 	"gaptrace/profile/report"
 	"gaptrace/profile/report/figure"
 	"gaptrace/profile/report/internal/scenario"
-	"gaptrace/profile/summary"
-	"gaptrace/track/synth"
 )
 
 // A Couette cell's figures are drawn against the radial position from the
@@ -26,19 +23,7 @@ import (
 // Transport Phenomena, 2nd ed. 2002, example 3.6-3): the profile figure's
 // data must fall along its drawn coordinate.
 func TestCouetteFiguresRadial(t *testing.T) {
-	s, err := synth.Builtin("couette", 2)
-	if err != nil {
-		t.Fatal(err)
-	}
-	e, c := s.Experiment(), s.Calibration()
-	r, err := profile.Analyze(s.Observe(0.1, 0.02, 3), e, c, profile.Options{Seed: 3})
-	if err != nil {
-		t.Fatal(err)
-	}
-	summ := summary.New()
-	summ.Experiment, summ.Calibration = e.Name, c
-	r.Fill(summ)
-	d := report.FromAnalysis(summ, e, r)
+	d, e, _ := analysed(t, "couette", 2)
 	if len(d.Profiles) == 0 || d.Profiles[0] == nil {
 		t.Fatal("no profile")
 	}

@@ -268,31 +268,14 @@ func align(cells [][]*cell, nr, nc int) {
 func drawFrame(da draw.Canvas, p *plot.Plot, wallsX, wallsY bool) {
 	s := House
 	tick := draw.LineStyle{Color: s.Ink, Width: vg.Points(s.TickLinePt)}
-	major, minor := vg.Points(s.MajorTickPt), vg.Points(s.MinorTickPt)
-	for _, t := range p.X.Tick.Marker.Ticks(p.X.Min, p.X.Max) {
-		x := da.X(p.X.Norm(t.Value))
-		if x <= da.Min.X || x >= da.Max.X {
-			continue
-		}
-		l := major
-		if t.IsMinor() {
-			l = minor
-		}
+	forTicks(p.X, da.Min.X, da.Max.X, func(x, l vg.Length) {
 		da.StrokeLine2(tick, x, da.Min.Y, x, da.Min.Y+l)
 		da.StrokeLine2(tick, x, da.Max.Y, x, da.Max.Y-l)
-	}
-	for _, t := range p.Y.Tick.Marker.Ticks(p.Y.Min, p.Y.Max) {
-		y := da.Y(p.Y.Norm(t.Value))
-		if y <= da.Min.Y || y >= da.Max.Y {
-			continue
-		}
-		l := major
-		if t.IsMinor() {
-			l = minor
-		}
+	})
+	forTicks(p.Y, da.Min.Y, da.Max.Y, func(y, l vg.Length) {
 		da.StrokeLine2(tick, da.Min.X, y, da.Min.X+l, y)
 		da.StrokeLine2(tick, da.Max.X, y, da.Max.X-l, y)
-	}
+	})
 	frame := draw.LineStyle{Color: s.Ink, Width: vg.Points(s.FramePt)}
 	r := da.Rectangle
 	da.StrokeLines(frame, []vg.Point{r.Min, {X: r.Max.X, Y: r.Min.Y}, r.Max, {X: r.Min.X, Y: r.Max.Y}, r.Min})
@@ -304,6 +287,22 @@ func drawFrame(da draw.Canvas, p *plot.Plot, wallsX, wallsY bool) {
 	if wallsY {
 		da.StrokeLine2(wall, r.Min.X, r.Min.Y, r.Max.X, r.Min.Y)
 		da.StrokeLine2(wall, r.Min.X, r.Max.Y, r.Max.X, r.Max.Y)
+	}
+}
+
+// forTicks calls mark with the position of each tick of axis a strictly
+// between lo and hi on the page, and its length.
+func forTicks(a plot.Axis, lo, hi vg.Length, mark func(at, length vg.Length)) {
+	for _, t := range a.Tick.Marker.Ticks(a.Min, a.Max) {
+		at := lo + vg.Length(a.Norm(t.Value))*(hi-lo)
+		if at <= lo || at >= hi {
+			continue
+		}
+		l := vg.Points(House.MajorTickPt)
+		if t.IsMinor() {
+			l = vg.Points(House.MinorTickPt)
+		}
+		mark(at, l)
 	}
 }
 
