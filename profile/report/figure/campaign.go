@@ -17,12 +17,12 @@ type CampaignPoint struct {
 	// Group is the series the point belongs to (e.g. "gap 800 µm"); points
 	// of one group share a colour and a marker.
 	Group                                         string
-	NominalRatePerS                               float64 // the imposed rate, 1/s
+	NominalRatePerS                               float64 // the imposed rate, s⁻¹
 	WallStressPa, WallStressErrPa                 float64 // shear stress at the wall from the rheometer's log, Pa
 	SlipStationaryUMPerS, SlipStationaryErrUMPerS float64 // fluid speed at the stationary wall, um/s
 	SlipMovingUMPerS, SlipMovingErrUMPerS         float64 // wall speed minus fluid speed at the moving wall, um/s
 	SlipFraction, SlipFractionErr                 float64 // share of the wall speed taken by slip
-	BulkRatePerS, BulkRateErrPerS                 float64 // shear rate of the bulk, 1/s
+	BulkRatePerS, BulkRateErrPerS                 float64 // shear rate of the bulk, s⁻¹
 }
 
 // CampaignHeightCM is the height of a one-panel campaign figure, cm; the
@@ -68,37 +68,37 @@ func logAxis(vs []float64) bool {
 	return hi >= decadeSpan*lo
 }
 
-// Room around the data of a campaign figure: xMargin of the rate span on a
-// linear axis (a factor of 1 + xMargin on a logarithmic one), so that end
-// points are not cut by the frame, and legendRoom of the y span above the
-// data for the legend.
-const (
-	xMargin    = 0.06
-	legendRoom = 0.35
-)
+// logXMargin is the factor by which a logarithmic rate axis extends
+// beyond the data at each end: the house style's data margin on a linear
+// axis, taken as a fraction of a decade.
+var logXMargin = math.Pow(10, dataMargin)
 
-// frame sets the ranges of p around the finite points (x, y) with their
-// y errors, 0 included on the y axis (the no-slip level).
-func frame(p *plot.Plot, x, y, yErr []float64, logX bool) {
-	pts := make(plotter.XYs, len(x))
+// frameX sets the x range of p around the finite values xs.
+func frameX(p *plot.Plot, xs []float64, logX bool) {
 	lo, hi := math.Inf(1), math.Inf(-1)
-	for i := range x {
-		pts[i] = plotter.XY{X: x[i], Y: y[i]}
-		if finite(x[i]) {
-			lo, hi = math.Min(lo, x[i]), math.Max(hi, x[i])
+	for _, x := range xs {
+		if finite(x) && (!logX || x > 0) {
+			lo, hi = math.Min(lo, x), math.Max(hi, x)
 		}
 	}
 	if !(hi >= lo) {
 		return
 	}
 	if logX {
-		p.X.Min, p.X.Max = lo/(1+xMargin), hi*(1+xMargin)
-	} else {
-		pad := xMargin * math.Max(hi-lo, math.Abs(hi))
-		p.X.Min, p.X.Max = lo-pad, hi+pad
+		p.X.Min, p.X.Max = lo/logXMargin, hi*logXMargin
+		return
 	}
-	yLo, yHi := rangeY([]plotter.XYs{pts}, [][]float64{yErr})
-	p.Y.Min, p.Y.Max = yLo, yHi+legendRoom*(yHi-yLo)
+	p.X.Min, p.X.Max = withMargin(lo, hi)
+}
+
+// frameY sets the y range of p around the finite values y with their
+// errors, 0 included (the no-slip level).
+func frameY(p *plot.Plot, y, yErr []float64) {
+	pts := make(plotter.XYs, len(y))
+	for i := range y {
+		pts[i] = plotter.XY{Y: y[i]}
+	}
+	p.Y.Min, p.Y.Max = withMargin(rangeY([]plotter.XYs{pts}, [][]float64{yErr}))
 }
 
 // setLog makes an axis of p logarithmic.
@@ -107,10 +107,10 @@ func setLog(a *plot.Axis) {
 	a.Tick.Marker = plot.LogTicks{Prec: -1}
 }
 
-// series adds one group's points to p, with y error bars and, when xErr is
-// not nil, x error bars.
-func series(p *plot.Plot, k int, name string, x, y, xErr, yErr []float64) error {
-	c := Series[k%len(Series)]
+// addGroup adds one group's points to the panel, with y error bars and,
+// when xErr is not nil, x error bars, in the k-th series style.
+func addGroup(pn *Panel, k int, name string, x, y, xErr, yErr []float64) error {
+	c, marker, _ := House.series(k)
 	pts := make(plotter.XYs, len(x))
 	for i := range x {
 		pts[i] = plotter.XY{X: x[i], Y: y[i]}
@@ -131,11 +131,11 @@ func series(p *plot.Plot, k int, name string, x, y, xErr, yErr []float64) error 
 			if err != nil {
 				return err
 			}
-			bars.Color, bars.Width, bars.CapWidth = c, vg.Points(errorBarPt), vg.Points(errorCapPt)
-			p.Add(bars)
+			bars.Color, bars.Width, bars.CapWidth = c, vg.Points(House.ErrorBarPt), vg.Points(House.ErrorCapPt)
+			pn.Plot.Add(bars)
 		}
 	}
-	return addPoints(p, pts, yErr, c, markers[k%len(markers)], name)
+	return addPoints(pn, pts, yErr, c, marker, name)
 }
 
 // column picks one field of the points of idx.
@@ -173,14 +173,45 @@ func UseStress(pts []CampaignPoint) bool {
 	return n > 0
 }
 
-// CampaignSlipPlot draws the slip velocity at the stationary wall (top
-// panel) and at the moving wall (bottom panel) against the nominal rate,
-// or against the wall shear stress when stress is true, one series per
-// group, with error bars; single column wide.
+// campaignTable is the CSV of a campaign figure: every point's group and
+// numbers.
+func campaignTable(pts []CampaignPoint) *Table {
+	t := NewTable("group", "nominal_rate_per_s", "wall_stress_pa", "wall_stress_err_pa",
+		"slip_stationary_um_per_s", "slip_stationary_err_um_per_s", "slip_moving_um_per_s", "slip_moving_err_um_per_s",
+		"slip_fraction", "slip_fraction_err", "bulk_rate_per_s", "bulk_rate_err_per_s")
+	for _, p := range pts {
+		t.Row(p.Group, p.NominalRatePerS, p.WallStressPa, p.WallStressErrPa, p.SlipStationaryUMPerS, p.SlipStationaryErrUMPerS,
+			p.SlipMovingUMPerS, p.SlipMovingErrUMPerS, p.SlipFraction, p.SlipFractionErr, p.BulkRatePerS, p.BulkRateErrPerS)
+	}
+	return t
+}
+
+// compose draws the panels in one column, single column wide and hCM
+// high, with the points' table as its CSV.
+func compose(pts []CampaignPoint, hCM float64, panels ...*Panel) (*Figure, error) {
+	rows := make([][]*Panel, len(panels))
+	for i, p := range panels {
+		rows[i] = []*Panel{p}
+	}
+	f, err := Compose(SingleColumnCM, hCM, rows)
+	if err != nil {
+		return nil, err
+	}
+	f.CSV = campaignTable(pts).CSV()
+	return f, nil
+}
+
+// rateLabel is the axis title of the nominal rate.
+const rateLabel = "nominal shear rate (s^{−1})"
+
+// CampaignSlipPlot draws the slip velocity at the stationary wall (panel
+// a) and at the moving wall (panel b) against the nominal rate, or against
+// the wall shear stress when stress is true, one series per group, with
+// error bars; single column wide.
 func CampaignSlipPlot(pts []CampaignPoint, stress bool) (*Figure, error) {
 	xOf := func(p *CampaignPoint) float64 { return p.NominalRatePerS }
 	xErrOf := func(p *CampaignPoint) float64 { return math.NaN() }
-	xLabel := "nominal shear rate (1/s)"
+	xLabel := rateLabel
 	if stress {
 		xOf = func(p *CampaignPoint) float64 { return p.WallStressPa }
 		xErrOf = func(p *CampaignPoint) float64 { return p.WallStressErrPa }
@@ -201,33 +232,38 @@ func CampaignSlipPlot(pts []CampaignPoint, stress bool) (*Figure, error) {
 	names, idx := groups(pts)
 	all := allIndices(len(pts))
 	xs := column(pts, all, xOf)
-	var panels [][]*plot.Plot
+	logX := logAxis(xs)
+	var panels []*Panel
 	for w, wall := range walls {
 		label := ""
 		if w == len(walls)-1 {
 			label = xLabel
 		}
-		p := newPlot(label, wall.label)
-		logX := logAxis(xs)
+		pn := &Panel{Plot: NewPlot(label, wall.label)}
 		if logX {
-			setLog(&p.X)
+			setLog(&pn.Plot.X)
 		}
-		frame(p, xs, column(pts, all, wall.v), column(pts, all, wall.err), logX)
+		frameX(pn.Plot, xs, logX)
+		frameY(pn.Plot, column(pts, all, wall.v), column(pts, all, wall.err))
+		if err := zeroLine(pn); err != nil {
+			return nil, err
+		}
 		for k, g := range names {
 			x, xe := column(pts, idx[g], xOf), column(pts, idx[g], xErrOf)
-			if err := series(p, k, g, x, column(pts, idx[g], wall.v), xe, column(pts, idx[g], wall.err)); err != nil {
+			if !stress {
+				xe = nil
+			}
+			name := g
+			if w > 0 {
+				name = "" // one legend, above panel a
+			}
+			if err := addGroup(pn, k, name, x, column(pts, idx[g], wall.v), xe, column(pts, idx[g], wall.err)); err != nil {
 				return nil, err
 			}
 		}
-		// The no-slip level: a slip velocity of 0.
-		if err := zeroLine(p); err != nil {
-			return nil, err
-		}
-		p.Legend.Top, p.Legend.Left = true, true
-		p.Legend.XOffs = vg.Points(legendInsetPt)
-		panels = append(panels, []*plot.Plot{p})
+		panels = append(panels, pn)
 	}
-	return renderGrid(panels, SingleColumnCM, CampaignSlipHeightCM)
+	return compose(pts, CampaignSlipHeightCM, panels...)
 }
 
 // CampaignSlipFractionPlot draws the slip fraction against the nominal
@@ -235,30 +271,29 @@ func CampaignSlipPlot(pts []CampaignPoint, stress bool) (*Figure, error) {
 func CampaignSlipFractionPlot(pts []CampaignPoint) (*Figure, error) {
 	xOf := func(p *CampaignPoint) float64 { return p.NominalRatePerS }
 	yOf := func(p *CampaignPoint) float64 { return p.SlipFraction }
+	errOf := func(p *CampaignPoint) float64 { return p.SlipFractionErr }
 	if !anyFinite(pts, xOf, yOf) {
 		return nil, fmt.Errorf("figure: no point has both a nominal rate and a slip fraction")
 	}
-	p := newPlot("nominal shear rate (1/s)", "slip fraction")
+	pn := &Panel{Plot: NewPlot(rateLabel, "slip fraction")}
 	all := allIndices(len(pts))
 	xs := column(pts, all, xOf)
 	logX := logAxis(xs)
 	if logX {
-		setLog(&p.X)
+		setLog(&pn.Plot.X)
 	}
-	frame(p, xs, column(pts, all, yOf), column(pts, all, func(p *CampaignPoint) float64 { return p.SlipFractionErr }), logX)
+	frameX(pn.Plot, xs, logX)
+	frameY(pn.Plot, column(pts, all, yOf), column(pts, all, errOf))
+	if err := zeroLine(pn); err != nil {
+		return nil, err
+	}
 	names, idx := groups(pts)
 	for k, g := range names {
-		if err := series(p, k, g, column(pts, idx[g], xOf), column(pts, idx[g], yOf), nil,
-			column(pts, idx[g], func(p *CampaignPoint) float64 { return p.SlipFractionErr })); err != nil {
+		if err := addGroup(pn, k, g, column(pts, idx[g], xOf), column(pts, idx[g], yOf), nil, column(pts, idx[g], errOf)); err != nil {
 			return nil, err
 		}
 	}
-	if err := zeroLine(p); err != nil {
-		return nil, err
-	}
-	p.Legend.Top, p.Legend.Left = true, true
-	p.Legend.XOffs = vg.Points(legendInsetPt)
-	return renderPlot(p, SingleColumnCM, CampaignHeightCM)
+	return compose(pts, CampaignHeightCM, pn)
 }
 
 // CampaignBulkRatePlot draws the bulk shear rate against the nominal rate,
@@ -268,10 +303,12 @@ func CampaignSlipFractionPlot(pts []CampaignPoint) (*Figure, error) {
 func CampaignBulkRatePlot(pts []CampaignPoint) (*Figure, error) {
 	xOf := func(p *CampaignPoint) float64 { return p.NominalRatePerS }
 	yOf := func(p *CampaignPoint) float64 { return p.BulkRatePerS }
+	errOf := func(p *CampaignPoint) float64 { return p.BulkRateErrPerS }
 	if !anyFinite(pts, xOf, yOf) {
 		return nil, fmt.Errorf("figure: no point has both a nominal and a bulk rate")
 	}
-	p := newPlot("nominal shear rate (1/s)", "bulk shear rate (1/s)")
+	pn := &Panel{Plot: NewPlot(rateLabel, "bulk shear rate (s^{−1})")}
+	p := pn.Plot
 	all := allIndices(len(pts))
 	xs := column(pts, all, xOf)
 	lows := column(pts, all, func(p *CampaignPoint) float64 {
@@ -285,47 +322,36 @@ func CampaignBulkRatePlot(pts []CampaignPoint) (*Figure, error) {
 		setLog(&p.X)
 		setLog(&p.Y)
 	}
-	lo, hi := math.Inf(1), math.Inf(-1)
-	for _, vs := range [][]float64{xs, column(pts, all, yOf)} {
-		for _, v := range vs {
-			if finite(v) && (!logLog || v > 0) {
-				lo, hi = math.Min(lo, v), math.Max(hi, v)
-			}
-		}
+	// Both axes span the rates, nominal and bulk, so that the no-slip line
+	// is the diagonal.
+	both := append(append([]float64{}, xs...), column(pts, all, yOf)...)
+	if !logLog {
+		both = append(both, 0)
 	}
-	// The axes frame the data with room above for the legend; the no-slip
-	// line runs across the whole x range.
-	if logLog {
-		p.X.Min, p.X.Max = lo/(1+xMargin), hi*(1+xMargin)
-		p.Y.Min, p.Y.Max = p.X.Min, p.X.Max*math.Pow(p.X.Max/p.X.Min, legendRoom)
-	} else {
-		lo = math.Min(lo, 0)
-		p.X.Min, p.X.Max = lo, hi+xMargin*(hi-lo)
-		p.Y.Min, p.Y.Max = lo, hi+legendRoom*(hi-lo)
-	}
+	frameX(p, both, logLog)
+	p.Y.Min, p.Y.Max = p.X.Min, p.X.Max
 	line := plotter.XYs{{X: p.X.Min, Y: p.X.Min}, {X: p.X.Max, Y: p.X.Max}}
-	if err := addLine(p, line, Black, refLinePt, dashes[2], "no slip"); err != nil {
+	if err := addLine(pn, line, lineStyle(House.Ink, House.RefLinePt, House.Dashes[dotted]), "no slip"); err != nil {
 		return nil, err
 	}
 	names, idx := groups(pts)
 	for k, g := range names {
-		if err := series(p, k, g, column(pts, idx[g], xOf), column(pts, idx[g], yOf), nil,
-			column(pts, idx[g], func(p *CampaignPoint) float64 { return p.BulkRateErrPerS })); err != nil {
+		if err := addGroup(pn, k, g, column(pts, idx[g], xOf), column(pts, idx[g], yOf), nil, column(pts, idx[g], errOf)); err != nil {
 			return nil, err
 		}
 	}
-	p.Legend.Top, p.Legend.Left = true, true
-	p.Legend.XOffs = vg.Points(legendInsetPt)
-	return renderPlot(p, SingleColumnCM, CampaignHeightCM)
+	return compose(pts, CampaignHeightCM, pn)
 }
 
-// zeroLine draws a thin grey dashed line at y = 0 across the x range of p
-// (set by frame).
-func zeroLine(p *plot.Plot) error {
-	if !(p.X.Max > p.X.Min) {
+// zeroLine draws a thin grey dashed line at y = 0 across the x range of
+// the panel's plot (set by frameX).
+func zeroLine(pn *Panel) error {
+	p := pn.Plot
+	if !(p.X.Max > p.X.Min) || !(p.Y.Min < 0 && p.Y.Max > 0) {
 		return nil
 	}
-	return addLine(p, plotter.XYs{{X: p.X.Min, Y: 0}, {X: p.X.Max, Y: 0}}, color.Gray{Y: 120}, refLinePt, dashes[1], "")
+	return addLine(pn, plotter.XYs{{X: p.X.Min, Y: 0}, {X: p.X.Max, Y: 0}},
+		lineStyle(color.Gray{Y: 120}, House.RefLinePt, House.Dashes[dashed]), "")
 }
 
 func positive(vs []float64) bool {
