@@ -56,8 +56,18 @@ type Options struct {
 	// null. The end of a shear phase whose source is not "experiment" is
 	// placed where the tracks stop (cessation.RefineStop).
 	Phases []phases.Phase
+	// EveryS, when positive, is the length of the time-resolved windows
+	// through every shear phase, s: their profiles go to the profile table
+	// and their decompositions to the phase's InTime. Zero leaves InTime
+	// out; the onset of inhomogeneity is then found with windows of
+	// DefaultEveryS. EveryAuto asks for the windows at the default length.
+	EveryS float64
 	Seed   uint64
 }
+
+// EveryAuto, as Options.EveryS, asks for the time-resolved windows at the
+// default length (DefaultEveryS).
+const EveryAuto = -1
 
 // DefaultMapWindows windows over the recording resolve a start-up or a
 // cessation in tenths of a phase while keeping thousands of samples each.
@@ -112,7 +122,13 @@ type Shear struct {
 	// (the step's strain).
 	LocalStrain   []StrainPoint
 	NominalStrain float64
-	Summary       summary.ShearPhase
+	// InTime holds the time-resolved windows (Options.EveryS, or the
+	// default length), EveryS their length, s, and Onset the first
+	// departure from the affine no-slip profile (nil when none).
+	InTime  []InTime
+	EveryS  float64
+	Onset   *Onset
+	Summary summary.ShearPhase
 }
 
 // SpaceTime is the velocity and local rate in map windows (rows) and
@@ -303,7 +319,8 @@ func Analyze(pts []tracks.Point, e *experiment.Experiment, c *calib.Calibration,
 			SlipStationaryErrUMPerS: summary.Null, SlipMovingUMPerS: summary.Null, SlipMovingErrUMPerS: summary.Null,
 			SlipLengthStationaryUM: summary.Null, SlipLengthStationaryErrUM: summary.Null,
 			SlipLengthMovingUM: summary.Null, SlipLengthMovingErrUM: summary.Null, SlipFraction: summary.Null,
-			SlipFractionErr: summary.Null, Bands: []summary.Band{}}
+			SlipFractionErr: summary.Null, Bands: []summary.Band{}, InTimeWindowS: summary.Null,
+			InhomogeneityOnsetS: summary.Null, InhomogeneityOnsetErrS: summary.Null, InhomogeneityOnsetStrain: summary.Null}
 		d, err := rheometry.Decompose(steady.Bins, geom, st.WallSpeedUMPerS, rheometry.Options{})
 		if err != nil {
 			r.Warnings = append(r.Warnings, fmt.Sprintf("shear phase %d (%g-%g s): %v", n, st.StartS, st.EndS, err))
@@ -337,6 +354,7 @@ func Analyze(pts []tracks.Point, e *experiment.Experiment, c *calib.Calibration,
 			return nil, err
 		}
 		sh.LocalStrain = localStrain(whole.Bins, geom, st.DurationS())
+		r.inTime(&sh, &sp, ts, whole, geom, o, sigma, n)
 		sh.Summary = sp
 		r.Shear = append(r.Shear, sh)
 		r.ShearPhases = append(r.ShearPhases, sp)

@@ -4,6 +4,7 @@ import (
 	"context"
 	"fmt"
 	"io"
+	"math"
 	"os"
 	"path/filepath"
 	"strconv"
@@ -47,6 +48,36 @@ func (w *windowList) Set(v string) error {
 	return nil
 }
 
+// everyFlag is --every: a window length in s, or "auto" for the default
+// chosen from the tracer density.
+type everyFlag float64
+
+func (e *everyFlag) String() string {
+	switch {
+	case *e == profile.EveryAuto:
+		return "auto"
+	case *e > 0:
+		return strconv.FormatFloat(float64(*e), 'g', -1, 64)
+	}
+	return ""
+}
+
+func (e *everyFlag) Set(v string) error {
+	if v == "auto" {
+		*e = profile.EveryAuto
+		return nil
+	}
+	s, err := strconv.ParseFloat(v, 64)
+	if err != nil || !(s > 0) || math.IsInf(s, 0) {
+		return fmt.Errorf("every %q is not a window length in seconds (a positive number) or auto", v)
+	}
+	*e = everyFlag(s)
+	return nil
+}
+
+// everyUsage is the help line of --every.
+const everyUsage = "time-resolved profiles in consecutive windows of SECONDS through every shear phase (auto: a length chosen from the tracer density)"
+
 func runProfile(ctx context.Context, args []string, stderr io.Writer) error {
 	fs := newFlags("profile", "TRACKS.csv", stderr)
 	expPath := fs.String("e", "", "experiment file (YAML)")
@@ -55,6 +86,8 @@ func runProfile(ctx context.Context, args []string, stderr io.Writer) error {
 	bins := fs.Int("bins", 0, "number of layers across the gap (0: 40)")
 	var windows windowList
 	fs.Var(&windows, "window", "time window START:END in s for a profile; repeat for more (default: the second half of each shear phase)")
+	var every everyFlag
+	fs.Var(&every, "every", everyUsage)
 	seed := fs.Uint64("seed", 1, "seed of the bootstrap's random numbers")
 	if err := parseFlags(fs, args); err != nil {
 		return err
@@ -92,7 +125,7 @@ func runProfile(ctx context.Context, args []string, stderr io.Writer) error {
 	if err != nil {
 		return badInput(fmt.Errorf("%s: %w", in, err))
 	}
-	cfg := pipeline.Config{Experiment: e, ExperimentDir: filepath.Dir(*expPath), Bins: *bins, Windows: windows, Seed: *seed}
+	cfg := pipeline.Config{Experiment: e, ExperimentDir: filepath.Dir(*expPath), Bins: *bins, Windows: windows, EveryS: float64(every), Seed: *seed}
 	t, err := pipeline.FromTracks(cfg, in, pts, c)
 	if err != nil {
 		return stageErr(err)

@@ -29,6 +29,7 @@ type runOptions struct {
 	holding bool // the caller holds outDir already
 	bins    int
 	windows windowList
+	every   everyFlag
 	seed    uint64
 	// commandLine is the command as typed, for the report's lab record.
 	commandLine []string
@@ -44,6 +45,7 @@ func runRun(ctx context.Context, args []string, stderr io.Writer) error {
 	fs.BoolVar(&o.noJitter, "no-jitter", false, "do not measure and remove the camera's frame-to-frame jitter (a rigidly mounted camera)")
 	fs.IntVar(&o.bins, "bins", 0, "number of layers across the gap (0: the default)")
 	fs.Var(&o.windows, "window", "time window START:END in s for a profile; repeat for more (default: the second half of each shear phase)")
+	fs.Var(&o.every, "every", everyUsage)
 	fs.Uint64Var(&o.seed, "seed", 1, "seed of the bootstrap's random numbers")
 	if err := parseFlags(fs, args); err != nil {
 		return err
@@ -122,7 +124,7 @@ func runChain(ctx context.Context, o runOptions, stderr io.Writer) (*summary.Sum
 	started := time.Now()
 	digest := startDigest(o.input)
 	cfg := o.config(exp, stderr)
-	cfg.Bins, cfg.Windows, cfg.Seed = o.bins, o.windows, o.seed
+	cfg.Bins, cfg.Windows, cfg.EveryS, cfg.Seed = o.bins, o.windows, float64(o.every), o.seed
 	rec, err := pipeline.Open(ctx, cfg)
 	if err != nil {
 		return nil, stageErr(err)

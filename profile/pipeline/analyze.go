@@ -29,7 +29,7 @@ func Analyze(ctx context.Context, cfg Config, t *Tracked) (*Analysis, error) {
 	}
 	cfg.report(StageProfile, 0, 1)
 	r, err := profile.Analyze(t.Points, cfg.Experiment, t.Calibration,
-		profile.Options{Bins: cfg.Bins, Windows: cfg.Windows, Seed: cfg.Seed, Phases: t.Phases})
+		profile.Options{Bins: cfg.Bins, Windows: cfg.Windows, EveryS: cfg.EveryS, Seed: cfg.Seed, Phases: t.Phases})
 	if err != nil {
 		return nil, inputErr(err)
 	}

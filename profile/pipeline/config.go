@@ -29,6 +29,10 @@ type Config struct {
 	// Windows are time windows whose profiles are analysed instead of the
 	// default steady window of each shear phase they overlap.
 	Windows []profile.Window
+	// EveryS is the length of the time-resolved windows through every
+	// shear phase, s (profile.Options.EveryS: 0 none, profile.EveryAuto
+	// the default length).
+	EveryS float64
 	// Seed seeds the bootstrap's random numbers.
 	Seed uint64
 	// Progress, when not nil, is called as the stages advance, from the

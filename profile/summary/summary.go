@@ -143,6 +143,39 @@ type ShearPhase struct {
 	Bands                     []Band     `json:"bands"`
 	Banded                    bool       `json:"banded"`
 	Verdict                   string     `json:"verdict"`
+	// InTime holds the time-resolved windows of the phase (--every), in
+	// time order; absent without --every. Windows whose profile could not
+	// be fitted are left out, with a warning.
+	InTime []InTime `json:"in_time,omitempty"`
+	// InTimeWindowS is the length of the windows the onset was found
+	// with, s: --every's, or the default chosen from the tracer density.
+	InTimeWindowS Num `json:"in_time_window_s"`
+	// InhomogeneityOnsetS is the time after the phase's start at which the
+	// profile first departs from the affine no-slip profile, s, with its
+	// standard uncertainty; null when it never does.
+	InhomogeneityOnsetS    Num `json:"inhomogeneity_onset_s"`
+	InhomogeneityOnsetErrS Num `json:"inhomogeneity_onset_err_s"`
+	// InhomogeneityOnsetStrain is the nominal strain at the onset.
+	InhomogeneityOnsetStrain Num `json:"inhomogeneity_onset_strain"`
+	// InhomogeneityFirst is "slip" or "bands", whichever departed first;
+	// null with the onset.
+	InhomogeneityFirst *string `json:"inhomogeneity_first"`
+}
+
+// InTime is one time-resolved window of a shear phase.
+type InTime struct {
+	TStartS float64 `json:"t_start_s"`
+	TEndS   float64 `json:"t_end_s"`
+	// Strain is the nominal strain at the window's middle.
+	Strain                  Num    `json:"strain"`
+	BulkRatePerS            Num    `json:"bulk_rate_per_s"`
+	BulkRateErrPerS         Num    `json:"bulk_rate_err_per_s"`
+	SlipStationaryUMPerS    Num    `json:"slip_stationary_um_per_s"`
+	SlipStationaryErrUMPerS Num    `json:"slip_stationary_err_um_per_s"`
+	SlipMovingUMPerS        Num    `json:"slip_moving_um_per_s"`
+	SlipMovingErrUMPerS     Num    `json:"slip_moving_err_um_per_s"`
+	Bands                   []Band `json:"bands"`
+	Verdict                 string `json:"verdict"`
 }
 
 // After-stop verdicts and modes.
