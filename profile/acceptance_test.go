@@ -11,6 +11,7 @@ import (
 	"gaptrace/calib/experiment"
 	"gaptrace/profile/bands"
 	"gaptrace/profile/cessation"
+	"gaptrace/profile/rheometry"
 	"gaptrace/profile/summary"
 	"gaptrace/track/synth"
 )
@@ -172,8 +173,8 @@ func TestBands(t *testing.T) {
 		truth := s.Truth().Summary.ShearPhases[0]
 		sp := analyze(t, s, 210).ShearPhases[0]
 		checkBands(t, 210, s.GapUM(), sp.Bands, truth.Bands)
-		if sp.Verdict != summary.WallSlipBanded {
-			t.Errorf("verdict %s, want %s", sp.Verdict, summary.WallSlipBanded)
+		if sp.Verdict != rheometry.WallSlipBanded {
+			t.Errorf("verdict %s, want %s", sp.Verdict, rheometry.WallSlipBanded)
 		}
 	})
 }
@@ -199,7 +200,7 @@ func TestCouetteNewtonian(t *testing.T) {
 		t.Logf("seed %d: verdict %s, %d bands, bulk %.4f (truth %.4f), slips %.3g, %.3g of V; chi2 %.0f for %d layers with the curvature; a straight line would need %s",
 			300+seed, sp.Verdict, len(sp.Bands), float64(sp.BulkRatePerS), float64(tp.BulkRatePerS),
 			float64(sp.SlipStationaryUMPerS)/v, float64(sp.SlipMovingUMPerS)/v, m.Chi2, m.N, straightLine(t, r))
-		if sp.Verdict != summary.Homogeneous || sp.Banded {
+		if sp.Verdict != rheometry.Homogeneous || sp.Banded {
 			t.Errorf("seed %d: verdict %s with %d bands, want homogeneous", 300+seed, sp.Verdict, len(sp.Bands))
 		}
 		if e := math.Abs(float64(sp.BulkRatePerS/tp.BulkRatePerS) - 1); e > bulkRateTol {
@@ -258,7 +259,7 @@ func TestQuiescentSeeds(t *testing.T) {
 		c := r.Cessation
 		n = c.Picture.N
 		wallSig, jumpSig, gain = math.Max(wallSig, c.WallSigma), math.Max(jumpSig, c.Picture.CandidateJumpSigma), math.Max(gain, c.Picture.CandidateGain)
-		if a.Verdict != summary.Quiescent {
+		if a.Verdict != cessation.Quiescent {
 			t.Errorf("seed %d: quiescent sample called %s (mode %v, plane %v, max %.3g um, floor %.3g um)",
 				500+seed, a.Verdict, *a.Mode, a.PlaneUM, float64(a.MaxDisplacementUM), float64(a.NoiseFloorUM))
 		}
@@ -275,7 +276,7 @@ func TestFailurePlane(t *testing.T) {
 		if a == nil {
 			t.Fatalf("seed %d: no after-stop analysis; warnings %v", 600+seed, r.Warnings)
 		}
-		if a.Verdict != summary.Moving || a.Mode == nil || *a.Mode != summary.ModeBulk {
+		if a.Verdict != cessation.Moving || a.Mode == nil || *a.Mode != cessation.ModeBulk {
 			t.Fatalf("seed %d: verdict %s mode %v, want moving bulk", 600+seed, a.Verdict, a.Mode)
 		}
 		h := s.GapUM()
@@ -294,7 +295,7 @@ func TestFailurePlane(t *testing.T) {
 func TestSlipAfterCessation(t *testing.T) {
 	s, truth, r := builtin(t, "step-wallslip", 700)
 	a, ta := r.AfterStop, truth.AfterStop
-	if a == nil || a.Verdict != summary.Moving || a.Mode == nil || *a.Mode != summary.ModeWall {
+	if a == nil || a.Verdict != cessation.Moving || a.Mode == nil || *a.Mode != cessation.ModeWall {
 		t.Fatalf("after stop %+v, want moving, mode wall", a)
 	}
 	if r.Cessation.Wall != s.Cessation.Wall {
@@ -306,7 +307,7 @@ func TestSlipAfterCessation(t *testing.T) {
 	// And at the moving wall, a case of our own.
 	s.Cessation.Wall = synth.WallMoving
 	r = analyze(t, s, 701)
-	if a := r.AfterStop; a == nil || a.Mode == nil || *a.Mode != summary.ModeWall || r.Cessation.Wall != synth.WallMoving {
+	if a := r.AfterStop; a == nil || a.Mode == nil || *a.Mode != cessation.ModeWall || r.Cessation.Wall != synth.WallMoving {
 		t.Errorf("slip after cessation at the moving wall: %+v, wall %q", a, r.Cessation.Wall)
 	}
 }
@@ -526,7 +527,7 @@ func TestMislinksAfterStop(t *testing.T) {
 		if a == nil || a.Verdict != ta.Verdict {
 			t.Fatalf("%s with mislinks: after stop %+v, truth %s", name, a, ta.Verdict)
 		}
-		if ta.Verdict == summary.Moving {
+		if ta.Verdict == cessation.Moving {
 			h := s.GapUM()
 			dp := math.Abs(float64(a.PlaneUM-ta.PlaneUM)) / h
 			df := math.Abs(float64(a.OnsetAfterStopS-ta.OnsetAfterStopS)) * s.FPS

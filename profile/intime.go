@@ -205,7 +205,7 @@ func inTimeSummary(its []InTime) []summary.InTime {
 		e.BulkRatePerS, e.BulkRateErrPerS = summary.Num(d.BulkRatePerS), summary.Num(d.BulkRateErrPerS)
 		e.SlipStationaryUMPerS, e.SlipStationaryErrUMPerS = summary.Num(d.SlipStationaryUMPerS), summary.Num(d.SlipStationaryErrUMPerS)
 		e.SlipMovingUMPerS, e.SlipMovingErrUMPerS = summary.Num(d.SlipMovingUMPerS), summary.Num(d.SlipMovingErrUMPerS)
-		e.Bands, e.Verdict = d.Bands, d.Verdict
+		e.Bands, e.Verdict = summaryBands(d.Bands), d.Verdict
 		out = append(out, e)
 	}
 	return out

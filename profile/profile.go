@@ -420,7 +420,17 @@ func fillShear(sp *summary.ShearPhase, d *rheometry.Decomposition) {
 	sp.SlipLengthStationaryUM, sp.SlipLengthStationaryErrUM = summary.Num(d.SlipLengthStationaryUM), summary.Num(d.SlipLengthStationaryErrUM)
 	sp.SlipLengthMovingUM, sp.SlipLengthMovingErrUM = summary.Num(d.SlipLengthMovingUM), summary.Num(d.SlipLengthMovingErrUM)
 	sp.SlipFraction, sp.SlipFractionErr = summary.Num(d.SlipFraction), summary.Num(d.SlipFractionErr)
-	sp.WallSlip, sp.Bands, sp.Banded, sp.Verdict = d.WallSlip, d.Bands, d.Banded, d.Verdict
+	sp.WallSlip, sp.Bands, sp.Banded, sp.Verdict = d.WallSlip, summaryBands(d.Bands), d.Banded, d.Verdict
+}
+
+// summaryBands returns bands bs as summary.json writes them.
+func summaryBands(bs []rheometry.Band) []summary.Band {
+	out := make([]summary.Band, 0, len(bs))
+	for _, b := range bs {
+		out = append(out, summary.Band{FromUM: summary.Num(b.FromUM), ToUM: summary.Num(b.ToUM),
+			RatePerS: summary.Num(b.RatePerS), RateErrPerS: summary.Num(b.RateErrPerS), ToErrUM: summary.Num(b.ToErrUM)})
+	}
+	return out
 }
 
 // refineStops places the end of each shear phase not taken from the
@@ -573,9 +583,8 @@ func (r *Result) afterStop(ts []velocity.Track, steps []experiment.Step, o Optio
 	r.Cessation = c
 	a := &summary.AfterStop{StopS: c.StopS, ObservedS: c.ObservedS, NoiseFloorUM: summary.Num(c.NoiseFloorUM),
 		MaxDisplacementUM: summary.Num(c.MaxDisplacementUM), RecoveredStrain: summary.Num(c.RecoveredStrain),
-		Verdict: summary.Quiescent, PlaneUM: summary.Null, OnsetAfterStopS: summary.Null}
+		Verdict: c.Verdict(), PlaneUM: summary.Null, OnsetAfterStopS: summary.Null}
 	if c.Moving {
-		a.Verdict = summary.Moving
 		mode := c.Mode
 		a.Mode = &mode
 		a.OnsetAfterStopS = summary.Num(c.OnsetAfterStopS)

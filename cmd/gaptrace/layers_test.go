@@ -11,7 +11,9 @@ import (
 // chainLayers is the one-way chain of the design, from the bottom up:
 // calibration below everything, then frames → detections → tracks →
 // profiles → verdicts → report, the pipeline that runs them all, and the
-// command. A package may import packages of its own layer or below, never
+// command. profile/summary, the schema of summary.json and nothing else,
+// stands with the verdicts: it holds the types that profile fills, and
+// imports only the phases and the calibration they embed. A package may import packages of its own layer or below, never
 // above. Each entry is a path prefix relative to the module; the longest
 // matching prefix gives a package's layer.
 var chainLayers = [][]string{
@@ -20,8 +22,8 @@ var chainLayers = [][]string{
 	{"track/detect"},
 	{"track/tracks", "track/flowprior", "track/link"},
 	{"profile/velocity", "profile/layers", "profile/bands", "profile/phases"},
-	{"profile/rheometry", "profile/cessation", "profile"},
-	{"profile/summary", "profile/report", "profile/campaign"},
+	{"profile/rheometry", "profile/cessation", "profile", "profile/summary"},
+	{"profile/report", "profile/campaign"},
 	{"profile/pipeline"},
 	{"cmd"},
 }
@@ -35,10 +37,10 @@ var testBeds = []string{"track/synth", "track/matleak"}
 // "importer -> imported"; the test fails on any other, and on an entry
 // here that no longer exists.
 var knownUpEdges = map[string]bool{
-	"profile -> profile/summary":           true,
-	"profile/rheometry -> profile/summary": true,
-	"track/synth -> profile/summary":       true,
-	"track/synth -> profile/phases":        true,
+	"track/synth -> profile/summary":   true,
+	"track/synth -> profile/phases":    true,
+	"track/synth -> profile/rheometry": true,
+	"track/synth -> profile/cessation": true,
 }
 
 // layerOf returns the layer of module-relative path p and whether p is a

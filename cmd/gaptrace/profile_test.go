@@ -11,6 +11,7 @@ import (
 	"testing"
 
 	"gaptrace/profile"
+	"gaptrace/profile/cessation"
 	"gaptrace/profile/summary"
 	"gaptrace/track/synth"
 	"gaptrace/track/tracks"
@@ -76,8 +77,8 @@ func TestProfileCommand(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if len(s.ShearPhases) != 1 || s.AfterStop == nil || s.AfterStop.Verdict != summary.Moving ||
-		s.AfterStop.Mode == nil || *s.AfterStop.Mode != summary.ModeBulk {
+	if len(s.ShearPhases) != 1 || s.AfterStop == nil || s.AfterStop.Verdict != cessation.Moving ||
+		s.AfterStop.Mode == nil || *s.AfterStop.Mode != cessation.ModeBulk {
 		t.Errorf("summary: %d shear phases, after stop %+v; want one phase and a failure plane", len(s.ShearPhases), s.AfterStop)
 	}
 	for name, head := range map[string][]string{"profiles.csv": profile.ProfilesHeader, "after_stop.csv": profile.AfterStopHeader} {

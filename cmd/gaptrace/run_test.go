@@ -10,6 +10,7 @@ import (
 
 	"gocv.io/x/gocv"
 
+	"gaptrace/profile/cessation"
 	"gaptrace/profile/report"
 	"gaptrace/profile/summary"
 	"gaptrace/track/synth"
@@ -190,7 +191,7 @@ func compareSummaries(t *testing.T, got, want *summary.Summary) {
 	if w.OnsetAfterStopS.Known() && !(math.Abs(float64(g.OnsetAfterStopS-w.OnsetAfterStopS)) <= e2eOnsetFrames/got.Input.FPS) {
 		t.Errorf("onset %g s, want %g", g.OnsetAfterStopS, w.OnsetAfterStopS)
 	}
-	if w.Verdict == summary.Moving && !(math.Abs(float64(g.RecoveredStrain-w.RecoveredStrain)) <= e2eStrainTol) {
+	if w.Verdict == cessation.Moving && !(math.Abs(float64(g.RecoveredStrain-w.RecoveredStrain)) <= e2eStrainTol) {
 		t.Errorf("recovered strain %g, want %g", g.RecoveredStrain, w.RecoveredStrain)
 	}
 }

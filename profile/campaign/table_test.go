@@ -7,7 +7,9 @@ import (
 	"testing"
 
 	"gaptrace/calib"
+	"gaptrace/profile/cessation"
 	"gaptrace/profile/internal/headless"
+	"gaptrace/profile/rheometry"
 	"gaptrace/profile/summary"
 )
 
@@ -24,7 +26,7 @@ func phase(ratePerS, gapUM, f float64) summary.ShearPhase {
 		SlipLengthMovingUM: 12.5, SlipLengthMovingErrUM: summary.Null,
 		SlipFraction: summary.Num(f), SlipFractionErr: 0.004, WallSlip: f > 0.02,
 		Bands:   []summary.Band{{FromUM: 0, ToUM: summary.Num(gapUM), RatePerS: summary.Num(ratePerS * (1 - f)), RateErrPerS: 0.01, ToErrUM: summary.Null}},
-		Verdict: summary.VerdictOf(f > 0.02, false)}
+		Verdict: rheometry.VerdictOf(f > 0.02, false)}
 }
 
 // writeSummary writes a made-up summary.json for a row.
@@ -64,10 +66,10 @@ func madeUpCampaign(t *testing.T) (*Manifest, Layout) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	mode := summary.ModeBulk
+	mode := cessation.ModeBulk
 	writeSummary(t, l, "a", 800, []summary.ShearPhase{phase(0.1, 800, 0.3), phase(0.2, 800, 0.25)},
 		&summary.AfterStop{StopS: 2, ObservedS: 1, NoiseFloorUM: 0.4, MaxDisplacementUM: 9, RecoveredStrain: 0.04,
-			Verdict: summary.Moving, Mode: &mode, PlaneUM: 350, OnsetAfterStopS: 0.15})
+			Verdict: cessation.Moving, Mode: &mode, PlaneUM: 350, OnsetAfterStopS: 0.15})
 	writeSummary(t, l, "b", 800, []summary.ShearPhase{phase(10, 800, 0.1)}, nil)
 	writeSummary(t, l, "c", 600, []summary.ShearPhase{phase(1, 600, 0.2)}, nil)
 	failing := phase(3, 600, 0.15)

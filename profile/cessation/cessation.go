@@ -150,6 +150,20 @@ type Result struct {
 	OnsetAfterStopS                     float64 // NaN when quiescent
 }
 
+// After-stop verdicts, as summary.json writes them.
+const (
+	Quiescent = "quiescent"
+	Moving    = "moving"
+)
+
+// Verdict returns the after-stop verdict, Moving or Quiescent.
+func (r *Result) Verdict() string {
+	if r.Moving {
+		return Moving
+	}
+	return Quiescent
+}
+
 // Modes and walls.
 const (
 	ModeWall       = "wall"

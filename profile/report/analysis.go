@@ -149,7 +149,7 @@ func phaseProfile(sh *profile.Shear, sp *summary.ShearPhase, gapUM float64, e *e
 // with the fitted picture at each.
 func afterStop(c *cessation.Result, a *summary.AfterStop, gapUM float64) *figure.AfterStop {
 	out := &figure.AfterStop{GapUM: gapUM, NoiseFloorUM: num(a.NoiseFloorUM), PlaneUM: math.NaN()}
-	if a.Mode != nil && *a.Mode == summary.ModeBulk {
+	if a.Mode != nil && *a.Mode == cessation.ModeBulk {
 		out.PlaneUM = num(a.PlaneUM)
 	}
 	var withData []cessation.TimeProfile

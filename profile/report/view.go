@@ -5,9 +5,10 @@ import (
 	"strconv"
 
 	"gaptrace/calib/geometry"
+	"gaptrace/profile/cessation"
 	"gaptrace/profile/phases"
 	"gaptrace/profile/report/figure"
-	"gaptrace/profile/summary"
+	"gaptrace/profile/rheometry"
 )
 
 // view is what the page template shows, every number already in words.
@@ -117,11 +118,11 @@ func newView(d *Data, figs []shownFigure, notShown []string) *view {
 			conv, mean = rateConvention(e.Geometry), meanRate(e.Geometry, num(sp.WallSpeedUMPerS))
 		}
 		h, ls := phaseFindings(i, sp, conv, mean)
-		v.Findings = append(v.Findings, finding{h, ls, sp.Verdict == summary.Homogeneous})
+		v.Findings = append(v.Findings, finding{h, ls, sp.Verdict == rheometry.Homogeneous})
 	}
 	if a := s.AfterStop; a != nil {
 		h, ls := afterStopFindings(a)
-		v.Findings = append(v.Findings, finding{h, ls, a.Verdict == summary.Quiescent})
+		v.Findings = append(v.Findings, finding{h, ls, a.Verdict == cessation.Quiescent})
 	}
 	for _, p := range s.Phases {
 		v.Phases = append(v.Phases, []string{phaseKind(p.Kind), formatTime(p.StartS), formatTime(p.EndS), p.Source})
@@ -150,7 +151,7 @@ func newView(d *Data, figs []shownFigure, notShown []string) *view {
 	if a := s.AfterStop; a != nil {
 		mode := "none"
 		if a.Mode != nil {
-			mode = map[string]string{summary.ModeWall: "slip at a wall", summary.ModeBulk: "failure plane in the sample"}[*a.Mode]
+			mode = map[string]string{cessation.ModeWall: "slip at a wall", cessation.ModeBulk: "failure plane in the sample"}[*a.Mode]
 			if mode == "" {
 				mode = *a.Mode
 			}
@@ -254,13 +255,13 @@ func phaseKind(k string) string {
 
 func verdictWords(v string) string {
 	switch v {
-	case summary.Homogeneous:
+	case rheometry.Homogeneous:
 		return "homogeneous"
-	case summary.WallSlip:
+	case rheometry.WallSlip:
 		return "wall slip"
-	case summary.Banded:
+	case rheometry.Banded:
 		return "shear bands"
-	case summary.WallSlipBanded:
+	case rheometry.WallSlipBanded:
 		return "wall slip and shear bands"
 	case inconclusive:
 		return "inconclusive"

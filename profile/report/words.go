@@ -5,6 +5,7 @@ import (
 	"math"
 	"strings"
 
+	"gaptrace/profile/cessation"
 	"gaptrace/profile/rheometry"
 	"gaptrace/profile/summary"
 )
@@ -26,13 +27,13 @@ func headline(i int, sp *summary.ShearPhase) string {
 	head := fmt.Sprintf("Shear phase %d (%s, analysed over %s): ", i+1, formatSpan(sp.StartS, sp.EndS),
 		formatSpan(sp.WindowS[0], sp.WindowS[1]))
 	switch sp.Verdict {
-	case summary.Homogeneous:
+	case rheometry.Homogeneous:
 		return head + "the sample sheared homogeneously, without wall slip or shear bands."
-	case summary.WallSlip:
+	case rheometry.WallSlip:
 		return head + "the sample slipped at the walls; its bulk sheared uniformly."
-	case summary.Banded:
+	case rheometry.Banded:
 		return head + fmt.Sprintf("the sample split into %d shear bands, without wall slip.", len(sp.Bands))
-	case summary.WallSlipBanded:
+	case rheometry.WallSlipBanded:
 		return head + fmt.Sprintf("the sample slipped at the walls and split into %d shear bands.", len(sp.Bands))
 	case inconclusive:
 		return head + "the results contradict themselves or the physics; see the warnings before using them."
@@ -127,13 +128,13 @@ func afterStopHeadline(a *summary.AfterStop) string {
 		mode = *a.Mode
 	}
 	switch {
-	case a.Verdict == summary.Quiescent:
+	case a.Verdict == cessation.Quiescent:
 		return head + "the sample stayed quiescent."
-	case a.Verdict == summary.Moving && mode == summary.ModeBulk:
+	case a.Verdict == cessation.Moving && mode == cessation.ModeBulk:
 		return head + "the sample failed along a plane inside the gap at " + formatValue(num(a.PlaneUM), unitLen) + "."
-	case a.Verdict == summary.Moving && mode == summary.ModeWall:
+	case a.Verdict == cessation.Moving && mode == cessation.ModeWall:
 		return head + "the sample slipped at a wall after cessation."
-	case a.Verdict == summary.Moving:
+	case a.Verdict == cessation.Moving:
 		return head + "the sample moved."
 	case a.Verdict == inconclusive:
 		return head + "the results contradict themselves or the physics; see the warnings."
@@ -145,7 +146,7 @@ func afterStopHeadline(a *summary.AfterStop) string {
 func afterStopFindings(a *summary.AfterStop) (string, []string) {
 	maxDx, floor := num(a.MaxDisplacementUM), num(a.NoiseFloorUM)
 	var lines []string
-	if a.Verdict == summary.Quiescent && known(floor) {
+	if a.Verdict == cessation.Quiescent && known(floor) {
 		lines = append(lines, "No motion detected: the largest displacement since the stop, "+formatValue(maxDx, unitLen)+
 			", stays within the noise floor of "+formatValue(floor, unitLen)+
 			" (the displacement noise alone reaches with 3 standard uncertainties).")
@@ -154,7 +155,7 @@ func afterStopFindings(a *summary.AfterStop) (string, []string) {
 			" against a noise floor of "+formatValue(floor, unitLen)+".")
 	}
 	lines = append(lines, "Strain recovered by elastic recoil: "+formatValue(num(a.RecoveredStrain), "")+".")
-	if a.Verdict == summary.Moving {
+	if a.Verdict == cessation.Moving {
 		if on := num(a.OnsetAfterStopS); known(on) {
 			lines = append(lines, "Motion above the noise floor began "+formatTime(on)+" after the stop.")
 		} else {

@@ -24,7 +24,6 @@ import (
 	"gaptrace/calib/geometry"
 	"gaptrace/profile/bands"
 	"gaptrace/profile/layers"
-	"gaptrace/profile/summary"
 )
 
 // SlipSigma is how many standard errors a slip velocity must exceed to be
@@ -36,6 +35,38 @@ const SlipSigma = 3
 // shifts the extrapolated fluid speed by 1% of the wall speed, so apparent
 // slip below 2% cannot be told from a calibration error.
 const MinSlipFraction = 0.02
+
+// Verdicts of a shear phase, as summary.json writes them.
+const (
+	Homogeneous    = "homogeneous"
+	WallSlip       = "wall_slip"
+	Banded         = "banded"
+	WallSlipBanded = "wall_slip+banded"
+)
+
+// VerdictOf returns the verdict of a shear phase with or without
+// significant wall slip and more than one band.
+func VerdictOf(wallSlip, banded bool) string {
+	switch {
+	case wallSlip && banded:
+		return WallSlipBanded
+	case wallSlip:
+		return WallSlip
+	case banded:
+		return Banded
+	}
+	return Homogeneous
+}
+
+// Band is one layer of uniform local shear rate, from FromUM to ToUM above
+// the stationary wall (um), with its rate and the standard errors.
+type Band struct {
+	FromUM, ToUM          float64
+	RatePerS, RateErrPerS float64
+	// ToErrUM is the standard error of the boundary ToUM, um; NaN for the
+	// top band, which ends at the moving wall.
+	ToErrUM float64
+}
 
 // Decomposition is the rheometric decomposition of one velocity profile.
 type Decomposition struct {
@@ -65,7 +96,7 @@ type Decomposition struct {
 	SlipFraction, SlipFractionErr float64
 	WallSlip                      bool
 	// Bands from the stationary wall up, in y (um); one band means none.
-	Bands   []summary.Band
+	Bands   []Band
 	Banded  bool
 	Verdict string
 	// Model is the chosen fit in the Newtonian coordinate u; Selection
@@ -133,15 +164,15 @@ func Decompose(bins []layers.Bin, g geometry.Geometry, wallSpeedUMPerS float64, 
 		(!math.IsNaN(d.SlipMovingUMPerS) && significant(d.SlipMovingUMPerS, d.SlipMovingErrUMPerS, v))
 	edges := m.Edges()
 	for j, r := range m.Rates {
-		b := summary.Band{FromUM: summary.Num(yOfU(g, edges[j])), ToUM: summary.Num(yOfU(g, edges[j+1])),
-			RatePerS: summary.Num(r), RateErrPerS: summary.Num(m.RateErrs[j]), ToErrUM: summary.Null}
+		b := Band{FromUM: yOfU(g, edges[j]), ToUM: yOfU(g, edges[j+1]),
+			RatePerS: r, RateErrPerS: m.RateErrs[j], ToErrUM: math.NaN()}
 		if j < len(m.Bounds) {
-			b.ToErrUM = summary.Num(m.BoundErrs[j] * dydu(g, m.Bounds[j]))
+			b.ToErrUM = m.BoundErrs[j] * dydu(g, m.Bounds[j])
 		}
 		d.Bands = append(d.Bands, b)
 	}
 	d.Banded = len(m.Rates) > 1
-	d.Verdict = summary.VerdictOf(d.WallSlip, d.Banded)
+	d.Verdict = VerdictOf(d.WallSlip, d.Banded)
 	return d, nil
 }
 

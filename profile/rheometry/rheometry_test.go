@@ -6,7 +6,6 @@ import (
 
 	"gaptrace/calib/geometry"
 	"gaptrace/profile/layers"
-	"gaptrace/profile/summary"
 )
 
 // bins returns 40 exact layers of v(y) with a 1 um/s error each.
@@ -29,12 +28,12 @@ func TestDecomposeSigns(t *testing.T) {
 		wallSlip           bool
 		verdict            string
 	}{
-		{"no slip", 1200, 0, 1200, 0, 0, 0, false, summary.Homogeneous},
-		{"slip at both", 1200, 180, 900, 180, 300, 0.4, true, summary.WallSlip},
+		{"no slip", 1200, 0, 1200, 0, 0, 0, false, Homogeneous},
+		{"slip at both", 1200, 180, 900, 180, 300, 0.4, true, WallSlip},
 		// The contract's formulas along +x: a reversed phase has negative
 		// slips (and still positive slip lengths).
-		{"reversed", -1200, -180, -900, -180, -300, 0.4, true, summary.WallSlip},
-		{"slip below the fraction", 1200, 12, 1200, 12, 0, 0.01, false, summary.Homogeneous},
+		{"reversed", -1200, -180, -900, -180, -300, 0.4, true, WallSlip},
+		{"slip below the fraction", 1200, 12, 1200, 12, 0, 0.01, false, Homogeneous},
 	}
 	for _, c := range cases {
 		d, err := Decompose(bins(800, func(y float64) float64 { return c.v0 + (c.vh-c.v0)*y/800 }), plates, c.v, Options{})

@@ -68,7 +68,8 @@ type Tool struct {
 	Version string `json:"version"`
 }
 
-// Version is gaptrace's version.
+// Version is the tool.version that summary.json carries: gaptrace's
+// version.
 const Version = "0.1.0"
 
 // Input describes the video.
@@ -98,28 +99,6 @@ type Band struct {
 	ToErrUM Num `json:"to_err_um"`
 }
 
-// Verdicts of a shear phase.
-const (
-	Homogeneous    = "homogeneous"
-	WallSlip       = "wall_slip"
-	Banded         = "banded"
-	WallSlipBanded = "wall_slip+banded"
-)
-
-// VerdictOf returns the verdict of a shear phase with or without
-// significant wall slip and more than one band.
-func VerdictOf(wallSlip, banded bool) string {
-	switch {
-	case wallSlip && banded:
-		return WallSlipBanded
-	case wallSlip:
-		return WallSlip
-	case banded:
-		return Banded
-	}
-	return Homogeneous
-}
-
 // ShearPhase is the rheometric decomposition of one shear phase.
 type ShearPhase struct {
 	StartS                    float64    `json:"start_s"`
@@ -142,7 +121,8 @@ type ShearPhase struct {
 	WallSlip                  bool       `json:"wall_slip"`
 	Bands                     []Band     `json:"bands"`
 	Banded                    bool       `json:"banded"`
-	Verdict                   string     `json:"verdict"`
+	// Verdict is one of rheometry's verdicts (rheometry.VerdictOf).
+	Verdict string `json:"verdict"`
 	// InTime holds the time-resolved windows of the phase (--every), in
 	// time order; absent without --every. Windows whose profile could not
 	// be fitted are left out, with a warning.
@@ -178,14 +158,6 @@ type InTime struct {
 	Verdict                 string `json:"verdict"`
 }
 
-// After-stop verdicts and modes.
-const (
-	Quiescent = "quiescent"
-	Moving    = "moving"
-	ModeWall  = "wall"
-	ModeBulk  = "bulk"
-)
-
 // AfterStop is the analysis of the time after the last shear phase.
 type AfterStop struct {
 	StopS             float64 `json:"stop_s"`
@@ -193,8 +165,8 @@ type AfterStop struct {
 	NoiseFloorUM      Num     `json:"noise_floor_um"`
 	MaxDisplacementUM Num     `json:"max_displacement_um"`
 	RecoveredStrain   Num     `json:"recovered_strain"`
-	Verdict           string  `json:"verdict"`
-	Mode              *string `json:"mode"`
+	Verdict           string  `json:"verdict"` // cessation.Quiescent or cessation.Moving
+	Mode              *string `json:"mode"`    // cessation.ModeWall or ModeBulk; nil when quiescent
 	PlaneUM           Num     `json:"plane_um"`
 	OnsetAfterStopS   Num     `json:"onset_after_stop_s"`
 }

@@ -12,7 +12,9 @@ import (
 
 	"gaptrace/calib"
 	"gaptrace/calib/geometry"
+	"gaptrace/profile/cessation"
 	"gaptrace/profile/phases"
+	"gaptrace/profile/rheometry"
 	"gaptrace/profile/summary"
 	"gaptrace/track/tracks"
 )
@@ -260,7 +262,7 @@ func (s *Scenario) shearTruthOf(prof Profile, startS, endS, vUMPerS, nominalPerS
 		}
 	}
 	sp.Banded = len(sp.Bands) > 1
-	sp.Verdict = summary.VerdictOf(sp.WallSlip, sp.Banded)
+	sp.Verdict = rheometry.VerdictOf(sp.WallSlip, sp.Banded)
 	return sp
 }
 
@@ -300,20 +302,20 @@ func (s *Scenario) afterStopTruth() *summary.AfterStop {
 	h := s.GapUM()
 	obs := s.lastFrameS() - stop // the displacement is seen up to the last frame
 	a := &summary.AfterStop{StopS: stop, ObservedS: s.DurationS() - stop, NoiseFloorUM: summary.Null,
-		MaxDisplacementUM: 0, RecoveredStrain: 0, Verdict: summary.Quiescent,
+		MaxDisplacementUM: 0, RecoveredStrain: 0, Verdict: cessation.Quiescent,
 		PlaneUM: summary.Null, OnsetAfterStopS: summary.Null}
 	c := s.Cessation
 	g := c.Strain(h) * c.Progress(obs)
 	if !c.Moves(h) || g == 0 {
 		return a
 	}
-	a.Verdict = summary.Moving
+	a.Verdict = cessation.Moving
 	a.RecoveredStrain = summary.Num(g)
 	a.OnsetAfterStopS = summary.Num(c.OnsetS)
-	mode := summary.ModeWall
+	mode := cessation.ModeWall
 	maxD := math.Abs(g) * h
 	if c.Kind == CessationPlane {
-		mode = summary.ModeBulk
+		mode = cessation.ModeBulk
 		a.PlaneUM = summary.Num(c.PlaneFrac * h)
 		maxD = math.Abs(g) * h * max(c.PlaneFrac, 1-c.PlaneFrac)
 	}

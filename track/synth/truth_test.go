@@ -5,7 +5,9 @@ import (
 	"testing"
 
 	"gaptrace/calib/geometry"
+	"gaptrace/profile/cessation"
 	"gaptrace/profile/phases"
+	"gaptrace/profile/rheometry"
 	"gaptrace/profile/summary"
 )
 
@@ -76,8 +78,8 @@ func TestTruthConsistent(t *testing.T) {
 				if sp.Banded != (len(sp.Bands) > 1) || sp.WallSlip != (ss != 0 || sm != 0) {
 					t.Errorf("banded %v with %d bands, wall_slip %v with slips %g, %g", sp.Banded, len(sp.Bands), sp.WallSlip, ss, sm)
 				}
-				want := map[[2]bool]string{{false, false}: summary.Homogeneous, {true, false}: summary.WallSlip,
-					{false, true}: summary.Banded, {true, true}: summary.WallSlipBanded}[[2]bool{sp.WallSlip, sp.Banded}]
+				want := map[[2]bool]string{{false, false}: rheometry.Homogeneous, {true, false}: rheometry.WallSlip,
+					{false, true}: rheometry.Banded, {true, true}: rheometry.WallSlipBanded}[[2]bool{sp.WallSlip, sp.Banded}]
 				if sp.Verdict != want {
 					t.Errorf("verdict %q, want %q", sp.Verdict, want)
 				}
@@ -86,7 +88,7 @@ func TestTruthConsistent(t *testing.T) {
 			if a == nil {
 				t.Fatal("no after-stop truth")
 			}
-			if (a.Verdict == summary.Moving) != s.Cessation.Moves(h) || (a.Mode == nil) != (a.Verdict == summary.Quiescent) {
+			if (a.Verdict == cessation.Moving) != s.Cessation.Moves(h) || (a.Mode == nil) != (a.Verdict == cessation.Quiescent) {
 				t.Errorf("after stop: verdict %q, mode %v for cessation %+v", a.Verdict, a.Mode, s.Cessation)
 			}
 		})
@@ -113,7 +115,7 @@ func TestTruthValues(t *testing.T) {
 			t.Errorf("slip: %s = %g, want %g", c.name, c.got, c.want)
 		}
 	}
-	if sp.Verdict != summary.WallSlip {
+	if sp.Verdict != rheometry.WallSlip {
 		t.Errorf("slip: verdict %q", sp.Verdict)
 	}
 
@@ -122,7 +124,7 @@ func TestTruthValues(t *testing.T) {
 	// the larger part (480 um) moves by g x 480.
 	a := mustBuiltin(t, "step-plane", 1).Truth().Summary.AfterStop
 	g := 0.05 * (1 - math.Exp(-(1.495-0.1)/0.2))
-	if a.Verdict != summary.Moving || a.Mode == nil || *a.Mode != summary.ModeBulk || !near(a.PlaneUM, 480) ||
+	if a.Verdict != cessation.Moving || a.Mode == nil || *a.Mode != cessation.ModeBulk || !near(a.PlaneUM, 480) ||
 		!near(a.RecoveredStrain, g) || !near(a.OnsetAfterStopS, 0.1) || !near(a.MaxDisplacementUM, g*480) || a.StopS != 0.5 {
 		t.Errorf("step-plane after stop: %+v (mode %v), want bulk plane at 480 um, strain %g, onset 0.1 s", a, a.Mode, g)
 	}
@@ -132,7 +134,7 @@ func TestTruthValues(t *testing.T) {
 	s := mustBuiltin(t, "couette", 1)
 	sc := s.Truth().Summary.ShearPhases[0]
 	v := s.Geometry.WallSpeed(1)
-	if !near(sc.WallSpeedUMPerS, v) || !near(sc.BulkRatePerS, v/1000) || sc.Verdict != summary.Homogeneous {
+	if !near(sc.WallSpeedUMPerS, v) || !near(sc.BulkRatePerS, v/1000) || sc.Verdict != rheometry.Homogeneous {
 		t.Errorf("couette: %+v, want wall speed %g, bulk rate %g", sc, v, v/1000)
 	}
 	if mid, lin := s.VelocityFraction(500), 0.5; mid == lin || math.Abs(mid-s.Geometry.Reference(500, 1)) > truthTol {

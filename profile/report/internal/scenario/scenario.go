@@ -11,8 +11,10 @@ import (
 
 	"gaptrace/calib"
 	"gaptrace/calib/experiment"
+	"gaptrace/profile/cessation"
 	"gaptrace/profile/phases"
 	"gaptrace/profile/report/figure"
+	"gaptrace/profile/rheometry"
 	"gaptrace/profile/summary"
 )
 
@@ -241,11 +243,11 @@ func Summary() *summary.Summary {
 			{FromUM: demoBandUM, ToUM: demoGapUM, RatePerS: summary.Num(rate2), RateErrPerS: 0.02, ToErrUM: summary.Null},
 		},
 		Banded:  true,
-		Verdict: summary.WallSlipBanded,
+		Verdict: rheometry.WallSlipBanded,
 	}}
-	mode := summary.ModeBulk
+	mode := cessation.ModeBulk
 	s.AfterStop = &summary.AfterStop{StopS: 2.5, ObservedS: 3.5, NoiseFloorUM: 0.6, MaxDisplacementUM: 11.2,
-		RecoveredStrain: 0.0036, Verdict: summary.Moving, Mode: &mode, PlaneUM: demoPlaneUM, OnsetAfterStopS: 0.15}
+		RecoveredStrain: 0.0036, Verdict: cessation.Moving, Mode: &mode, PlaneUM: demoPlaneUM, OnsetAfterStopS: 0.15}
 	s.Warnings = []string{"12 tracks crossed the moving wall line and were cut there."}
 	return s
 }
