@@ -33,6 +33,13 @@ type HistOptions struct {
 	// MaxPairs bounds the number of frame pairs used, spread evenly over the
 	// input. Zero means all.
 	MaxPairs int
+	// Intervals[f], when not nil, is the time from frame f to frame f+1 of
+	// the frames given, in nominal frame intervals (1 at a steady rate):
+	// each pair's displacements are divided by it, so that the profile is
+	// the displacement per nominal interval of a camera whose frame rate
+	// varies. MaxStepPx bounds that scaled displacement. Pairs past its end
+	// count as 1.
+	Intervals []float64
 }
 
 // Defaults of HistOptions.
@@ -100,13 +107,22 @@ func FromDetections(frames [][]Point, cal *calib.Calibration, opt HistOptions) (
 	if opt.MaxPairs > 0 && pairs > opt.MaxPairs {
 		stride = int(math.Ceil(float64(pairs) / float64(opt.MaxPairs)))
 	}
-	reach := math.Hypot(opt.MaxStepPx, opt.CrossPx)
+	for i, d := range opt.Intervals {
+		if !(d > 0) || math.IsInf(d, 0) {
+			return nil, fmt.Errorf("flowprior: frame interval %d is %g nominal intervals, must be positive", i, d)
+		}
+	}
 	var g grid.Grid
 	for f := 0; f+1 < len(frames); f += stride {
 		next := frames[f+1]
 		if len(frames[f]) == 0 || len(next) == 0 {
 			continue
 		}
+		iv := 1.0
+		if f < len(opt.Intervals) {
+			iv = opt.Intervals[f]
+		}
+		reach := math.Hypot(opt.MaxStepPx*iv, opt.CrossPx)
 		g.Build(len(next), func(i int) (float64, float64) { return next[i].XPx, next[i].YPx }, reach)
 		for _, a := range frames[f] {
 			_, yUM := cal.ToGap(a.XPx, a.YPx)
@@ -117,7 +133,7 @@ func FromDetections(frames [][]Point, cal *calib.Calibration, opt HistOptions) (
 			row := hist[b*nh : (b+1)*nh]
 			g.Near(a.XPx, a.YPx, reach, func(j int) {
 				dx, dy := next[j].XPx-a.XPx, next[j].YPx-a.YPx
-				along, across := dx*fx+dy*fy, dx*ax+dy*ay
+				along, across := (dx*fx+dy*fy)/iv, dx*ax+dy*ay
 				if math.Abs(across) > opt.CrossPx || math.Abs(along) > opt.MaxStepPx {
 					return
 				}
@@ -222,6 +238,12 @@ type TrackOptions struct {
 	// MinSteps is the fewest steps a bin needs to be known. Zero means
 	// DefaultMinSteps.
 	MinSteps int
+	// NominalIntervalS, when positive, is the nominal frame interval, s,
+	// of a camera whose frame rate varies: each one-frame step is divided
+	// by its own interval (the difference of the points' TS) over this one,
+	// so that the profile is the displacement per nominal interval. Zero
+	// takes the steps as they are.
+	NominalIntervalS float64
 }
 
 // DefaultMinSteps is the fewest one-frame steps for a bin of FromTracks: with
@@ -236,7 +258,7 @@ const DefaultMinSteps = 10
 // (grouped by track and in frame order, as Linker returns them, saves a
 // sort).
 func FromTracks(pts []tracks.Point, cal *calib.Calibration, opt TrackOptions) (*Profile, error) {
-	ss, err := trackSteps(pts, cal, 0, 1)
+	ss, err := trackSteps(pts, cal, 0, 1, opt.NominalIntervalS)
 	if err != nil {
 		return nil, err
 	}
@@ -251,12 +273,24 @@ type step struct {
 
 // trackSteps collects the one-frame steps of pts, split into windows of
 // windowFrames by their first frame (all in one when windowFrames is 0).
-func trackSteps(pts []tracks.Point, cal *calib.Calibration, windowFrames, windows int) ([][]step, error) {
+// With nominalS > 0 each step is scaled to that interval (TrackOptions).
+func trackSteps(pts []tracks.Point, cal *calib.Calibration, windowFrames, windows int, nominalS float64) ([][]step, error) {
 	if err := cal.Check(); err != nil {
 		return nil, fmt.Errorf("flowprior: %w", err)
 	}
+	if nominalS < 0 || math.IsNaN(nominalS) || math.IsInf(nominalS, 0) {
+		return nil, fmt.Errorf("flowprior: nominal frame interval %g s must be positive or zero", nominalS)
+	}
 	ss := make([][]step, windows)
 	eachStep(pts, func(a, b *tracks.Point) {
+		scale := 1.0
+		if nominalS > 0 {
+			dt := b.TS - a.TS
+			if !(dt > 0) || math.IsInf(dt, 0) {
+				return // no usable time: the step says nothing per interval
+			}
+			scale = nominalS / dt
+		}
 		w := 0
 		if windowFrames > 0 {
 			w = a.Frame / windowFrames
@@ -264,7 +298,7 @@ func trackSteps(pts []tracks.Point, cal *calib.Calibration, windowFrames, window
 				return
 			}
 		}
-		ss[w] = append(ss[w], step{(a.YUM + b.YUM) / 2, (b.XUM - a.XUM) / cal.UMPerPx, (b.YUM - a.YUM) / cal.UMPerPx})
+		ss[w] = append(ss[w], step{(a.YUM + b.YUM) / 2, scale * (b.XUM - a.XUM) / cal.UMPerPx, scale * (b.YUM - a.YUM) / cal.UMPerPx})
 	})
 	return ss, nil
 }
@@ -388,11 +422,40 @@ func eachStep(pts []tracks.Point, fn func(a, b *tracks.Point)) {
 // abruptly (the start or stop of shear) the pieces are not uniform and the
 // offsets of those few frames are less certain.
 func CommonModeFromTracks(pts []tracks.Point, cal *calib.Calibration, frames int) ([]Shift, error) {
+	return commonMode(pts, cal, frames, nil)
+}
+
+// CommonModeFromTracksAt is CommonModeFromTracks for a camera whose frame
+// rate varies: clock[f] is the time of frame f in nominal frame intervals
+// (time x nominal rate), one per frame, increasing, and the pieces' uniform
+// motion and the removed trend are lines in that clock rather than in the
+// frame index.
+func CommonModeFromTracksAt(pts []tracks.Point, cal *calib.Calibration, clock []float64) ([]Shift, error) {
+	for f := range clock {
+		if math.IsNaN(clock[f]) || math.IsInf(clock[f], 0) || (f > 0 && !(clock[f] > clock[f-1])) {
+			return nil, fmt.Errorf("flowprior: frame %d's time %g (nominal intervals) does not follow the previous frame's", f, clock[f])
+		}
+	}
+	if len(clock) == 0 {
+		return nil, fmt.Errorf("flowprior: need at least one frame, got 0")
+	}
+	return commonMode(pts, cal, len(clock), clock)
+}
+
+// commonMode is CommonModeFromTracks with the frames' clock (nil: the
+// frame index).
+func commonMode(pts []tracks.Point, cal *calib.Calibration, frames int, clock []float64) ([]Shift, error) {
 	if err := cal.Check(); err != nil {
 		return nil, fmt.Errorf("flowprior: %w", err)
 	}
 	if frames < 1 {
 		return nil, fmt.Errorf("flowprior: need at least one frame, got %d", frames)
+	}
+	if clock == nil {
+		clock = make([]float64, frames)
+		for f := range clock {
+			clock[f] = float64(f)
+		}
 	}
 	// Image-oriented positions from the gap coordinates.
 	type obs struct {
@@ -447,13 +510,13 @@ func CommonModeFromTracks(pts []tracks.Point, cal *calib.Calibration, frames int
 	}
 	n, sf, sff := make([]float64, nPieces), make([]float64, nPieces), make([]float64, nPieces)
 	for _, o := range os {
-		f := float64(o.f)
+		f := clock[o.f]
 		n[o.piece]++
 		sf[o.piece] += f
 		sff[o.piece] += f * f
 	}
 	newAxis := func(coord func(o obs) float64) *cmAxis {
-		a := &cmAxis{of: of, op: op, n: n, sf: sf, sff: sff, v: make([]float64, nObs),
+		a := &cmAxis{of: of, op: op, clock: clock, n: n, sf: sf, sff: sff, v: make([]float64, nObs),
 			j: make([]float64, frames), prev: make([]float64, frames),
 			a: make([]float64, nPieces), b: make([]float64, nPieces),
 			s: make([]float64, nPieces), sfv: make([]float64, nPieces), r: make([][]float64, frames)}
@@ -474,7 +537,7 @@ func CommonModeFromTracks(pts []tracks.Point, cal *calib.Calibration, frames int
 			// Leave out the pieces that do not move uniformly.
 			clear(rms)
 			for i, k := range op {
-				f, fr := float64(of[i]), of[i]
+				f, fr := clock[of[i]], of[i]
 				dx := ax.v[i] - jx[fr] - ax.a[k] - ax.b[k]*f
 				dy := ay.v[i] - jy[fr] - ay.a[k] - ay.b[k]*f
 				rms[k] += dx*dx + dy*dy
@@ -533,6 +596,7 @@ const (
 // is the line a[k] + b[k] f, frame f is offset by j[f].
 type cmAxis struct {
 	of, op     []int
+	clock      []float64 // per frame: its time, nominal intervals (f at a steady rate)
 	n, sf, sff []float64 // per piece: points, sum of f, sum of f^2
 	v          []float64
 	j, prev    []float64 // offsets of this round and of the previous one
@@ -547,7 +611,7 @@ func (c *cmAxis) fitLines() {
 	clear(c.s)
 	clear(c.sfv)
 	for i, k := range c.op {
-		f := float64(c.of[i])
+		f := c.clock[c.of[i]]
 		x := c.v[i] - c.j[c.of[i]]
 		c.s[k] += x
 		c.sfv[k] += f * x
@@ -576,7 +640,7 @@ func (c *cmAxis) offsets(bad []bool) float64 {
 			continue
 		}
 		f := c.of[i]
-		c.r[f] = append(c.r[f], c.v[i]-c.a[k]-c.b[k]*float64(f))
+		c.r[f] = append(c.r[f], c.v[i]-c.a[k]-c.b[k]*c.clock[f])
 	}
 	for f := range c.j {
 		if len(c.r[f]) >= minCommonPoints {
@@ -586,7 +650,7 @@ func (c *cmAxis) offsets(bad []bool) float64 {
 		}
 	}
 	fillGaps(c.j)
-	detrend(c.j)
+	detrendAt(c.j, c.clock)
 	change := 0.0
 	for f, v := range c.j {
 		change = math.Max(change, math.Abs(v-c.prev[f]))
@@ -636,14 +700,24 @@ func fillGaps(v []float64) {
 }
 
 // detrend subtracts the least-squares line through v (against its index).
-func detrend(v []float64) {
+func detrend(v []float64) { detrendAt(v, nil) }
+
+// detrendAt subtracts the least-squares line through v against at (nil:
+// the index).
+func detrendAt(v, at []float64) {
 	n := float64(len(v))
 	if n < 2 {
 		return
 	}
+	abscissa := func(i int) float64 {
+		if at == nil {
+			return float64(i)
+		}
+		return at[i]
+	}
 	var sf, sff, sv, sfv float64
 	for i, x := range v {
-		f := float64(i)
+		f := abscissa(i)
 		sf += f
 		sff += f * f
 		sv += x
@@ -652,7 +726,7 @@ func detrend(v []float64) {
 	b := (n*sfv - sf*sv) / (n*sff - sf*sf)
 	a := (sv - b*sf) / n
 	for i := range v {
-		v[i] -= a + b*float64(i)
+		v[i] -= a + b*abscissa(i)
 	}
 }
 

@@ -66,7 +66,9 @@ func SeriesFromDetections(frames [][]Point, cal *calib.Calibration, opt HistOpti
 			for i := range next {
 				f0 := s.Start[i]
 				f1 := min(f0+windowFrames+1, len(frames))
-				s.Profiles[i], errs[i] = FromDetections(frames[f0:f1], cal, opt)
+				o := opt
+				o.Intervals = opt.Intervals[min(f0, len(opt.Intervals)):min(f1, len(opt.Intervals))]
+				s.Profiles[i], errs[i] = FromDetections(frames[f0:f1], cal, o)
 			}
 		}()
 	}
@@ -109,7 +111,7 @@ func SeriesFromTracks(pts []tracks.Point, cal *calib.Calibration, opt TrackOptio
 		return nil, fmt.Errorf("flowprior: need at least one frame, got %d", frames)
 	}
 	nw := (frames + windowFrames - 1) / windowFrames
-	ss, err := trackSteps(pts, cal, windowFrames, nw)
+	ss, err := trackSteps(pts, cal, windowFrames, nw, opt.NominalIntervalS)
 	if err != nil {
 		return nil, err
 	}

@@ -14,6 +14,11 @@
 // (GapFrames) is carried forward on its prediction and may pick up again.
 // Common-mode motion of the image (jitter, drift), when given per frame, is
 // removed before linking and from the gap coordinates of the output.
+//
+// A camera whose frame rate varies (phones, webcams, skipped frames) is
+// linked on its true frame times (Options.FrameTimesS): motion estimates and
+// the flow prior are kept per nominal frame interval, 1/FPS, and every
+// prediction is scaled by the actual interval to the frame it predicts.
 package link
 
 import (
@@ -37,8 +42,16 @@ type Detection struct {
 
 // Options sets the linker.
 type Options struct {
-	// FPS is the frame rate, 1/s; a point's time is its frame / FPS.
+	// FPS is the frame rate, 1/s; a point's time is its frame / FPS
+	// unless FrameTimesS gives it. With FrameTimesS it is the nominal rate:
+	// the unit of the motion estimates and of the prior is 1/FPS.
 	FPS float64
+	// FrameTimesS[f], when not nil, is the time of frame f, s, for a
+	// camera whose frame intervals vary: strictly increasing and finite.
+	// Points get it as their time, and a prediction from frame f to g is
+	// scaled by (FrameTimesS[g] - FrameTimesS[f]) x FPS nominal intervals.
+	// Frames past its end follow its last frame at 1/FPS.
+	FrameTimesS []float64
 	// MaxStepPx is the largest displacement of a tracer between consecutive
 	// frames, px, after common-mode motion is removed. It is also the search
 	// radius of a tracer with no motion estimate (no prior, one point).
@@ -206,11 +219,51 @@ func NewLinker(cal *calib.Calibration, opt Options) (*Linker, error) {
 	case opt.MinPoints < 0:
 		return nil, fmt.Errorf("link: MinPoints must not be negative, got %d", opt.MinPoints)
 	}
+	if err := checkTimes(opt.FrameTimesS); err != nil {
+		return nil, err
+	}
 	if opt.MinPoints == 0 {
 		opt.MinPoints = 2
 	}
 	l := &Linker{cal: cal, toGap: cal.GapMapper(), opt: opt, searchPx: math.Min(opt.SearchPx, opt.MaxStepPx)}
 	return l, nil
+}
+
+// checkTimes reports frame times that do not increase or are not numbers.
+func checkTimes(ts []float64) error {
+	for f, t := range ts {
+		if math.IsNaN(t) || math.IsInf(t, 0) {
+			return fmt.Errorf("link: frame %d's time %g s is not a number", f, t)
+		}
+		if f > 0 && !(t > ts[f-1]) {
+			return fmt.Errorf("link: frame %d's time %g s does not follow frame %d's (%g s)", f, t, f-1, ts[f-1])
+		}
+	}
+	return nil
+}
+
+// timeS is the time of frame, s: FrameTimesS, else frame / FPS.
+func (l *Linker) timeS(frame int) float64 { return frameTimeS(l.opt, frame) }
+
+// clock is the time of frame in nominal frame intervals (frame itself at a
+// steady rate): the unit in which predictions are made.
+func (l *Linker) clock(frame int) float64 {
+	if l.opt.FrameTimesS == nil {
+		return float64(frame)
+	}
+	return frameTimeS(l.opt, frame) * l.opt.FPS
+}
+
+// frameTimeS is the time of frame, s, under opt.
+func frameTimeS(opt Options, frame int) float64 {
+	ts := opt.FrameTimesS
+	if n := len(ts); n > 0 && frame >= 0 {
+		if frame < n {
+			return ts[frame]
+		}
+		return ts[n-1] + float64(frame-n+1)/opt.FPS
+	}
+	return float64(frame) / opt.FPS
 }
 
 // Add links the detections of frame to the active tracks. Frames must come
@@ -298,7 +351,7 @@ func (l *Linker) retire(frame int) {
 // append adds a detection to a track.
 func (l *Linker) append(t *track, frame int, d Detection, p pos) {
 	xUM, yUM := l.toGap(p.XPx, p.YPx)
-	t.pts = append(t.pts, tracks.Point{Track: tracks.Unlinked, Frame: frame, TS: float64(frame) / l.opt.FPS,
+	t.pts = append(t.pts, tracks.Point{Track: tracks.Unlinked, Frame: frame, TS: l.timeS(frame),
 		XPx: d.XPx, YPx: d.YPx, XUM: xUM, YUM: yUM, Brightness: d.Brightness, SizePx: d.SizePx})
 	t.push(frame, p.XPx, p.YPx)
 }
@@ -318,9 +371,10 @@ func (l *Linker) finish(t *track) {
 	l.done = append(l.done, t.pts...)
 }
 
-// predict returns a track's expected displacement per frame and whether it
-// has any motion estimate, and, for a track with its own motion, the flow
-// prior's displacement at its height (pok false when none or not needed).
+// predict returns a track's expected displacement per nominal frame
+// interval and whether it has any motion estimate, and, for a track with its
+// own motion, the flow prior's displacement at its height (pok false when
+// none or not needed).
 func (l *Linker) predict(t *track) (vx, vy float64, ok bool, px, py float64, pok bool) {
 	n := t.newest()
 	if l.opt.Prior != nil {
@@ -331,7 +385,7 @@ func (l *Linker) predict(t *track) (vx, vy float64, ok bool, px, py float64, pok
 		return px, py, pok, 0, 0, false
 	}
 	o := t.oldest()
-	steps := float64(t.hf[n] - t.hf[o])
+	steps := l.clock(t.hf[n]) - l.clock(t.hf[o])
 	ox, oy := (t.hx[n]-t.hx[o])/steps, (t.hy[n]-t.hy[o])/steps
 	if !pok {
 		return ox, oy, true, 0, 0, false
@@ -352,20 +406,25 @@ func (l *Linker) candidates(frame int) {
 		cell = l.opt.MaxStepPx
 	}
 	l.g.Build(len(l.p), l.posAt, cell)
+	now := l.clock(frame)
 	for ti, t := range l.active {
+		// k frames ahead (k-1 missed), dk nominal intervals ahead; the
+		// search widens with whichever is longer.
 		k := frame - t.last
+		dk := now - l.clock(t.last)
+		wide := math.Max(float64(k), dk)
 		vx, vy, ok, px, py, pok := l.predict(t)
 		n := t.newest()
 		lx, ly := t.hx[n], t.hy[n]
 		var r float64
 		if ok && l.searchPx > 0 {
-			r = l.searchPx * (1 + GapGrowth*float64(k-1))
+			r = l.searchPx * (1 + GapGrowth*(wide-1))
 		} else {
-			r = l.opt.MaxStepPx * float64(k)
+			r = l.opt.MaxStepPx * wide
 		}
 		first := len(l.edges)
 		penalty := GapPenalty * float64(k-1)
-		l.near(ti, lx, ly, vx, vy, k, r, penalty, first)
+		l.near(ti, lx, ly, vx, vy, dk, wide, r, penalty, first)
 		if !ok || l.searchPx == 0 || t.nh < 2 {
 			continue
 		}
@@ -373,21 +432,22 @@ func (l *Linker) candidates(frame int) {
 		// the sample stops or starts: around the prior's and the
 		// motionless prediction, at a price.
 		for _, alt := range [2][3]float64{{px, py, b2f(pok)}, {0, 0, 1}} {
-			if ax, ay := alt[0]-vx, alt[1]-vy; alt[2] == 0 || (ax*ax+ay*ay)*float64(k*k) < r*r*altApart*altApart {
+			if ax, ay := alt[0]-vx, alt[1]-vy; alt[2] == 0 || (ax*ax+ay*ay)*dk*dk < r*r*altApart*altApart {
 				continue
 			}
-			l.near(ti, lx, ly, alt[0], alt[1], k, r, penalty+AltPenalty, first)
+			l.near(ti, lx, ly, alt[0], alt[1], dk, wide, r, penalty+AltPenalty, first)
 		}
 	}
 }
 
 // near adds the candidate pairs of track ti, last at (lx, ly), with the
-// detections within r of its position predicted k frames ahead at (vx, vy)
-// per frame, at cost (d/r)^2 + extra. Pairs already listed from index first
-// on keep their cheaper cost.
-func (l *Linker) near(ti int, lx, ly, vx, vy float64, k int, r, extra float64, first int) {
-	maxStep := l.opt.MaxStepPx * float64(k)
-	qx, qy := lx+vx*float64(k), ly+vy*float64(k)
+// detections within r of its position predicted dk nominal frame intervals
+// ahead at (vx, vy) per interval, at cost (d/r)^2 + extra, and no farther
+// than wide times MaxStepPx from (lx, ly). Pairs already listed from index
+// first on keep their cheaper cost.
+func (l *Linker) near(ti int, lx, ly, vx, vy, dk, wide, r, extra float64, first int) {
+	maxStep := l.opt.MaxStepPx * wide
+	qx, qy := lx+vx*dk, ly+vy*dk
 	r2 := r * r
 	l.g.Near(qx, qy, r, func(j int) {
 		p := l.p[j]

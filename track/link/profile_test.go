@@ -213,8 +213,10 @@ func TestLinkBuiltins(t *testing.T) {
 	const minCorrect, maxWrong = 0.99, 0.01
 	check := func(label string, s *synth.Scenario, wallUMPerS float64) {
 		b := detect(t, s, 50)
+		// The true frame times: irregular for the variable-rate camera
+		// (vfr), frame/FPS for the others.
 		opt := Options{FPS: s.FPS, MaxStepPx: MaxStepFor(wallUMPerS, s.FPS, s.UMPerPx), GapFrames: DefaultGapFrames,
-			MeasureCommonMode: s.JitterPx > 0}
+			MeasureCommonMode: s.JitterPx > 0, FrameTimesS: s.FrameTimes()}
 		pts, st, err := Link(b.frames, b.cal, opt)
 		if err != nil {
 			t.Fatal(err)

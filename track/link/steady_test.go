@@ -44,7 +44,7 @@ func TestSteadyCamera(t *testing.T) {
 					pts[f] = append(pts[f], flowprior.Point{XPx: d.XPx, YPx: d.YPx})
 				}
 			}
-			prior, err := flowprior.SeriesFromDetections(pts, sm.cal, flowprior.HistOptions{MaxStepPx: opt.MaxStepPx}, PriorWindowFrames)
+			prior, err := flowprior.SeriesFromDetections(pts, sm.cal, flowprior.HistOptions{MaxStepPx: opt.MaxStepPx}, priorWindow(sm.frames))
 			if err != nil {
 				t.Fatal(err)
 			}

@@ -9,16 +9,50 @@ import (
 	"gaptrace/track/tracks"
 )
 
-// PriorWindowFrames is the window of the flow prior Link builds: long enough
-// for a few hundred candidate pairs per gap bin with tens of tracers in a bin,
-// short against a shear phase, so that start-up and cessation stay resolved
-// to a fraction of a second at video rates (common practice).
+// PriorWindowFrames is the longest window of the flow prior Link builds:
+// long enough for a few hundred candidate pairs per gap bin with a few
+// tracers in a bin, short against a shear phase, so that start-up and
+// cessation stay resolved to a fraction of a second at video rates (common
+// practice). Denser recordings get shorter windows (priorWindow).
 const PriorWindowFrames = 50
+
+// Settings of priorWindow.
+const (
+	// priorStepsPerBin is how many one-frame steps a gap bin of the prior
+	// should hold in a window: the median of a hundred has an error of an
+	// eighth of one step's scatter (1.25 sigma/sqrt(n), common practice),
+	// and the detections' histogram peak of a hundred true pairs stands
+	// far above the accidental ones.
+	priorStepsPerBin = 100
+	// minPriorWindowFrames is the shortest window: a start or stop of the
+	// wall inside a window leaves it wrong for at most this many frames,
+	// which tracks at rest carry across on their own motion (a window
+	// holding a start in its middle made the tracks near the moving wall
+	// lose their tracers for the rest of it: TestLinkBuiltins, vfr).
+	minPriorWindowFrames = 5
+)
+
+// priorWindow returns the window of the prior for frames: enough frames
+// for priorStepsPerBin detections per gap bin (flowprior.DefaultBins) at
+// the recording's mean detections per frame, between minPriorWindowFrames
+// and PriorWindowFrames.
+func priorWindow(frames [][]Detection) int {
+	n := 0
+	for _, ds := range frames {
+		n += len(ds)
+	}
+	if n == 0 {
+		return PriorWindowFrames
+	}
+	perFrame := float64(n) / float64(len(frames))
+	w := int(math.Ceil(priorStepsPerBin * flowprior.DefaultBins / perFrame))
+	return min(max(w, minPriorWindowFrames), PriorWindowFrames)
+}
 
 // Link links a whole recording; frames[f] holds the detections of frame f.
 // When opt.Prior is nil it builds one in two steps: a prior from the
-// detections alone (flowprior.SeriesFromDetections, windows of
-// PriorWindowFrames), a first linking pass with it, then a prior from those
+// detections alone (flowprior.SeriesFromDetections, windows of priorWindow
+// frames), a first linking pass with it, then a prior from those
 // tracks (flowprior.SeriesFromTracks) for the final pass. Without a
 // measurable prior it links on the tracks' own motion only. When the second
 // prior agrees with the first within PriorReusePx and no common-mode motion
@@ -33,6 +67,7 @@ func Link(frames [][]Detection, cal *calib.Calibration, opt Options) ([]tracks.P
 	}
 	if opt.Prior == nil || opt.MeasureCommonMode {
 		built := opt.Prior == nil
+		window := priorWindow(frames)
 		if built {
 			pts := make([][]flowprior.Point, len(frames))
 			for f, ds := range frames {
@@ -45,7 +80,8 @@ func Link(frames [][]Detection, cal *calib.Calibration, opt Options) ([]tracks.P
 					pts[f][i] = flowprior.Point{XPx: d.XPx - sh.DXPx, YPx: d.YPx - sh.DYPx}
 				}
 			}
-			if s, err := flowprior.SeriesFromDetections(pts, cal, flowprior.HistOptions{MaxStepPx: opt.MaxStepPx}, PriorWindowFrames); err == nil {
+			hist := flowprior.HistOptions{MaxStepPx: opt.MaxStepPx, Intervals: intervals(opt, len(frames))}
+			if s, err := flowprior.SeriesFromDetections(pts, cal, hist, window); err == nil {
 				opt.Prior = s
 			}
 		}
@@ -64,13 +100,21 @@ func Link(frames [][]Detection, cal *calib.Calibration, opt Options) ([]tracks.P
 		go func() {
 			defer close(done)
 			if built {
-				prior2, prior2Err = flowprior.SeriesFromTracks(first, cal, flowprior.TrackOptions{}, len(frames), PriorWindowFrames)
+				to := flowprior.TrackOptions{}
+				if opt.FrameTimesS != nil {
+					to.NominalIntervalS = 1 / opt.FPS
+				}
+				prior2, prior2Err = flowprior.SeriesFromTracks(first, cal, to, len(frames), window)
 			}
 		}()
 		var cm []flowprior.Shift
 		var cmErr error
 		if opt.MeasureCommonMode && len(frames) > 0 && !steadyCamera(first, opt, len(frames)) {
-			cm, cmErr = flowprior.CommonModeFromTracks(first, cal, len(frames))
+			if opt.FrameTimesS != nil {
+				cm, cmErr = flowprior.CommonModeFromTracksAt(first, cal, clocks(opt, len(frames)))
+			} else {
+				cm, cmErr = flowprior.CommonModeFromTracks(first, cal, len(frames))
+			}
 		}
 		<-done
 		if built && prior2Err == nil {
@@ -200,7 +244,11 @@ func steadyCamera(first []tracks.Point, opt Options, frames int) bool {
 	if opt.Prior == nil || len(opt.CommonMode) > 0 {
 		return false
 	}
-	rx, ry := rmsShift(jitterOnly(flowprior.QuickCommonMode(first, opt.Prior, frames), JitterWindowFrames))
+	field := opt.Prior
+	if opt.FrameTimesS != nil {
+		field = intervalField{opt.Prior, intervals(opt, frames)}
+	}
+	rx, ry := rmsShift(jitterOnly(flowprior.QuickCommonMode(first, field, frames), JitterWindowFrames))
 	return math.Max(rx, ry) < QuickJitterFraction*JitterMinRMSPx
 }
 
@@ -255,4 +303,43 @@ const (
 // a few pixels.
 func MaxStepFor(wallSpeedUMPerS, fps, umPerPx float64) float64 {
 	return stepMargin*math.Abs(wallSpeedUMPerS)/fps/umPerPx + stepSlackPx
+}
+
+// intervals returns, for a camera whose frame rate varies, the time from
+// each of the first frames-1 frames to the next in nominal frame intervals
+// (nil for a steady rate).
+func intervals(opt Options, frames int) []float64 {
+	if opt.FrameTimesS == nil || frames < 2 {
+		return nil
+	}
+	iv := make([]float64, frames-1)
+	for f := range iv {
+		iv[f] = (frameTimeS(opt, f+1) - frameTimeS(opt, f)) * opt.FPS
+	}
+	return iv
+}
+
+// clocks returns the time of each frame in nominal frame intervals.
+func clocks(opt Options, frames int) []float64 {
+	c := make([]float64, frames)
+	for f := range c {
+		c[f] = frameTimeS(opt, f) * opt.FPS
+	}
+	return c
+}
+
+// intervalField is a prior per nominal interval scaled to the actual
+// interval from each frame to the next.
+type intervalField struct {
+	f  flowprior.Field
+	iv []float64 // per frame: the interval to the next frame, nominal intervals
+}
+
+// Step returns the prior's displacement from frame to frame+1, px.
+func (s intervalField) Step(frame int, yUM float64) (dxPx, dyPx float64, ok bool) {
+	dx, dy, ok := s.f.Step(frame, yUM)
+	if frame >= 0 && frame < len(s.iv) {
+		dx, dy = dx*s.iv[frame], dy*s.iv[frame]
+	}
+	return dx, dy, ok
 }
