@@ -251,11 +251,11 @@ func Analyze(pts []tracks.Point, e *experiment.Experiment, c *calib.Calibration,
 	// the phases' samples: a slow or resting layer asks for a lag longer
 	// than a map window, and the phase's samples of such a layer would
 	// bunch at the middle of the phase, leaving the other windows empty.
-	mapW := (t1 - t0) / float64(o.MapWindows)
+	mapW, mapT0, mapN := mapGrid(t0, t1, o, steps)
 	var mapProfiles []WindowProfile
 	var own []velocity.Sample
-	for k := range o.MapWindows {
-		w := Window{Name: fmt.Sprintf("map%02d", k+1), T0S: t0 + float64(k)*mapW, T1S: t0 + float64(k+1)*mapW}
+	for k := range mapN {
+		w := Window{Name: fmt.Sprintf("map%02d", k+1), T0S: mapT0 + float64(k)*mapW, T1S: mapT0 + float64(k+1)*mapW}
 		own = own[:0]
 		for _, ph := range r.Phases {
 			a, b := math.Max(w.T0S, ph.StartS), math.Min(w.T1S, ph.EndS)
@@ -370,6 +370,30 @@ func Analyze(pts []tracks.Point, e *experiment.Experiment, c *calib.Calibration,
 	}
 	return r, nil
 }
+
+// MaxMapWindows bounds the columns of the space-time map when they follow
+// --every: a map wider than a page's pixels shows nothing more.
+const MaxMapWindows = 2000
+
+// mapGrid returns the map's window length, s, its first window's start and
+// the number of windows over the recording [t0S, t1S]: o.MapWindows equal
+// windows, or, with o.EveryS, windows of that length aligned with the
+// start of the first shear step, so that the map's columns are the
+// time-resolved windows (as many as MaxMapWindows allows).
+func mapGrid(t0S, t1S float64, o Options, steps []experiment.Step) (lenS, startS float64, n int) {
+	if !(o.EveryS > 0) || len(steps) == 0 {
+		return (t1S - t0S) / float64(o.MapWindows), t0S, o.MapWindows
+	}
+	lenS = math.Max(o.EveryS, (t1S-t0S)/MaxMapWindows)
+	a := steps[0].StartS
+	startS = a - math.Ceil((a-t0S)/lenS-windowEdgeTol)*lenS
+	n = int(math.Ceil((t1S-startS)/lenS - windowEdgeTol))
+	return lenS, startS, max(n, 1)
+}
+
+// windowEdgeTol is the fraction of a window by which times may miss a
+// window edge and still count as on it (rounding of frame times).
+const windowEdgeTol = 1e-9
 
 // shearSteps returns the program's steps with a moving wall.
 func shearSteps(p experiment.Program) []experiment.Step {

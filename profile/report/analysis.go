@@ -84,6 +84,13 @@ func FromAnalysis(s *summary.Summary, e *experiment.Experiment, r *profile.Resul
 		d.Slip = slip
 	}
 
+	for i, sp := range s.ShearPhases {
+		if su := startUp(i+1, &sp, gapUM); su != nil {
+			su.Axis = axis
+			d.StartUps = append(d.StartUps, su)
+		}
+	}
+
 	if c := r.Cessation; c != nil && s.AfterStop != nil {
 		d.AfterStop = afterStop(c, s.AfterStop, gapUM)
 		if d.AfterStop != nil {
@@ -91,6 +98,30 @@ func FromAnalysis(s *summary.Summary, e *experiment.Experiment, r *profile.Resul
 		}
 	}
 	return d
+}
+
+// startUp returns the start-up figure's data of shear phase n from its
+// time-resolved windows (nil without them).
+func startUp(n int, sp *summary.ShearPhase, gapUM float64) *figure.StartUp {
+	if len(sp.InTime) == 0 {
+		return nil
+	}
+	su := &figure.StartUp{Phase: n, WindowS: num(sp.InTimeWindowS), NominalRatePerS: num(sp.NominalRatePerS), GapUM: gapUM,
+		OnsetS: num(sp.InhomogeneityOnsetS), OnsetErrS: num(sp.InhomogeneityOnsetErrS), StressPeakS: math.NaN()}
+	for _, w := range sp.InTime {
+		q := figure.StartUpWindow{AfterStartS: (w.TStartS+w.TEndS)/2 - sp.StartS,
+			BoundaryUM: math.NaN(), BoundaryErrUM: math.NaN(),
+			LowerRatePerS: num(w.BulkRatePerS), LowerRateErrPerS: num(w.BulkRateErrPerS),
+			UpperRatePerS: num(w.BulkRatePerS), UpperRateErrPerS: num(w.BulkRateErrPerS)}
+		if len(w.Bands) > 1 {
+			a, b := w.Bands[0], w.Bands[len(w.Bands)-1]
+			q.BoundaryUM, q.BoundaryErrUM = num(a.ToUM), num(a.ToErrUM)
+			q.LowerRatePerS, q.LowerRateErrPerS = num(a.RatePerS), num(a.RateErrPerS)
+			q.UpperRatePerS, q.UpperRateErrPerS = num(b.RatePerS), num(b.RateErrPerS)
+		}
+		su.Windows = append(su.Windows, q)
+	}
+	return su
 }
 
 // gapAxis is how the figures draw the position across the gap of e's

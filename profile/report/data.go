@@ -31,6 +31,9 @@ type Data struct {
 	SpaceTime, RateMap *figure.SpaceTime
 	// Slip is the slip at each wall and the bulk rate against time.
 	Slip *figure.SlipSeries
+	// StartUps holds the band boundary and rates through each shear phase
+	// with time-resolved windows (--every), in phase order.
+	StartUps []*figure.StartUp
 	// AfterStop is the displacement since cessation at several times.
 	AfterStop *figure.AfterStop
 	// Overlay is a frame with the walls, the gap axes and the tracks of a

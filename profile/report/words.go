@@ -117,7 +117,27 @@ func phaseFindings(i int, sp *summary.ShearPhase, conv string, meanRatePerS floa
 		}
 		lines = append(lines, "Shear bands, from the stationary wall up: "+strings.Join(bs, "; ")+".")
 	}
+	lines = append(lines, onsetWords(sp))
 	return headline(i, sp), lines
+}
+
+// onsetWords says when the profile first departed from the affine no-slip
+// profile, in windows of which length.
+func onsetWords(sp *summary.ShearPhase) string {
+	w := formatTime(num(sp.InTimeWindowS))
+	if !known(num(sp.InhomogeneityOnsetS)) || sp.InhomogeneityFirst == nil {
+		return "In windows of " + w + " through the phase, the profile never departed from the affine profile without slip."
+	}
+	what := "wall slip"
+	if *sp.InhomogeneityFirst == "bands" {
+		what = "shear bands"
+	}
+	s := "In windows of " + w + " through the phase, the profile first departed from the affine profile without slip " +
+		formatPM(num(sp.InhomogeneityOnsetS), num(sp.InhomogeneityOnsetErrS), "s") + " after the start, by " + what
+	if known(num(sp.InhomogeneityOnsetStrain)) {
+		s += ", at a nominal strain of " + formatValue(num(sp.InhomogeneityOnsetStrain), "")
+	}
+	return s + "."
 }
 
 // afterStopHeadline is the verdict after cessation in one sentence.

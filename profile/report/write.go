@@ -24,6 +24,7 @@ const (
 	spaceTimeStem = "figure_space_time"
 	rateMapStem   = "figure_rate_map"
 	slipStem      = "figure_slip"
+	startUpStem   = "figure_startup_" // + shear phase number
 	afterStopStem = "figure_after_stop"
 	frameStem     = "figure_frame"
 	detectionStem = "figure_detection"
@@ -115,6 +116,21 @@ func renderFigures(d *Data) (figs []shownFigure, notShown, failed []string) {
 		}
 		add(fmt.Sprintf("%s%d", profileStem, i+1), title, caption, false,
 			func() (*figure.Figure, error) { return figure.ProfilePlot(pp) })
+	}
+	for _, su := range d.StartUps {
+		caption := fmt.Sprintf("Start-up of shear phase %d in time-resolved windows of %s, against the time since the phase's start: "+
+			"(a) the height of the boundary between the two bands (none while the profile has one band), (b) the shear rate "+
+			"of the band by the stationary wall and of the band by the moving wall (the one rate while there is one band) "+
+			"and the nominal rate (dotted). Bars: one standard uncertainty.", su.Phase, formatTime(su.WindowS))
+		if known(su.OnsetS) {
+			caption += fmt.Sprintf(" Dashed line and grey band: the onset of inhomogeneity, %s after the start, and its standard uncertainty.",
+				formatPM(su.OnsetS, su.OnsetErrS, "s"))
+		}
+		if known(su.StressPeakS) {
+			caption += " Dotted line: the stress maximum in the rheometer's log."
+		}
+		add(fmt.Sprintf("%s%d", startUpStem, su.Phase), fmt.Sprintf("Start-up, shear phase %d", su.Phase), caption, false,
+			func() (*figure.Figure, error) { return figure.StartUpPlot(su) })
 	}
 	type optional struct {
 		have        bool

@@ -49,6 +49,7 @@ var figures = []draw{
 	{"profile", figure.SingleColumnCM, func(*testing.T) (*figure.Figure, error) { return figure.ProfilePlot(scenario.Profile()) }},
 	{"space_time", figure.DoubleColumnCM, func(*testing.T) (*figure.Figure, error) { return figure.SpaceTimePlot(scenario.SpaceTime()) }},
 	{"slip", figure.SingleColumnCM, func(*testing.T) (*figure.Figure, error) { return figure.SlipPlot(scenario.Slip()) }},
+	{"startup", figure.SingleColumnCM, func(*testing.T) (*figure.Figure, error) { return figure.StartUpPlot(scenario.StartUp()) }},
 	{"after_stop", figure.SingleColumnCM, func(*testing.T) (*figure.Figure, error) { return figure.AfterStopPlot(scenario.AfterStop()) }},
 	{"detection", figure.DoubleColumnCM, func(*testing.T) (*figure.Figure, error) { return figure.DetectionPlot(scenario.Detection()) }},
 	{"frame", figure.DoubleColumnCM, func(t *testing.T) (*figure.Figure, error) {

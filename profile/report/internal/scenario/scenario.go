@@ -301,3 +301,28 @@ func RateMap() *figure.SpaceTime {
 	}
 	return r
 }
+
+// StartUp is a start-up of shear phase 1 in windows of 0.2 s: affine at
+// first, two bands forming 0.6 s after the start (time constant 0.25 s),
+// the onset found at 0.7 ± 0.06 s and the stress maximum at 1.1 s.
+func StartUp() *figure.StartUp {
+	rate := demoWallUMPerS / demoGapUM
+	s := &figure.StartUp{Phase: 1, WindowS: 0.2, NominalRatePerS: rate, GapUM: demoGapUM,
+		OnsetS: 0.7, OnsetErrS: 0.06, StressPeakS: 1.1}
+	for i := range 15 {
+		t := 0.1 + 0.2*float64(i)
+		f := 0.0
+		if t > 0.6 {
+			f = 1 - math.Exp(-(t-0.6)/0.25)
+		}
+		w := figure.StartUpWindow{AfterStartS: t, BoundaryUM: math.NaN(), BoundaryErrUM: math.NaN(),
+			LowerRatePerS: rate, LowerRateErrPerS: 0.01, UpperRatePerS: rate, UpperRateErrPerS: 0.01}
+		if f > 0.2 {
+			w.BoundaryUM, w.BoundaryErrUM = 0.35*demoGapUM, 4
+			w.LowerRatePerS, w.LowerRateErrPerS = rate*(1+1.2*f), 0.04
+			w.UpperRatePerS, w.UpperRateErrPerS = rate*(1-0.65*f), 0.02
+		}
+		s.Windows = append(s.Windows, w)
+	}
+	return s
+}
