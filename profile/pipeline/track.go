@@ -49,6 +49,10 @@ type Tracked struct {
 	Link       link.Stats
 	// Diagnostics describes the detections, for the report.
 	Diagnostics Diagnostics
+	// FrameTimesS, when not nil, is the time of each frame, s, of a
+	// camera whose frame rate varies (from the container); the points'
+	// TS are these times, and Info.FPS is the nominal rate.
+	FrameTimesS []float64
 	// Phases, when not nil, are phases found in the video to use instead of
 	// the motion program's (which has none).
 	Phases []phases.Phase
@@ -140,6 +144,9 @@ func (r *Recording) detectAll(ctx context.Context, t *Tracked) ([][]link.Detecti
 		return nil, inputErrf("input %s: no frames", r.cfg.Input)
 	}
 	t.Info.Frames = len(out)
+	var warn []string
+	t.FrameTimesS, t.Info.FPS, warn = frameClock(src, t.Info, len(out))
+	t.Warnings = append(t.Warnings, warn...)
 	if t.Detections == 0 {
 		return nil, inputErrf("no tracers found in %d frames of %s (tracer diameter %g px, polarity %s)", n, r.cfg.Input, d, opt.Polarity)
 	}
@@ -170,7 +177,7 @@ func (r *Recording) linkAll(ctx context.Context, t *Tracked, dets [][]link.Detec
 	// pass and removed in its final pass (link.Options.MeasureCommonMode,
 	// which keeps only the fast part along the flow).
 	opt := link.Options{FPS: t.Info.FPS, MaxStepPx: link.MaxStepFor(v, t.Info.FPS, cal.UMPerPx),
-		GapFrames: link.DefaultGapFrames, MeasureCommonMode: !r.cfg.NoJitter}
+		GapFrames: link.DefaultGapFrames, MeasureCommonMode: !r.cfg.NoJitter, FrameTimesS: t.FrameTimesS}
 	pts, st, err := link.Link(dets, cal, opt)
 	if err != nil {
 		return err
@@ -198,6 +205,16 @@ func (t *Tracked) findPhases(prog experiment.Program) {
 		}
 		return
 	}
+	// The phases were timed at frame / FPS: a variable rate's frames are
+	// put at their own times.
+	if t.FrameTimesS != nil {
+		for i := range det.Phases {
+			det.Phases[i].StartS, det.Phases[i].EndS = t.clockS(det.Phases[i].StartS), t.clockS(det.Phases[i].EndS)
+		}
+		for i := range det.Segments {
+			det.Segments[i].StartS, det.Segments[i].EndS = t.clockS(det.Segments[i].StartS), t.clockS(det.Segments[i].EndS)
+		}
+	}
 	// +x of the gap is the direction the moving wall travels in the first
 	// shear phase (the contract's convention).
 	if det.FlowSign != 0 && det.FlowSign != t.Calibration.FlowSign {
@@ -207,6 +224,9 @@ func (t *Tracked) findPhases(prog experiment.Program) {
 		}
 	}
 	durS := float64(t.Info.Frames) / t.Info.FPS
+	if n := len(t.FrameTimesS); n > 0 {
+		durS = t.FrameTimesS[n-1] + float64(t.Info.Frames-n+1)/t.Info.FPS
+	}
 	use, warn := phases.Reconcile(phases.FromProgram(prog, durS), det.Phases, t.Info.FPS)
 	t.Warnings = append(t.Warnings, warn...)
 	if len(prog) == 0 {
@@ -216,3 +236,23 @@ func (t *Tracked) findPhases(prog experiment.Program) {
 
 // WriteTracks writes the tracks as tracks.csv (package tracks).
 func (t *Tracked) WriteTracks(w io.Writer) error { return tracks.WriteCSV(w, t.Points) }
+
+// clockS turns a time reckoned at frame / FPS into the time of the
+// recording's own frame clock (FrameTimesS), interpolated between frames
+// and continued at 1/FPS past its ends.
+func (t *Tracked) clockS(nominalS float64) float64 {
+	ts := t.FrameTimesS
+	f := nominalS * t.Info.FPS
+	if len(ts) == 0 || math.IsNaN(f) {
+		return nominalS
+	}
+	if f <= 0 {
+		return ts[0] + nominalS
+	}
+	i := int(f)
+	if i >= len(ts)-1 {
+		return ts[len(ts)-1] + (f-float64(len(ts)-1))/t.Info.FPS
+	}
+	w := f - float64(i)
+	return ts[i] + w*(ts[i+1]-ts[i])
+}

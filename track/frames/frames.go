@@ -42,6 +42,25 @@ type Info struct {
 	// BitDepth is 8 or 16: the depth of the Mats Next returns (CV_8U or
 	// CV_16U).
 	BitDepth int
+	// RotationDeg is the clockwise display rotation the container asks
+	// for (0, 90, 180 or 270; -1 for a matrix that is no such rotation).
+	// Frames are delivered turned upright, WidthPx and HeightPx are those
+	// of the turned frames.
+	RotationDeg int
+}
+
+// Timed is a Source that knows when each frame was taken. Videos are
+// Timed: from the container's table of frame times where it has one (MP4,
+// QuickTime), else from the time the reader gives each frame as it decodes
+// it (the presentation time stamp).
+type Timed interface {
+	// FrameTimesS returns the time of frames 0, 1, ... of the input, s
+	// from frame 0: of every frame when the container lists them, else of
+	// the frames read so far, up to the first frame without a usable time
+	// (not later than the one before). They are the container's, whatever
+	// frame rate override Open was given. Nil when none is known. The
+	// caller must not change the slice.
+	FrameTimesS() []float64
 }
 
 // Range selects frames by their index in the input: First, First+Step, ...
@@ -274,6 +293,14 @@ type video struct {
 	jpeg   bool
 	raw    gocv.Mat // encoded packet (jpeg) or BGR frame
 	closed bool
+
+	// Frame times: the container's table (listed), else those the
+	// capture reported for the frames read (posS, from pos0S, cut at the
+	// first that does not increase: posBad).
+	listed []float64
+	posS   []float64
+	pos0S  float64
+	posBad bool
 }
 
 // probe reads the first frame of a fresh capture to learn the size and
@@ -294,6 +321,12 @@ func openVideo(path string, fps float64, r Range) (Source, error) {
 	v.r = r
 	if fps > 0 {
 		v.info.FPS = fps
+	}
+	if t, err := readMP4File(path); err == nil {
+		v.listed = t.TimesS
+		// OpenCV turns decoded frames by the rotation (its default,
+		// CAP_PROP_ORIENTATION_AUTO); JPEG packets are turned here.
+		v.info.RotationDeg = t.RotationDeg
 	}
 	if v.jpeg {
 		return &jpegVideo{v}, nil
@@ -339,6 +372,12 @@ func (v *jpegVideo) Decode(i int, packet []byte, dst *gocv.Mat) error {
 		return fmt.Errorf("frames: %s: cannot decode frame %d (damaged JPEG data)", v.info.Path, i)
 	}
 	defer g.Close()
+	if code, ok := rotateCode(v.info.RotationDeg); ok {
+		r := gocv.NewMat()
+		gocv.Rotate(g, &r, code)
+		g, r = r, g
+		r.Close()
+	}
 	if err := v.checkSize(g, i); err != nil {
 		return err
 	}
@@ -357,6 +396,19 @@ func (v *jpegVideo) Next(dst *gocv.Mat) (int, error) {
 		return 0, fmt.Errorf("frames: %s: frame %d: %v", v.info.Path, i, err)
 	}
 	return i, v.Decode(i, b, dst)
+}
+
+// rotateCode is OpenCV's code for turning a frame clockwise by deg.
+func rotateCode(deg int) (gocv.RotateFlag, bool) {
+	switch deg {
+	case 90:
+		return gocv.Rotate90Clockwise, true
+	case 180:
+		return gocv.Rotate180Clockwise, true
+	case 270:
+		return gocv.Rotate90CounterClockwise, true
+	}
+	return 0, false
 }
 
 // openCapture opens path; with jpeg it asks for the undecoded packets and
@@ -414,6 +466,34 @@ func openCapture(path string, jpeg bool) (*video, error) {
 
 func (v *video) Info() Info { return v.info }
 
+// FrameTimesS implements Timed.
+func (v *video) FrameTimesS() []float64 {
+	if v.listed != nil {
+		return v.listed
+	}
+	return v.posS
+}
+
+// notePosition records the time the capture gives the frame just read.
+func (v *video) notePosition() {
+	if v.posBad || v.listed != nil {
+		return
+	}
+	if len(v.posS) != v.next {
+		v.posBad = true // a frame was read without its time: stop here
+		return
+	}
+	t := v.cap.Get(gocv.VideoCapturePosMsec) / 1000
+	if math.IsNaN(t) || math.IsInf(t, 0) || (len(v.posS) > 0 && !(t-v.pos0S > v.posS[len(v.posS)-1])) {
+		v.posBad = true
+		return
+	}
+	if len(v.posS) == 0 {
+		v.pos0S = t
+	}
+	v.posS = append(v.posS, t-v.pos0S)
+}
+
 // countSlack is how many frames short of the container's count a video may
 // end without being called truncated: some containers give the count as
 // duration times frame rate, off by a frame or two, or by rounding on long
@@ -440,6 +520,7 @@ func (v *video) advance() (int, error) {
 			}
 			return 0, io.EOF
 		}
+		v.notePosition()
 		v.next++
 	}
 	return v.next - 1, nil

@@ -292,6 +292,15 @@ func (h *Head) take(dst *gocv.Mat) (index int, ok bool, err error) {
 // Info describes the input.
 func (h *Head) Info() Info { return h.info }
 
+// FrameTimesS implements Timed with the source's times (nil when the
+// source has none). It must not be called while reading ahead.
+func (h *Head) FrameTimesS() []float64 {
+	if t, ok := h.src.(Timed); ok {
+		return t.FrameTimesS()
+	}
+	return nil
+}
+
 // Next hands out the next frame: held, read ahead, or read from the source.
 func (h *Head) Next(dst *gocv.Mat) (int, error) {
 	i, ok, err := h.take(dst)
