@@ -68,7 +68,7 @@ func runDemo(ctx context.Context, args []string, stderr io.Writer) error {
 }
 
 // printComparison prints the main results beside the truth of the rendering.
-func printComparison(w io.Writer, got, want *summary.Summary) {
+func printComparison(w io.Writer, got *summary.Summary, want *synth.SummaryTruth) {
 	row := func(name string, g, t summary.Num, unit string) {
 		fmt.Fprintf(w, "  %-28s %12s %12s  %s\n", name, fmtNum(g), fmtNum(t), unit)
 	}

@@ -37,7 +37,7 @@ const (
 
 // renderScenario writes a built-in scenario into a temporary folder and
 // returns the experiment file, the video and the truth.
-func renderScenario(t *testing.T, name string, seed int64, change ...func(*synth.Scenario)) (expPath, video string, truth *summary.Summary) {
+func renderScenario(t *testing.T, name string, seed int64, change ...func(*synth.Scenario)) (expPath, video string, truth *synth.SummaryTruth) {
 	t.Helper()
 	sc, err := synth.Builtin(name, seed)
 	if err != nil {
@@ -146,7 +146,7 @@ func checkPrinted(t *testing.T, printed string, s *summary.Summary, reportPath s
 	}
 }
 
-func compareSummaries(t *testing.T, got, want *summary.Summary) {
+func compareSummaries(t *testing.T, got *summary.Summary, want *synth.SummaryTruth) {
 	t.Helper()
 	if len(got.ShearPhases) != len(want.ShearPhases) {
 		t.Fatalf("%d shear phases, want %d", len(got.ShearPhases), len(want.ShearPhases))

@@ -2,52 +2,27 @@
 // gaptrace run, as fixed by the interface contract, and writes it so that a
 // failed run never leaves a complete-looking file behind.
 //
-// Unknown numbers are NaN in Go and null in JSON (type Num).
+// Unknown numbers are NaN in Go and null in JSON (type Num). The schema
+// only: the verdicts are decided in rheometry and cessation, and the
+// summary is assembled by pipeline.
 package summary
 
 import (
 	"encoding/json"
 	"fmt"
-	"math"
 	"os"
-	"strconv"
 
 	"gaptrace/calib"
 	"gaptrace/calib/atomicfile"
+	"gaptrace/calib/jsonnum"
 	"gaptrace/profile/phases"
 )
 
-// Num is a float64 that is written to JSON as null when it is NaN or
-// infinite, and read back from null as NaN.
-type Num float64
+// Num is summary.json's number: null when unknown, NaN in Go.
+type Num = jsonnum.Num
 
 // Null is the unknown Num.
-var Null = Num(math.NaN())
-
-// Known reports whether n holds a finite number.
-func (n Num) Known() bool { return !math.IsNaN(float64(n)) && !math.IsInf(float64(n), 0) }
-
-// MarshalJSON implements json.Marshaler.
-func (n Num) MarshalJSON() ([]byte, error) {
-	if !n.Known() {
-		return []byte("null"), nil
-	}
-	return strconv.AppendFloat(nil, float64(n), 'g', 10, 64), nil
-}
-
-// UnmarshalJSON implements json.Unmarshaler.
-func (n *Num) UnmarshalJSON(b []byte) error {
-	if string(b) == "null" {
-		*n = Null
-		return nil
-	}
-	v, err := strconv.ParseFloat(string(b), 64)
-	if err != nil {
-		return fmt.Errorf("summary: %q is not a number or null", b)
-	}
-	*n = Num(v)
-	return nil
-}
+var Null = jsonnum.Null
 
 // Summary is summary.json.
 type Summary struct {

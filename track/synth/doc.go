@@ -11,8 +11,10 @@
 // or dark polarity, 8 or 16 bit).
 //
 // Positions gives the true tracer states of any frame without rendering;
-// Render draws a frame; Truth gives the true value of every summary.json
-// field; Write stores a video or a folder of frames with the experiment file,
+// Render draws a frame; Truth gives the true value of the summary.json
+// fields that describe the sample, in synth's own types under the same JSON
+// names (SummaryTruth), so that the test bed depends on nothing of the
+// analysis it checks; Write stores a video or a folder of frames with the experiment file,
 // truth.json and truth_tracks.csv. Builtin and List name reproducible
 // scenarios. AddSpot, AddNoise and ToMat are the drawing primitives, for
 // tests that build their own images.

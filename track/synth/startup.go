@@ -8,7 +8,7 @@ import (
 	"gonum.org/v1/gonum/integrate/quad"
 
 	"gaptrace/calib/experiment"
-	"gaptrace/profile/summary"
+	"gaptrace/calib/jsonnum"
 )
 
 // Transient makes the profile of every shear step develop from the affine
@@ -165,11 +165,11 @@ func stepAt(p experiment.Program, t0S, t1S float64) (int, error) {
 // rates that mix the affine and the Profile's by the window means of the
 // slip's and the bands' development. Without a Transient it is the step's
 // steady truth.
-func (s *Scenario) WindowTruth(t0S, t1S float64) (summary.ShearPhase, error) {
+func (s *Scenario) WindowTruth(t0S, t1S float64) (ShearTruth, error) {
 	prog := s.Program()
 	i, err := stepAt(prog, t0S, t1S)
 	if err != nil {
-		return summary.ShearPhase{}, err
+		return ShearTruth{}, err
 	}
 	st := prog[i]
 	sense := flowSense(prog)
@@ -215,22 +215,22 @@ type StepTruth struct {
 	// profile first departs from the affine no-slip profile (the earlier
 	// of the slip's and the bands' onsets that changes the profile); null
 	// when it never departs within the step.
-	InhomogeneityOnsetS      summary.Num `json:"inhomogeneity_onset_s"`
-	InhomogeneityOnsetStrain summary.Num `json:"inhomogeneity_onset_strain"` // nominal strain since the step's start at the onset
+	InhomogeneityOnsetS      jsonnum.Num `json:"inhomogeneity_onset_s"`
+	InhomogeneityOnsetStrain jsonnum.Num `json:"inhomogeneity_onset_strain"` // nominal strain since the step's start at the onset
 	// InhomogeneityFirst is "slip", "bands", "slip+bands" (both at once) or
 	// null with the onset.
 	InhomogeneityFirst *string     `json:"inhomogeneity_first"`
-	SlipOnsetS         summary.Num `json:"slip_onset_s"` // after the step's start; null without slip
-	SlipTauS           summary.Num `json:"slip_tau_s"`
-	BandsOnsetS        summary.Num `json:"bands_onset_s"` // null without bands
-	BandsTauS          summary.Num `json:"bands_tau_s"`
+	SlipOnsetS         jsonnum.Num `json:"slip_onset_s"` // after the step's start; null without slip
+	SlipTauS           jsonnum.Num `json:"slip_tau_s"`
+	BandsOnsetS        jsonnum.Num `json:"bands_onset_s"` // null without bands
+	BandsTauS          jsonnum.Num `json:"bands_tau_s"`
 	// StressPeakS is the time of the stress maximum within the step (video
 	// clock), StressPeakStrain the nominal strain since the step's start
 	// then, StressPeakPa the stress; null without a StressModel or when the
 	// stress does not peak inside the step.
-	StressPeakS      summary.Num `json:"stress_peak_s"`
-	StressPeakStrain summary.Num `json:"stress_peak_strain"`
-	StressPeakPa     summary.Num `json:"stress_peak_pa"`
+	StressPeakS      jsonnum.Num `json:"stress_peak_s"`
+	StressPeakStrain jsonnum.Num `json:"stress_peak_strain"`
+	StressPeakPa     jsonnum.Num `json:"stress_peak_pa"`
 }
 
 // Steps returns the StepTruth of every shear step.
@@ -247,20 +247,20 @@ func (s *Scenario) Steps() []StepTruth {
 	stress := s.stressSteps(prog)
 	for i, st := range prog {
 		t := StepTruth{StartS: st.StartS, EndS: st.EndS, RatePerS: sense * st.RatePerS,
-			InhomogeneityOnsetS: summary.Null, InhomogeneityOnsetStrain: summary.Null,
-			SlipOnsetS: summary.Null, SlipTauS: summary.Null, BandsOnsetS: summary.Null, BandsTauS: summary.Null,
-			StressPeakS: summary.Null, StressPeakStrain: summary.Null, StressPeakPa: summary.Null}
+			InhomogeneityOnsetS: jsonnum.Null, InhomogeneityOnsetStrain: jsonnum.Null,
+			SlipOnsetS: jsonnum.Null, SlipTauS: jsonnum.Null, BandsOnsetS: jsonnum.Null, BandsTauS: jsonnum.Null,
+			StressPeakS: jsonnum.Null, StressPeakStrain: jsonnum.Null, StressPeakPa: jsonnum.Null}
 		tr := s.Transient
 		dur := st.DurationS()
 		onset, first := math.Inf(1), ""
 		if hasSlip {
-			t.SlipOnsetS, t.SlipTauS = summary.Num(tr.SlipOnsetS), summary.Num(tr.SlipTauS)
+			t.SlipOnsetS, t.SlipTauS = jsonnum.Num(tr.SlipOnsetS), jsonnum.Num(tr.SlipTauS)
 			if tr.SlipOnsetS < dur {
 				onset, first = tr.SlipOnsetS, "slip"
 			}
 		}
 		if hasBands {
-			t.BandsOnsetS, t.BandsTauS = summary.Num(tr.BandsOnsetS), summary.Num(tr.BandsTauS)
+			t.BandsOnsetS, t.BandsTauS = jsonnum.Num(tr.BandsOnsetS), jsonnum.Num(tr.BandsTauS)
 			switch {
 			case tr.BandsOnsetS >= dur:
 			case tr.BandsOnsetS < onset:
@@ -270,12 +270,12 @@ func (s *Scenario) Steps() []StepTruth {
 			}
 		}
 		if first != "" {
-			t.InhomogeneityOnsetS = summary.Num(onset)
-			t.InhomogeneityOnsetStrain = summary.Num(math.Abs(st.RatePerS) * onset)
+			t.InhomogeneityOnsetS = jsonnum.Num(onset)
+			t.InhomogeneityOnsetStrain = jsonnum.Num(math.Abs(st.RatePerS) * onset)
 			t.InhomogeneityFirst = &first
 		}
 		if pk := stress[i]; pk.ok {
-			t.StressPeakS, t.StressPeakStrain, t.StressPeakPa = summary.Num(pk.tS), summary.Num(pk.strain), summary.Num(pk.pa)
+			t.StressPeakS, t.StressPeakStrain, t.StressPeakPa = jsonnum.Num(pk.tS), jsonnum.Num(pk.strain), jsonnum.Num(pk.pa)
 		}
 		out = append(out, t)
 	}

@@ -12,19 +12,17 @@ import (
 
 	"gaptrace/calib"
 	"gaptrace/calib/geometry"
-	"gaptrace/profile/cessation"
-	"gaptrace/profile/phases"
-	"gaptrace/profile/rheometry"
-	"gaptrace/profile/summary"
+	"gaptrace/calib/jsonnum"
 	"gaptrace/track/tracks"
 )
 
-// Truth is truth.json: the true value of every summary.json field of a
-// scenario, and the camera jitter of every frame.
+// Truth is truth.json: the true value of the summary.json fields that
+// describe the recording and the sample, and the camera jitter of every
+// frame.
 //
-// In the summary, the error fields are 0 (the truth is exact) and fields that
-// describe a measurement rather than the sample (the after-stop noise floor)
-// are null. Definitions, for a shear step with moving-wall speed V, gap H
+// The summary's true values (Summary) bear summary.json's names; error
+// fields and those that describe a measurement rather than the sample (the
+// after-stop noise floor) are left out. Definitions, for a shear step with moving-wall speed V, gap H
 // and true fluid velocity v(y):
 //
 //   - slip_stationary_um_per_s = v(0), slip_moving_um_per_s = V - v(H);
@@ -47,10 +45,10 @@ import (
 // (Steps), and for each fault of the camera that is switched on, what it
 // did (the other fields are left out when it is off).
 type Truth struct {
-	Scenario    string           `json:"scenario"`
-	Description string           `json:"description"`
-	Seed        int64            `json:"seed"`
-	Summary     *summary.Summary `json:"summary"`
+	Scenario    string        `json:"scenario"`
+	Description string        `json:"description"`
+	Seed        int64         `json:"seed"`
+	Summary     *SummaryTruth `json:"summary"`
 	// JitterPx holds the camera's common-mode shift [dx, dy] of each frame
 	// (jitter and sway), px.
 	JitterPx [][2]float64 `json:"jitter_px"`
@@ -81,6 +79,103 @@ type Truth struct {
 	Log *LogTruth `json:"log,omitempty"`
 }
 
+// SummaryTruth holds the true values of summary.json's fields of a scenario,
+// under the same JSON names (see the interface contract for their
+// meaning). Unknown or undefined numbers are null.
+type SummaryTruth struct {
+	Experiment  string             `json:"experiment,omitempty"`
+	Input       InputTruth         `json:"input"`
+	Calibration *calib.Calibration `json:"calibration"`
+	Tracking    TrackingTruth      `json:"tracking"`
+	Phases      []PhaseTruth       `json:"phases"`
+	ShearPhases []ShearTruth       `json:"shear_phases"`
+	AfterStop   *AfterStopTruth    `json:"after_stop"` // nil without time after a shear step
+}
+
+// InputTruth is the video: its path (set by Write), frames, rate and size.
+type InputTruth struct {
+	Path     string  `json:"path"`
+	Frames   int     `json:"frames"`
+	FPS      float64 `json:"fps"`
+	WidthPx  int     `json:"width_px"`
+	HeightPx int     `json:"height_px"`
+}
+
+// TrackingTruth counts each tracer whose centre is in the image, in each frame,
+// as a detection, and each tracer as one track.
+type TrackingTruth struct {
+	Detections        int `json:"detections"`
+	Tracks            int `json:"tracks"`
+	MedianTrackFrames int `json:"median_track_frames"`
+}
+
+// PhaseTruth is one phase of the motion program: Kind is PhaseRest, PhaseShear
+// or PhaseAfterStop, from StartS to EndS (s); Source is "experiment".
+type PhaseTruth struct {
+	Kind   string  `json:"kind"`
+	StartS float64 `json:"start_s"`
+	EndS   float64 `json:"end_s"`
+	Source string  `json:"source"`
+}
+
+// Phase kinds, in the interface contract's words.
+const (
+	PhaseRest      = "rest"
+	PhaseShear     = "shear"
+	PhaseAfterStop = "after_stop"
+)
+
+// ShearTruth is the true decomposition of one shear step (definitions
+// above); speeds in um/s, rates in 1/s, lengths in um, signed along gap +x.
+type ShearTruth struct {
+	StartS                 float64     `json:"start_s"`
+	EndS                   float64     `json:"end_s"`
+	WindowS                [2]float64  `json:"window_s"` // the whole step
+	WallSpeedUMPerS        jsonnum.Num `json:"wall_speed_um_per_s"`
+	NominalRatePerS        jsonnum.Num `json:"nominal_rate_per_s"`
+	BulkRatePerS           jsonnum.Num `json:"bulk_rate_per_s"`
+	SlipStationaryUMPerS   jsonnum.Num `json:"slip_stationary_um_per_s"`
+	SlipMovingUMPerS       jsonnum.Num `json:"slip_moving_um_per_s"`
+	SlipLengthStationaryUM jsonnum.Num `json:"slip_length_stationary_um"`
+	SlipLengthMovingUM     jsonnum.Num `json:"slip_length_moving_um"`
+	SlipFraction           jsonnum.Num `json:"slip_fraction"`
+	WallSlip               bool        `json:"wall_slip"`
+	Bands                  []BandTruth `json:"bands"`
+	Banded                 bool        `json:"banded"`
+	// Verdict is the interface contract's word for WallSlip and Banded.
+	Verdict string `json:"verdict"`
+}
+
+// BandTruth is one layer of uniform shear rate, from FromUM to ToUM above the
+// stationary wall (um), at RatePerS (1/s).
+type BandTruth struct {
+	FromUM   jsonnum.Num `json:"from_um"`
+	ToUM     jsonnum.Num `json:"to_um"`
+	RatePerS jsonnum.Num `json:"rate_per_s"`
+}
+
+// AfterStopTruth is the truth of the time after the last shear step: Verdict is
+// "moving" or "quiescent" and Mode "wall" or "bulk" (nil when quiescent),
+// in the interface contract's words.
+type AfterStopTruth struct {
+	StopS             float64     `json:"stop_s"`
+	ObservedS         float64     `json:"observed_s"`
+	MaxDisplacementUM jsonnum.Num `json:"max_displacement_um"`
+	RecoveredStrain   jsonnum.Num `json:"recovered_strain"`
+	Verdict           string      `json:"verdict"`
+	Mode              *string     `json:"mode"`
+	PlaneUM           jsonnum.Num `json:"plane_um"`
+	OnsetAfterStopS   jsonnum.Num `json:"onset_after_stop_s"`
+}
+
+// verdict is the interface contract's verdict of a shear phase with or
+// without wall slip and more than one band. It is written here from the
+// contract, not taken from the analysis, so that the truth checks it.
+func verdict(wallSlip, banded bool) string {
+	words := [2][2]string{{"homogeneous", "banded"}, {"wall_slip", "wall_slip+banded"}}
+	return words[boolInt(wallSlip)][boolInt(banded)]
+}
+
 // ColourTruth is the colour camera of truth.json.
 type ColourTruth struct {
 	TintBGR [3]float64 `json:"tint_bgr"` // the channels' responses, blue, green, red
@@ -109,7 +204,7 @@ type LogTruth struct {
 // Truth returns the scenario's truth. Tracking counts tracers whose centre is
 // in the image as detections and each tracer as one track.
 func (s *Scenario) Truth() *Truth {
-	t := &Truth{Scenario: s.Name, Description: s.Description, Seed: s.Seed, Summary: summary.New(),
+	t := &Truth{Scenario: s.Name, Description: s.Description, Seed: s.Seed, Summary: &SummaryTruth{Phases: []PhaseTruth{}, ShearPhases: []ShearTruth{}},
 		JitterPx: make([][2]float64, s.Frames)}
 	for f := range s.Frames {
 		x, y := s.JitterAt(f)
@@ -117,7 +212,7 @@ func (s *Scenario) Truth() *Truth {
 	}
 	sum := t.Summary
 	sum.Experiment = s.Experiment().Name
-	sum.Input = summary.Input{Frames: s.Frames, FPS: s.FPS, WidthPx: s.WidthPx, HeightPx: s.HeightPx}
+	sum.Input = InputTruth{Frames: s.Frames, FPS: s.FPS, WidthPx: s.WidthPx, HeightPx: s.HeightPx}
 	sum.Calibration = s.Calibration()
 	if s.OmitScale {
 		sum.Calibration.ScaleSource = calib.ScaleGap
@@ -188,38 +283,38 @@ func (s *Scenario) lastFrameS() float64 {
 	return float64(s.Frames-1) / s.FPS
 }
 
-func (s *Scenario) phases() []phases.Phase {
-	ph := []phases.Phase{}
+func (s *Scenario) phases() []PhaseTruth {
+	ph := []PhaseTruth{}
 	add := func(kind string, a, b float64) {
 		if b > a {
-			ph = append(ph, phases.Phase{Kind: kind, StartS: a, EndS: b, Source: "experiment"})
+			ph = append(ph, PhaseTruth{Kind: kind, StartS: a, EndS: b, Source: "experiment"})
 		}
 	}
 	end := s.DurationS()
 	t := 0.0
 	p := s.Program()
 	for i, st := range p {
-		add(phases.Rest, t, min(st.StartS, end))
-		add(phases.Shear, st.StartS, min(st.EndS, end))
+		add(PhaseRest, t, min(st.StartS, end))
+		add(PhaseShear, st.StartS, min(st.EndS, end))
 		t = st.EndS
 		if i == len(p)-1 {
-			add(phases.AfterStop, t, end)
+			add(PhaseAfterStop, t, end)
 			return ph
 		}
 	}
-	add(phases.Rest, t, end)
+	add(PhaseRest, t, end)
 	return ph
 }
 
 // shearTruth is the decomposition of one shear step with wall speed v
 // (signed along gap x) and nominal rate.
-func (s *Scenario) shearTruth(startS, endS, vUMPerS, nominalPerS float64) summary.ShearPhase {
+func (s *Scenario) shearTruth(startS, endS, vUMPerS, nominalPerS float64) ShearTruth {
 	return s.shearTruthOf(s.Profile, startS, endS, vUMPerS, nominalPerS)
 }
 
 // shearTruthOf is shearTruth for the profile prof in place of the
 // scenario's (a window's mean profile during a start-up).
-func (s *Scenario) shearTruthOf(prof Profile, startS, endS, vUMPerS, nominalPerS float64) summary.ShearPhase {
+func (s *Scenario) shearTruthOf(prof Profile, startS, endS, vUMPerS, nominalPerS float64) ShearTruth {
 	h := s.GapUM()
 	couette := s.Geometry.Kind == geometry.Couette && prof.IsDefault()
 	vf := func(yUM float64) float64 {
@@ -231,22 +326,22 @@ func (s *Scenario) shearTruthOf(prof Profile, startS, endS, vUMPerS, nominalPerS
 	f0, f1 := vf(0), vf(h)
 	bulk := vUMPerS * (f1 - f0) / h
 	slipS, slipM := vUMPerS*f0, vUMPerS*(1-f1)
-	sp := summary.ShearPhase{
+	sp := ShearTruth{
 		StartS: startS, EndS: endS, WindowS: [2]float64{startS, endS},
-		WallSpeedUMPerS: summary.Num(vUMPerS), NominalRatePerS: summary.Num(nominalPerS),
-		BulkRatePerS: summary.Num(bulk), SlipStationaryUMPerS: summary.Num(slipS), SlipMovingUMPerS: summary.Num(slipM),
-		SlipLengthStationaryUM: summary.Null, SlipLengthMovingUM: summary.Null,
-		SlipFraction: summary.Null,
+		WallSpeedUMPerS: jsonnum.Num(vUMPerS), NominalRatePerS: jsonnum.Num(nominalPerS),
+		BulkRatePerS: jsonnum.Num(bulk), SlipStationaryUMPerS: jsonnum.Num(slipS), SlipMovingUMPerS: jsonnum.Num(slipM),
+		SlipLengthStationaryUM: jsonnum.Null, SlipLengthMovingUM: jsonnum.Null,
+		SlipFraction: jsonnum.Null,
 		WallSlip:     slipS != 0 || slipM != 0,
 	}
 	if bulk != 0 {
-		sp.SlipLengthStationaryUM, sp.SlipLengthMovingUM = summary.Num(slipS/bulk), summary.Num(slipM/bulk)
+		sp.SlipLengthStationaryUM, sp.SlipLengthMovingUM = jsonnum.Num(slipS/bulk), jsonnum.Num(slipM/bulk)
 	}
 	if vUMPerS != 0 {
-		sp.SlipFraction = summary.Num((vUMPerS - bulk*h) / vUMPerS)
+		sp.SlipFraction = jsonnum.Num((vUMPerS - bulk*h) / vUMPerS)
 	}
 	if couette {
-		sp.Bands = []summary.Band{{FromUM: 0, ToUM: summary.Num(h), RatePerS: summary.Num(bulk), ToErrUM: summary.Null}}
+		sp.Bands = []BandTruth{{FromUM: 0, ToUM: jsonnum.Num(h), RatePerS: jsonnum.Num(bulk)}}
 	} else {
 		sp.Bands = s.bandsTruth(prof, vUMPerS)
 	}
@@ -255,18 +350,18 @@ func (s *Scenario) shearTruthOf(prof Profile, startS, endS, vUMPerS, nominalPerS
 	// at a wall is r d(v/r)/dr, the mean rate stands in).
 	if n := len(sp.Bands); n > 0 && s.Geometry.Kind != geometry.Couette {
 		if r0 := float64(sp.Bands[0].RatePerS); r0 != 0 {
-			sp.SlipLengthStationaryUM = summary.Num(slipS / r0)
+			sp.SlipLengthStationaryUM = jsonnum.Num(slipS / r0)
 		}
 		if r1 := float64(sp.Bands[n-1].RatePerS); r1 != 0 {
-			sp.SlipLengthMovingUM = summary.Num(slipM / r1)
+			sp.SlipLengthMovingUM = jsonnum.Num(slipM / r1)
 		}
 	}
 	sp.Banded = len(sp.Bands) > 1
-	sp.Verdict = rheometry.VerdictOf(sp.WallSlip, sp.Banded)
+	sp.Verdict = verdict(sp.WallSlip, sp.Banded)
 	return sp
 }
 
-func (s *Scenario) bandsTruth(prof Profile, vUMPerS float64) []summary.Band {
+func (s *Scenario) bandsTruth(prof Profile, vUMPerS float64) []BandTruth {
 	h := s.GapUM()
 	rates := prof.BandRates()
 	tops := []float64{1}
@@ -276,57 +371,53 @@ func (s *Scenario) bandsTruth(prof Profile, vUMPerS float64) []summary.Band {
 			tops = append(tops, b.ToFrac)
 		}
 	}
-	var out []summary.Band
+	var out []BandTruth
 	from := 0.0
 	for i, r := range rates {
 		rate := vUMPerS * r / h
 		if n := len(out); n > 0 && float64(out[n-1].RatePerS) == rate {
-			out[n-1].ToUM = summary.Num(tops[i] * h)
+			out[n-1].ToUM = jsonnum.Num(tops[i] * h)
 		} else {
-			out = append(out, summary.Band{FromUM: summary.Num(from * h), ToUM: summary.Num(tops[i] * h), RatePerS: summary.Num(rate)})
+			out = append(out, BandTruth{FromUM: jsonnum.Num(from * h), ToUM: jsonnum.Num(tops[i] * h), RatePerS: jsonnum.Num(rate)})
 		}
 		from = tops[i]
 	}
-	for i := range out {
-		out[i].ToErrUM = 0
-	}
-	out[len(out)-1].ToErrUM = summary.Null
 	return out
 }
 
-func (s *Scenario) afterStopTruth() *summary.AfterStop {
+func (s *Scenario) afterStopTruth() *AfterStopTruth {
 	stop := s.StopS()
 	if math.IsNaN(stop) || s.lastFrameS() <= stop {
 		return nil
 	}
 	h := s.GapUM()
 	obs := s.lastFrameS() - stop // the displacement is seen up to the last frame
-	a := &summary.AfterStop{StopS: stop, ObservedS: s.DurationS() - stop, NoiseFloorUM: summary.Null,
-		MaxDisplacementUM: 0, RecoveredStrain: 0, Verdict: cessation.Quiescent,
-		PlaneUM: summary.Null, OnsetAfterStopS: summary.Null}
+	a := &AfterStopTruth{StopS: stop, ObservedS: s.DurationS() - stop,
+		MaxDisplacementUM: 0, RecoveredStrain: 0, Verdict: "quiescent",
+		PlaneUM: jsonnum.Null, OnsetAfterStopS: jsonnum.Null}
 	c := s.Cessation
 	g := c.Strain(h) * c.Progress(obs)
 	if !c.Moves(h) || g == 0 {
 		return a
 	}
-	a.Verdict = cessation.Moving
-	a.RecoveredStrain = summary.Num(g)
-	a.OnsetAfterStopS = summary.Num(c.OnsetS)
-	mode := cessation.ModeWall
+	a.Verdict = "moving"
+	a.RecoveredStrain = jsonnum.Num(g)
+	a.OnsetAfterStopS = jsonnum.Num(c.OnsetS)
+	mode := "wall" // a jump at a wall
 	maxD := math.Abs(g) * h
 	if c.Kind == CessationPlane {
-		mode = cessation.ModeBulk
-		a.PlaneUM = summary.Num(c.PlaneFrac * h)
+		mode = "bulk" // a jump inside the sample
+		a.PlaneUM = jsonnum.Num(c.PlaneFrac * h)
 		maxD = math.Abs(g) * h * max(c.PlaneFrac, 1-c.PlaneFrac)
 	}
 	a.Mode = &mode
-	a.MaxDisplacementUM = summary.Num(maxD)
+	a.MaxDisplacementUM = jsonnum.Num(maxD)
 	return a
 }
 
-func (s *Scenario) trackingTruth() summary.Tracking {
+func (s *Scenario) trackingTruth() TrackingTruth {
 	n, tr, med := tracks.Count(s.TrackPoints())
-	return summary.Tracking{Detections: n, Tracks: tr, MedianTrackFrames: med}
+	return TrackingTruth{Detections: n, Tracks: tr, MedianTrackFrames: med}
 }
 
 // TrackPoints returns the true positions of every frame as tracks.csv rows:

@@ -5,16 +5,13 @@ import (
 	"testing"
 
 	"gaptrace/calib/geometry"
-	"gaptrace/profile/cessation"
-	"gaptrace/profile/phases"
-	"gaptrace/profile/rheometry"
-	"gaptrace/profile/summary"
+	"gaptrace/calib/jsonnum"
 )
 
 // truthTol is the relative tolerance of the truth's arithmetic checks.
 const truthTol = 1e-12
 
-func near(a summary.Num, b float64) bool {
+func near(a jsonnum.Num, b float64) bool {
 	return math.Abs(float64(a)-b) <= truthTol*max(1, math.Abs(b))
 }
 
@@ -78,8 +75,9 @@ func TestTruthConsistent(t *testing.T) {
 				if sp.Banded != (len(sp.Bands) > 1) || sp.WallSlip != (ss != 0 || sm != 0) {
 					t.Errorf("banded %v with %d bands, wall_slip %v with slips %g, %g", sp.Banded, len(sp.Bands), sp.WallSlip, ss, sm)
 				}
-				want := map[[2]bool]string{{false, false}: rheometry.Homogeneous, {true, false}: rheometry.WallSlip,
-					{false, true}: rheometry.Banded, {true, true}: rheometry.WallSlipBanded}[[2]bool{sp.WallSlip, sp.Banded}]
+				// The verdict words of the interface contract.
+				want := map[[2]bool]string{{false, false}: "homogeneous", {true, false}: "wall_slip",
+					{false, true}: "banded", {true, true}: "wall_slip+banded"}[[2]bool{sp.WallSlip, sp.Banded}]
 				if sp.Verdict != want {
 					t.Errorf("verdict %q, want %q", sp.Verdict, want)
 				}
@@ -88,7 +86,7 @@ func TestTruthConsistent(t *testing.T) {
 			if a == nil {
 				t.Fatal("no after-stop truth")
 			}
-			if (a.Verdict == cessation.Moving) != s.Cessation.Moves(h) || (a.Mode == nil) != (a.Verdict == cessation.Quiescent) {
+			if (a.Verdict == "moving") != s.Cessation.Moves(h) || (a.Mode == nil) != (a.Verdict == "quiescent") {
 				t.Errorf("after stop: verdict %q, mode %v for cessation %+v", a.Verdict, a.Mode, s.Cessation)
 			}
 		})
@@ -103,7 +101,7 @@ func TestTruthValues(t *testing.T) {
 	sp := mustBuiltin(t, "slip", 1).Truth().Summary.ShearPhases[0]
 	for _, c := range []struct {
 		name string
-		got  summary.Num
+		got  jsonnum.Num
 		want float64
 	}{
 		{"wall speed", sp.WallSpeedUMPerS, 800}, {"nominal rate", sp.NominalRatePerS, 1},
@@ -115,7 +113,7 @@ func TestTruthValues(t *testing.T) {
 			t.Errorf("slip: %s = %g, want %g", c.name, c.got, c.want)
 		}
 	}
-	if sp.Verdict != rheometry.WallSlip {
+	if sp.Verdict != "wall_slip" {
 		t.Errorf("slip: verdict %q", sp.Verdict)
 	}
 
@@ -124,7 +122,7 @@ func TestTruthValues(t *testing.T) {
 	// the larger part (480 um) moves by g x 480.
 	a := mustBuiltin(t, "step-plane", 1).Truth().Summary.AfterStop
 	g := 0.05 * (1 - math.Exp(-(1.495-0.1)/0.2))
-	if a.Verdict != cessation.Moving || a.Mode == nil || *a.Mode != cessation.ModeBulk || !near(a.PlaneUM, 480) ||
+	if a.Verdict != "moving" || a.Mode == nil || *a.Mode != "bulk" || !near(a.PlaneUM, 480) ||
 		!near(a.RecoveredStrain, g) || !near(a.OnsetAfterStopS, 0.1) || !near(a.MaxDisplacementUM, g*480) || a.StopS != 0.5 {
 		t.Errorf("step-plane after stop: %+v (mode %v), want bulk plane at 480 um, strain %g, onset 0.1 s", a, a.Mode, g)
 	}
@@ -134,7 +132,7 @@ func TestTruthValues(t *testing.T) {
 	s := mustBuiltin(t, "couette", 1)
 	sc := s.Truth().Summary.ShearPhases[0]
 	v := s.Geometry.WallSpeed(1)
-	if !near(sc.WallSpeedUMPerS, v) || !near(sc.BulkRatePerS, v/1000) || sc.Verdict != rheometry.Homogeneous {
+	if !near(sc.WallSpeedUMPerS, v) || !near(sc.BulkRatePerS, v/1000) || sc.Verdict != "homogeneous" {
 		t.Errorf("couette: %+v, want wall speed %g, bulk rate %g", sc, v, v/1000)
 	}
 	if mid, lin := s.VelocityFraction(500), 0.5; mid == lin || math.Abs(mid-s.Geometry.Reference(500, 1)) > truthTol {
@@ -151,7 +149,7 @@ func TestTruthAtRest(t *testing.T) {
 	s := mustBuiltin(t, "homogeneous", 1)
 	s.Motion = nil
 	sum := s.Truth().Summary
-	if len(sum.Phases) != 1 || sum.Phases[0].Kind != phases.Rest || len(sum.ShearPhases) != 0 || sum.AfterStop != nil {
+	if len(sum.Phases) != 1 || sum.Phases[0].Kind != PhaseRest || len(sum.ShearPhases) != 0 || sum.AfterStop != nil {
 		t.Errorf("at rest: phases %+v, %d shear phases, after stop %+v", sum.Phases, len(sum.ShearPhases), sum.AfterStop)
 	}
 	a, b := byID(s.Positions(0)), byID(s.Positions(s.Frames-1))
