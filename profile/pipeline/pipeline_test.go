@@ -3,6 +3,7 @@ package pipeline
 import (
 	"context"
 	"errors"
+	"os/exec"
 	"path/filepath"
 	"testing"
 
@@ -93,5 +94,50 @@ func TestInputErrors(t *testing.T) {
 		if !errors.As(err, &ie) {
 			t.Errorf("%s: error %v is not an InputError", name, err)
 		}
+	}
+}
+
+// TestStartUpOnsetThroughCodecs renders synth's start-up whose bands form
+// 0.6 s after the start (time constant 0.25 s) through two codecs and
+// checks, end to end from the video, that the onset lies between the true
+// start of formation and that plus four time constants (the aim),
+// widened by twice the reported uncertainty, and that bands came first.
+func TestStartUpOnsetThroughCodecs(t *testing.T) {
+	const onsetTaus, coverK = 4, 2
+	for _, out := range []synth.Output{{Format: synth.FormatMJPEG}, {Format: synth.FormatH264, CRF: 28}} {
+		t.Run(string(out.Format), func(t *testing.T) {
+			if out.Format == synth.FormatH264 {
+				if _, err := exec.LookPath("ffmpeg"); err != nil {
+					t.Skip("ffmpeg is not on PATH (cmd/scripts/deps.sh --test installs it)")
+				}
+			}
+			dir := t.TempDir()
+			sc, err := synth.Builtin("startup-bands", 4)
+			if err != nil {
+				t.Fatal(err)
+			}
+			truth, err := sc.Write(dir, out)
+			if err != nil {
+				t.Fatal(err)
+			}
+			exp, err := experiment.Load(filepath.Join(dir, synth.ExperimentFile))
+			if err != nil {
+				t.Fatal(err)
+			}
+			a, err := Run(context.Background(), Config{Experiment: exp, ExperimentDir: dir, Input: truth.Summary.Input.Path, EveryS: 0.2, Seed: 4})
+			if err != nil {
+				t.Fatal(err)
+			}
+			sp := a.Summary.ShearPhases[0]
+			on, tau := sc.Transient.BandsOnsetS, sc.Transient.BandsTauS
+			o, e := float64(sp.InhomogeneityOnsetS), float64(sp.InhomogeneityOnsetErrS)
+			t.Logf("%s: onset %.3f ± %.3f s after the start, %d windows; truth from %.2f s, tau %.2f s", out.Format, o, e, len(sp.InTime), on, tau)
+			if !sp.InhomogeneityOnsetS.Known() || o+coverK*e < on || o-coverK*e > on+onsetTaus*tau {
+				t.Errorf("onset %.3f ± %.3f s, outside %.2f to %.2f s", o, e, on, on+onsetTaus*tau)
+			}
+			if sp.InhomogeneityFirst == nil || *sp.InhomogeneityFirst != "bands" {
+				t.Errorf("first departure %v, want bands", sp.InhomogeneityFirst)
+			}
+		})
 	}
 }
