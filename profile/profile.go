@@ -20,6 +20,7 @@ import (
 	"gaptrace/calib"
 	"gaptrace/calib/experiment"
 	"gaptrace/calib/geometry"
+	"gaptrace/calib/rheolog"
 	"gaptrace/profile/cessation"
 	"gaptrace/profile/layers"
 	"gaptrace/profile/phases"
@@ -53,8 +54,8 @@ type Options struct {
 	// video, calib/phases). A shear phase takes the wall speed of the
 	// program step it overlaps; without one the wall speed is taken as the
 	// fluid's at the moving wall (with a warning), and the slip there is
-	// null. The end of a shear phase whose source is not "experiment" is
-	// placed where the tracks stop (cessation.RefineStop).
+	// null. The end of a shear phase whose source is neither "experiment"
+	// nor "log" is placed where the tracks stop (cessation.RefineStop).
 	Phases []phases.Phase
 	// EveryS, when positive, is the length of the time-resolved windows
 	// through every shear phase, s: their profiles go to the profile table
@@ -62,7 +63,14 @@ type Options struct {
 	// out; the onset of inhomogeneity is then found with windows of
 	// DefaultEveryS. EveryAuto asks for the windows at the default length.
 	EveryS float64
-	Seed   uint64
+	// Program, when not nil, is the motion program to use instead of the
+	// experiment file's: the one read from the rheometer log.
+	Program experiment.Program
+	// Log, when not nil, is the rheometer log: its torque or stress gives
+	// each shear phase's wall stress and stress maximum (package
+	// wallstress).
+	Log  *rheolog.Log
+	Seed uint64
 }
 
 // EveryAuto, as Options.EveryS, asks for the time-resolved windows at the
@@ -146,6 +154,7 @@ type Result struct {
 	Phases      []phases.Phase
 	ShearPhases []summary.ShearPhase
 	AfterStop   *summary.AfterStop // nil without time after a shear phase
+	SlipLaw     *summary.SlipLaws  // nil without wall stresses
 	Warnings    []string
 
 	NoiseUM        float64 // localization noise per coordinate
@@ -198,6 +207,9 @@ func Analyze(pts []tracks.Point, e *experiment.Experiment, c *calib.Calibration,
 	}
 	r := &Result{NoiseUM: sigma, FrameIntervalS: dt, Warnings: append([]string{}, warn...)}
 	prog := e.Program()
+	if o.Program != nil {
+		prog = o.Program
+	}
 	// The recording ends one frame interval after its last point.
 	r.Phases = phases.FromProgram(prog, t1+dt)
 	steps := shearSteps(prog)
@@ -320,7 +332,8 @@ func Analyze(pts []tracks.Point, e *experiment.Experiment, c *calib.Calibration,
 			SlipLengthStationaryUM: summary.Null, SlipLengthStationaryErrUM: summary.Null,
 			SlipLengthMovingUM: summary.Null, SlipLengthMovingErrUM: summary.Null, SlipFraction: summary.Null,
 			SlipFractionErr: summary.Null, Bands: []summary.Band{}, InTimeWindowS: summary.Null,
-			InhomogeneityOnsetS: summary.Null, InhomogeneityOnsetErrS: summary.Null, InhomogeneityOnsetStrain: summary.Null}
+			InhomogeneityOnsetS: summary.Null, InhomogeneityOnsetErrS: summary.Null, InhomogeneityOnsetStrain: summary.Null,
+			PhaseStress: summary.NoStress}
 		d, err := rheometry.Decompose(steady.Bins, geom, st.WallSpeedUMPerS, rheometry.Options{})
 		if err != nil {
 			r.Warnings = append(r.Warnings, fmt.Sprintf("shear phase %d (%g-%g s): %v", n, st.StartS, st.EndS, err))
@@ -361,6 +374,7 @@ func Analyze(pts []tracks.Point, e *experiment.Experiment, c *calib.Calibration,
 	}
 	r.Profiles = append(r.Profiles, userProfiles...)
 	r.Profiles = append(r.Profiles, mapProfiles...)
+	r.wallStress(o, geom)
 
 	if err := r.afterStop(ts, steps, o, gap, dt, sigma, t1); err != nil {
 		return nil, err
@@ -469,7 +483,7 @@ func (r *Result) refineStops(ts []velocity.Track, steps []experiment.Step, dt, s
 		}
 		st := &steps[k]
 		k++
-		if ph.Source == phases.SourceExperiment {
+		if ph.Source == phases.SourceExperiment || ph.Source == phases.SourceLog {
 			continue
 		}
 		stop, err := cessation.RefineStop(ts, ph.EndS, dt, sigma)

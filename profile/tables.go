@@ -78,6 +78,7 @@ func (r *Result) Fill(s *summary.Summary) {
 	}
 	s.ShearPhases = r.ShearPhases
 	s.AfterStop = r.AfterStop
+	s.SlipLaw = r.SlipLaw
 	s.Warnings = append(s.Warnings, r.Warnings...)
 }
 

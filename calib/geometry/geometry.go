@@ -42,6 +42,12 @@ type Geometry struct {
 	OuterRadiusMM float64 `yaml:"outer_radius_mm,omitempty" json:"outer_radius_mm,omitempty"`
 	// Rotating is "inner" (the default) or "outer" for a Couette cell.
 	Rotating string `yaml:"rotating,omitempty" json:"rotating,omitempty"`
+	// LengthMM is a Couette cell's immersed length, mm: with the torque
+	// it gives the wall stress (optional).
+	LengthMM float64 `yaml:"length_mm,omitempty" json:"length_mm,omitempty"`
+	// AreaMM2 is the sheared area of sliding plates, mm^2: with the force
+	// it gives the wall stress (optional).
+	AreaMM2 float64 `yaml:"area_mm2,omitempty" json:"area_mm2,omitempty"`
 }
 
 // maxConeAngleDeg bounds the cone angle: rheometer cones are a few degrees;
@@ -70,7 +76,8 @@ func (g Geometry) Validate() error {
 		key string
 		v   float64
 	}{{"gap_um", g.GapUM}, {"radius_mm", g.RadiusMM}, {"cone_angle_deg", g.ConeAngleDeg},
-		{"inner_radius_mm", g.InnerRadiusMM}, {"outer_radius_mm", g.OuterRadiusMM}} {
+		{"inner_radius_mm", g.InnerRadiusMM}, {"outer_radius_mm", g.OuterRadiusMM},
+		{"length_mm", g.LengthMM}, {"area_mm2", g.AreaMM2}} {
 		if err := nonneg(c.key, c.v); err != nil {
 			return err
 		}

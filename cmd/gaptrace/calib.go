@@ -4,12 +4,11 @@ import (
 	"context"
 	"fmt"
 	"io"
-	"os"
 	"path/filepath"
 	"strings"
 
 	"gaptrace/calib/atomicfile"
-	"gaptrace/calib/experiment"
+	"gaptrace/profile/phases"
 	"gaptrace/profile/pipeline"
 )
 
@@ -27,11 +26,7 @@ func runCalib(ctx context.Context, args []string, stderr io.Writer) error {
 	outDir := fs.String("o", "", "output folder")
 	motion := fs.Bool("motion", true, "also read every frame for the moving wall's direction and the phases of motion")
 	fs.BoolVar(&o.progress, "progress", false, "show progress even when stderr is not a terminal")
-	logPath := fs.String("log", "", "rheometer log (CSV) to use as the motion program for the phases, instead of the experiment file's motion")
-	logTime := fs.String("log-time", "1", "the log's time column (s): header name or 1-based number")
-	logValue := fs.String("log-value", "2", "the log's motion column: header name or 1-based number")
-	logKind := fs.String("log-kind", experiment.LogAngleRad, "what the motion column holds: angle_rad, angle_deg, strain or rate")
-	logOffset := fs.Float64("log-offset", 0, "seconds added to the log's times to put them on the video's clock")
+	o.log.add(fs)
 	if err := parseFlags(fs, args); err != nil {
 		return err
 	}
@@ -43,36 +38,31 @@ func runCalib(ctx context.Context, args []string, stderr io.Writer) error {
 	if err != nil {
 		return err
 	}
-	var program experiment.Program
-	if *logPath != "" {
-		f, err := os.Open(*logPath)
-		if err != nil {
-			return badInputf("--log: %v", err)
-		}
-		program, err = experiment.ReadLog(f, experiment.LogColumns{Time: *logTime, Value: *logValue, Kind: *logKind, OffsetS: *logOffset}, exp.Geometry)
-		f.Close()
-		if err != nil {
-			return badInputf("--log %s: %v", *logPath, err)
-		}
-	} else {
-		program = exp.Program()
+	if err := o.loadLog(exp); err != nil {
+		return err
 	}
+	cfg := o.config(exp, stderr)
 	od, err := holdOutDir(*outDir, false, false, stderr)
 	if err != nil {
 		return err
 	}
 	defer od.release()
 	removeStale(*outDir, calibrationName, calibrationPNGName)
-	rec, err := pipeline.Open(ctx, o.config(exp, stderr))
+	rec, err := pipeline.Open(ctx, cfg)
 	if err != nil {
 		return stageErr(err)
 	}
 	defer rec.Close()
+	if o.rheoLog != nil {
+		fmt.Fprintf(stderr, "calib: log %s: %s\n", o.log.path, describeLog(o.rheoLog))
+	}
+	var ph []phases.Phase
 	if *motion {
-		m, err := rec.WallMotion(ctx, program)
+		m, err := rec.WallMotion(ctx)
 		if err != nil {
 			return stageErr(err)
 		}
+		ph = m.Phases
 		if len(m.Phases) > 0 {
 			var parts []string
 			for _, p := range m.Phases {
@@ -85,7 +75,7 @@ func runCalib(ctx context.Context, args []string, stderr io.Writer) error {
 		}
 	}
 	cal := rec.Calibration
-	if err := writeCalibJSON(filepath.Join(*outDir, calibrationName), cal); err != nil {
+	if err := writeCalibJSON(filepath.Join(*outDir, calibrationName), cal, ph); err != nil {
 		return err
 	}
 	png, err := rec.CalibrationPNG()

@@ -98,7 +98,8 @@ func TestCalibCommand(t *testing.T) {
 	}
 	code, errs = runCalibArgs("-e", filepath.Join(in, synth.ExperimentFile), "-o", out, "--log", logPath, "--log-time", "time",
 		"--log-value", "strain", "--log-kind", "strain", filepath.Join(in, synth.FramesDir))
-	if code != 0 || !strings.Contains(errs, "shear phase 1 starts at 0.300 s in the motion program but at 0.250 s in the video") {
+	if code != 0 || !strings.Contains(errs, "shear phase 1 starts at 0.300 s in the rheometer log but at 0.250 s in the video") ||
+		!strings.Contains(errs, "phases (log)") {
 		t.Errorf("with the log: exit %d, stderr %s", code, errs)
 	}
 }

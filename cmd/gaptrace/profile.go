@@ -89,6 +89,8 @@ func runProfile(ctx context.Context, args []string, stderr io.Writer) error {
 	var every everyFlag
 	fs.Var(&every, "every", everyUsage)
 	seed := fs.Uint64("seed", 1, "seed of the bootstrap's random numbers")
+	var lf logFlags
+	lf.add(fs)
 	if err := parseFlags(fs, args); err != nil {
 		return err
 	}
@@ -99,6 +101,10 @@ func runProfile(ctx context.Context, args []string, stderr io.Writer) error {
 		return badInputf("--bins %d: must be positive", *bins)
 	}
 	e, err := loadExperiment(*expPath)
+	if err != nil {
+		return err
+	}
+	rl, err := lf.load(e)
 	if err != nil {
 		return err
 	}
@@ -125,7 +131,7 @@ func runProfile(ctx context.Context, args []string, stderr io.Writer) error {
 	if err != nil {
 		return badInput(fmt.Errorf("%s: %w", in, err))
 	}
-	cfg := pipeline.Config{Experiment: e, ExperimentDir: filepath.Dir(*expPath), Bins: *bins, Windows: windows, EveryS: float64(every), Seed: *seed}
+	cfg := pipeline.Config{Experiment: e, ExperimentDir: filepath.Dir(*expPath), Bins: *bins, Windows: windows, EveryS: float64(every), Seed: *seed, Log: rl}
 	t, err := pipeline.FromTracks(cfg, in, pts, c)
 	if err != nil {
 		return stageErr(err)

@@ -47,6 +47,7 @@ func runRun(ctx context.Context, args []string, stderr io.Writer) error {
 	fs.Var(&o.windows, "window", "time window START:END in s for a profile; repeat for more (default: the second half of each shear phase)")
 	fs.Var(&o.every, "every", everyUsage)
 	fs.Uint64Var(&o.seed, "seed", 1, "seed of the bootstrap's random numbers")
+	o.log.add(fs)
 	if err := parseFlags(fs, args); err != nil {
 		return err
 	}
@@ -106,6 +107,9 @@ func runChain(ctx context.Context, o runOptions, stderr io.Writer) (*summary.Sum
 	if err != nil {
 		return nil, err
 	}
+	if err := o.loadLog(exp); err != nil {
+		return nil, err
+	}
 	yaml, _ := os.ReadFile(o.expPath)
 	if !o.holding {
 		od, err := holdOutDir(o.outDir, true, o.force, stderr)
@@ -134,7 +138,7 @@ func runChain(ctx context.Context, o runOptions, stderr io.Writer) (*summary.Sum
 	if err != nil {
 		return nil, stageErr(err)
 	}
-	if err := writeCalibJSON(filepath.Join(o.outDir, calibrationName), t.Calibration); err != nil {
+	if err := writeCalibJSON(filepath.Join(o.outDir, calibrationName), t.Calibration, t.PhasesFor(cfg)); err != nil {
 		return nil, err
 	}
 	if err := atomicfile.Write(filepath.Join(o.outDir, tracksName), t.WriteTracks); err != nil {

@@ -10,6 +10,8 @@ import (
 	"gaptrace/calib"
 	"gaptrace/calib/atomicfile"
 	"gaptrace/calib/experiment"
+	"gaptrace/calib/rheolog"
+	"gaptrace/profile/phases"
 	"gaptrace/profile/pipeline"
 )
 
@@ -30,13 +32,23 @@ type stageOptions struct {
 	expPath, input string
 	progress       bool // show progress even when stderr is not a terminal
 	noJitter       bool
+	log            logFlags
+	// rheoLog is the log read from the log flags (nil without --log).
+	rheoLog *rheolog.Log
+}
+
+// loadLog reads the rheometer log of the log flags into o.rheoLog.
+func (o *stageOptions) loadLog(exp *experiment.Experiment) error {
+	l, err := o.log.load(exp)
+	o.rheoLog = l
+	return err
 }
 
 // config returns the pipeline's configuration for exp, with progress shown
 // on stderr when it is a terminal or forced.
 func (o stageOptions) config(exp *experiment.Experiment, stderr io.Writer) pipeline.Config {
 	return pipeline.Config{Experiment: exp, ExperimentDir: filepath.Dir(o.expPath), Input: o.input,
-		NoJitter: o.noJitter, Progress: newStageProgress(stderr, o.progress)}
+		NoJitter: o.noJitter, Log: o.rheoLog, Progress: newStageProgress(stderr, o.progress)}
 }
 
 // stageErr maps an error of the pipeline to the command's: an input error
@@ -55,9 +67,14 @@ func stageErr(err error) error {
 	return err
 }
 
-// writeCalibJSON writes calibration.json atomically.
-func writeCalibJSON(path string, cal *calib.Calibration) error {
-	b, err := json.MarshalIndent(cal, "", "  ")
+// writeCalibJSON writes calibration.json atomically, with the phases when
+// they are known (their source says where they come from: the experiment
+// file, the rheometer log or the video).
+func writeCalibJSON(path string, cal *calib.Calibration, ph []phases.Phase) error {
+	b, err := json.MarshalIndent(struct {
+		*calib.Calibration
+		Phases []phases.Phase `json:"phases,omitempty"`
+	}{cal, ph}, "", "  ")
 	if err != nil {
 		return err
 	}

@@ -25,6 +25,7 @@ func runTrack(ctx context.Context, args []string, stderr io.Writer) error {
 	outDir := fs.String("o", "", "output folder")
 	fs.BoolVar(&o.progress, "progress", false, "show progress even when stderr is not a terminal")
 	fs.BoolVar(&o.noJitter, "no-jitter", false, "do not measure and remove the camera's frame-to-frame jitter (a rigidly mounted camera)")
+	o.log.add(fs)
 	cpuProfile := fs.String("cpuprofile", "", "write a CPU profile of the stage to this file (for developers)")
 	if err := parseFlags(fs, args); err != nil {
 		return err
@@ -44,13 +45,17 @@ func runTrack(ctx context.Context, args []string, stderr io.Writer) error {
 	if err != nil {
 		return err
 	}
+	if err := o.loadLog(exp); err != nil {
+		return err
+	}
+	cfg := o.config(exp, stderr)
 	od, err := holdOutDir(*outDir, false, false, stderr)
 	if err != nil {
 		return err
 	}
 	defer od.release()
 	removeStale(*outDir, tracksName, calibrationName)
-	rec, err := pipeline.Open(ctx, o.config(exp, stderr))
+	rec, err := pipeline.Open(ctx, cfg)
 	if err != nil {
 		return stageErr(err)
 	}
@@ -62,7 +67,7 @@ func runTrack(ctx context.Context, args []string, stderr io.Writer) error {
 	for _, w := range t.Warnings {
 		fmt.Fprintf(stderr, "track: warning: %s\n", w)
 	}
-	if err := writeCalibJSON(filepath.Join(*outDir, calibrationName), t.Calibration); err != nil {
+	if err := writeCalibJSON(filepath.Join(*outDir, calibrationName), t.Calibration, t.PhasesFor(cfg)); err != nil {
 		return err
 	}
 	if err := atomicfile.Write(filepath.Join(*outDir, tracksName), t.WriteTracks); err != nil {

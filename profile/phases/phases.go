@@ -52,6 +52,16 @@ func FromProgram(p experiment.Program, durationS float64) []Phase {
 	return fromSegments(starts, ends, durationS, SourceExperiment)
 }
 
+// FromLog is FromProgram for a motion program read from the rheometer's
+// log: the phases' source is "log".
+func FromLog(p experiment.Program, durationS float64) []Phase {
+	ph := FromProgram(p, durationS)
+	for i := range ph {
+		ph[i].Source = SourceLog
+	}
+	return ph
+}
+
 // fromSegments turns shear intervals in time order into the phase list.
 func fromSegments(starts, ends []float64, durationS float64, source string) []Phase {
 	ph := []Phase{}
@@ -96,9 +106,13 @@ func Reconcile(program, detected []Phase, fps float64) ([]Phase, []string) {
 		}
 		return detected, warn
 	}
+	name := "motion program"
+	if program[0].Source == SourceLog {
+		name = "rheometer log"
+	}
 	ps, ds := shears(program), shears(detected)
 	if len(detected) > 0 && len(ps) != len(ds) {
-		warn = append(warn, fmt.Sprintf("phases: the motion program has %d shear phases, the video shows %d", len(ps), len(ds)))
+		warn = append(warn, fmt.Sprintf("phases: the %s has %d shear phases, the video shows %d", name, len(ps), len(ds)))
 	}
 	tol := MaxDisagreeFrames / fps
 	for i := 0; i < min(len(ps), len(ds)); i++ {
@@ -107,8 +121,8 @@ func Reconcile(program, detected []Phase, fps float64) ([]Phase, []string) {
 			p, d float64
 		}{{"starts", ps[i].StartS, ds[i].StartS}, {"ends", ps[i].EndS, ds[i].EndS}} {
 			if diff := c.d - c.p; math.Abs(diff) > tol {
-				warn = append(warn, fmt.Sprintf("phases: shear phase %d %s at %.3f s in the motion program but at %.3f s in the video (%+.1f frames)",
-					i+1, c.what, c.p, c.d, diff*fps))
+				warn = append(warn, fmt.Sprintf("phases: shear phase %d %s at %.3f s in the %s but at %.3f s in the video (%+.1f frames)",
+					i+1, c.what, c.p, name, c.d, diff*fps))
 			}
 		}
 	}

@@ -28,8 +28,18 @@ func Analyze(ctx context.Context, cfg Config, t *Tracked) (*Analysis, error) {
 		return nil, err
 	}
 	cfg.report(StageProfile, 0, 1)
-	r, err := profile.Analyze(t.Points, cfg.Experiment, t.Calibration,
-		profile.Options{Bins: cfg.Bins, Windows: cfg.Windows, EveryS: cfg.EveryS, Seed: cfg.Seed, Phases: t.Phases})
+	opt := profile.Options{Bins: cfg.Bins, Windows: cfg.Windows, EveryS: cfg.EveryS, Seed: cfg.Seed, Phases: t.Phases, Log: cfg.Log}
+	if cfg.Log != nil {
+		prog, err := cfg.program()
+		if err != nil {
+			return nil, err
+		}
+		opt.Program = prog
+		if opt.Phases == nil && t.Info.FPS > 0 {
+			opt.Phases = cfg.programPhases(prog, float64(t.Info.Frames)/t.Info.FPS)
+		}
+	}
+	r, err := profile.Analyze(t.Points, cfg.Experiment, t.Calibration, opt)
 	if err != nil {
 		return nil, inputErr(err)
 	}
@@ -97,8 +107,12 @@ func FromTracks(cfg Config, input string, pts []tracks.Point, cal *calib.Calibra
 	}
 	t := &Tracked{Input: input, Calibration: cal, Points: pts,
 		Info: frames.Info{FPS: fps, Frames: maxFrame + 1, WidthPx: cal.WidthPx, HeightPx: cal.HeightPx}}
-	if len(cfg.Experiment.Program()) == 0 && fps > 0 {
-		t.findPhases(nil)
+	prog, err := cfg.program()
+	if err != nil {
+		return nil, err
+	}
+	if (len(prog) == 0 || cfg.Log != nil) && fps > 0 {
+		t.findPhases(&cfg, prog)
 	}
 	return t, nil
 }

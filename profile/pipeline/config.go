@@ -6,7 +6,9 @@ import (
 	"fmt"
 
 	"gaptrace/calib/experiment"
+	"gaptrace/calib/rheolog"
 	"gaptrace/profile"
+	"gaptrace/profile/phases"
 )
 
 // Config says what to analyse and how. The zero value of each optional
@@ -33,6 +35,10 @@ type Config struct {
 	// shear phase, s (profile.Options.EveryS: 0 none, profile.EveryAuto
 	// the default length).
 	EveryS float64
+	// Log, when not nil, is the rheometer's log: its motion replaces the
+	// experiment file's motion program (phases with source "log"), and its
+	// torque or stress gives each shear phase's wall stress.
+	Log *rheolog.Log
 	// Seed seeds the bootstrap's random numbers.
 	Seed uint64
 	// Progress, when not nil, is called as the stages advance, from the
@@ -95,7 +101,32 @@ func (c *Config) check() error {
 	case c.Bins < 0:
 		return inputErrf("%d layers across the gap: must be positive", c.Bins)
 	}
+	if _, err := c.program(); err != nil {
+		return err
+	}
 	return nil
+}
+
+// program returns the motion program: the log's when there is a log, else
+// the experiment file's.
+func (c *Config) program() (experiment.Program, error) {
+	if c.Log == nil {
+		return c.Experiment.Program(), nil
+	}
+	p, err := c.Log.Program(c.Experiment.Geometry)
+	if err != nil {
+		return nil, inputErr(err)
+	}
+	return p, nil
+}
+
+// programPhases returns the phases of the program p over durationS, with
+// the log's source when p is the log's.
+func (c *Config) programPhases(p experiment.Program, durationS float64) []phases.Phase {
+	if c.Log != nil {
+		return phases.FromLog(p, durationS)
+	}
+	return phases.FromProgram(p, durationS)
 }
 
 // isCancel reports whether err is a context's cancellation or deadline.

@@ -10,7 +10,6 @@ import (
 	"gocv.io/x/gocv"
 
 	"gaptrace/calib"
-	"gaptrace/calib/experiment"
 	"gaptrace/profile/phases"
 	"gaptrace/profile/report/figure"
 	"gaptrace/track/frames"
@@ -133,9 +132,14 @@ type MotionPhases struct {
 
 // WallMotion reads every frame, measures the image motion beside the
 // moving wall (phases.Measure), sets the calibration's flow sign from it,
-// and returns the phases of motion reconciled with program. It serves a
+// and returns the phases of motion reconciled with the motion program (the
+// rheometer log's when the configuration has one). It serves a
 // calibration without tracking; Track finds the phases from the tracks.
-func (r *Recording) WallMotion(ctx context.Context, program experiment.Program) (*MotionPhases, error) {
+func (r *Recording) WallMotion(ctx context.Context) (*MotionPhases, error) {
+	program, err := r.cfg.program()
+	if err != nil {
+		return nil, err
+	}
 	src, err := r.takeInput()
 	if err != nil {
 		return nil, err
@@ -156,7 +160,7 @@ func (r *Recording) WallMotion(ctx context.Context, program experiment.Program) 
 	if d.FlowSign != 0 {
 		r.Calibration.FlowSign = d.FlowSign
 	}
-	m.Phases, m.Warnings = phases.Reconcile(phases.FromProgram(program, float64(len(signal))/info.FPS), d.Phases, info.FPS)
+	m.Phases, m.Warnings = phases.Reconcile(r.cfg.programPhases(program, float64(len(signal))/info.FPS), d.Phases, info.FPS)
 	return m, nil
 }
 

@@ -82,7 +82,11 @@ func (r *Recording) Track(ctx context.Context) (*Tracked, error) {
 		return nil, err
 	}
 	t.Warnings = append(t.Warnings, r.Calibration.Warnings...)
-	t.findPhases(r.cfg.Experiment.Program())
+	prog, err := r.cfg.program()
+	if err != nil {
+		return nil, err
+	}
+	t.findPhases(&r.cfg, prog)
 	return t, nil
 }
 
@@ -169,7 +173,11 @@ func (r *Recording) linkAll(ctx context.Context, t *Tracked, dets [][]link.Detec
 	}
 	r.cfg.report(StageLink, 0, 1)
 	cal := r.Calibration
-	v := maxWallSpeed(r.cfg.Experiment.Program())
+	prog, err := r.cfg.program()
+	if err != nil {
+		return err
+	}
+	v := maxWallSpeed(prog)
 	if v == 0 {
 		v = fastestTracerFraction * float64(t.Info.WidthPx) * cal.UMPerPx * t.Info.FPS
 	}
@@ -195,7 +203,7 @@ func (r *Recording) linkAll(ctx context.Context, t *Tracked, dets [][]link.Detec
 // travels towards -x of the image), and reconciles them with the motion
 // program: t.Phases is set to the detected phases when the program has
 // none.
-func (t *Tracked) findPhases(prog experiment.Program) {
+func (t *Tracked) findPhases(cfg *Config, prog experiment.Program) {
 	det, err := phases.Detect(phases.WallSignal(t.Points, t.Calibration, t.Info.Frames), t.Info.FPS)
 	if err != nil {
 		if len(prog) == 0 {
@@ -227,11 +235,25 @@ func (t *Tracked) findPhases(prog experiment.Program) {
 	if n := len(t.FrameTimesS); n > 0 {
 		durS = t.FrameTimesS[n-1] + float64(t.Info.Frames-n+1)/t.Info.FPS
 	}
-	use, warn := phases.Reconcile(phases.FromProgram(prog, durS), det.Phases, t.Info.FPS)
+	use, warn := phases.Reconcile(cfg.programPhases(prog, durS), det.Phases, t.Info.FPS)
 	t.Warnings = append(t.Warnings, warn...)
 	if len(prog) == 0 {
 		t.Phases = use
 	}
+}
+
+// PhasesFor returns the phases the profile stage uses for t under cfg: the
+// ones found in the video when the program has none, else the program's
+// (the rheometer log's, with source "log", when cfg has a log).
+func (t *Tracked) PhasesFor(cfg Config) []phases.Phase {
+	if t.Phases != nil {
+		return t.Phases
+	}
+	prog, err := cfg.program()
+	if err != nil || !(t.Info.FPS > 0) {
+		return nil
+	}
+	return cfg.programPhases(prog, float64(t.Info.Frames)/t.Info.FPS)
 }
 
 // WriteTracks writes the tracks as tracks.csv (package tracks).

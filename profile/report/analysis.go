@@ -107,7 +107,7 @@ func startUp(n int, sp *summary.ShearPhase, gapUM float64) *figure.StartUp {
 		return nil
 	}
 	su := &figure.StartUp{Phase: n, WindowS: num(sp.InTimeWindowS), NominalRatePerS: num(sp.NominalRatePerS), GapUM: gapUM,
-		OnsetS: num(sp.InhomogeneityOnsetS), OnsetErrS: num(sp.InhomogeneityOnsetErrS), StressPeakS: math.NaN()}
+		OnsetS: num(sp.InhomogeneityOnsetS), OnsetErrS: num(sp.InhomogeneityOnsetErrS), StressPeakS: num(sp.StressPeakS)}
 	for _, w := range sp.InTime {
 		q := figure.StartUpWindow{AfterStartS: (w.TStartS+w.TEndS)/2 - sp.StartS,
 			BoundaryUM: math.NaN(), BoundaryErrUM: math.NaN(),

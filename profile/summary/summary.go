@@ -34,7 +34,10 @@ type Summary struct {
 	Phases      []phases.Phase     `json:"phases"`
 	ShearPhases []ShearPhase       `json:"shear_phases"`
 	AfterStop   *AfterStop         `json:"after_stop"`
-	Warnings    []string           `json:"warnings"`
+	// SlipLaw is fitted across the shear phases when the rheometer log
+	// gives their wall stress (null otherwise).
+	SlipLaw  *SlipLaws `json:"slip_law"`
+	Warnings []string  `json:"warnings"`
 }
 
 // Tool names the program.
@@ -115,6 +118,7 @@ type ShearPhase struct {
 	// InhomogeneityFirst is "slip" or "bands", whichever departed first;
 	// null with the onset.
 	InhomogeneityFirst *string `json:"inhomogeneity_first"`
+	PhaseStress
 }
 
 // InTime is one time-resolved window of a shear phase.

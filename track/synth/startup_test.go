@@ -9,6 +9,7 @@ import (
 
 	"gaptrace/calib/experiment"
 	"gaptrace/calib/geometry"
+	"gaptrace/calib/rheolog"
 )
 
 // startup returns a start-up with slip and two bands that develop after
@@ -274,8 +275,11 @@ func TestRheometerLog(t *testing.T) {
 	if lines[0] != "time,angle,strain,rate,torque,stress" {
 		t.Fatalf("header %q", lines[0])
 	}
-	prog, err := experiment.ReadLog(strings.NewReader(plain.String()),
-		experiment.LogColumns{Time: "time", Value: "strain", Kind: experiment.LogStrain, OffsetS: -12.5}, s.Geometry)
+	rl, err := rheolog.Read(strings.NewReader(plain.String()), rheolog.Spec{Time: "time", Motion: "strain", Kind: rheolog.Strain, OffsetS: -12.5})
+	if err != nil {
+		t.Fatal(err)
+	}
+	prog, err := rl.Program(s.Geometry)
 	if err != nil {
 		t.Fatal(err)
 	}

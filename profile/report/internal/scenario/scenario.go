@@ -234,6 +234,7 @@ func Summary() *summary.Summary {
 		SlipStationaryUMPerS: demoSlipStatUM, SlipStationaryErrUMPerS: 6.1,
 		SlipMovingUMPerS: demoSlipMovUM, SlipMovingErrUMPerS: 9.4,
 		SlipLengthStationaryUM: summary.Num(demoSlipStatUM / demoRate1PerS), SlipLengthStationaryErrUM: 3.4,
+		PhaseStress:        summary.NoStress,
 		SlipLengthMovingUM: summary.Num(demoSlipMovUM / rate2), SlipLengthMovingErrUM: 21,
 		SlipFraction:    summary.Num((demoWallUMPerS - bulk*demoGapUM) / demoWallUMPerS),
 		SlipFractionErr: 0.009,
