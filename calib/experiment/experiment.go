@@ -166,7 +166,59 @@ func tidyYAMLError(err error) error {
 	if m := regexp.MustCompile(`line (\d+): field (\S+) not found in geometry`).FindStringSubmatch(msg); m != nil {
 		return fmt.Errorf("line %s: unknown key geometry.%s", m[1], m[2])
 	}
-	return errors.New(strings.TrimPrefix(msg, "yaml: "))
+	if m := cannotUnmarshal.FindStringSubmatch(msg); m != nil {
+		v := m[3]
+		if len(v) > maxQuoted {
+			v = v[:maxQuoted] + "…"
+		}
+		if m[3] == "" {
+			return fmt.Errorf("line %s: %s where %s is expected", m[1], yamlKind(m[2]), goKind(m[4]))
+		}
+		return fmt.Errorf("line %s: %s %q where %s is expected", m[1], yamlKind(m[2]), v, goKind(m[4]))
+	}
+	// Whatever else the YAML reader says, on one line.
+	return errors.New(strings.ReplaceAll(strings.TrimPrefix(msg, "yaml: "), "\n", `\n`))
+}
+
+// cannotUnmarshal matches the YAML reader's type errors, whose value may
+// span lines.
+var cannotUnmarshal = regexp.MustCompile("(?s)line (\\d+): cannot unmarshal !!(\\w+)(?: `(.*)`)? into (\\S+)")
+
+// maxQuoted bounds the part of a wrong value quoted in an error.
+const maxQuoted = 40
+
+// yamlKind names a YAML tag for the user.
+func yamlKind(tag string) string {
+	switch tag {
+	case "str":
+		return "the text"
+	case "int", "float":
+		return "the number"
+	case "bool":
+		return "the yes/no value"
+	case "seq":
+		return "a list"
+	case "map":
+		return "a mapping"
+	}
+	return "the value"
+}
+
+// goKind names what a Go type of the file's structure holds, for the user.
+func goKind(t string) string {
+	switch {
+	case strings.HasPrefix(t, "[]"):
+		return "a list"
+	case strings.HasPrefix(t, "["):
+		return "a list of fixed length"
+	case t == "string" || strings.HasSuffix(t, ".Kind"):
+		return "text"
+	case t == "float64" || t == "*float64" || strings.HasPrefix(t, "int"):
+		return "a number"
+	case t == "bool":
+		return "yes or no"
+	}
+	return "a mapping of keys"
 }
 
 // Validate checks the whole file and returns the first problem, naming the
@@ -265,7 +317,7 @@ func (e *Experiment) Validate() error {
 	default:
 		return fmt.Errorf("tracers.polarity: %q is not auto, bright or dark", t.Polarity)
 	}
-	return nil
+	return e.checkBounds() // bounds.go
 }
 
 func (s Segment) given() string {
