@@ -129,7 +129,7 @@ func Fit(pts []Point, k int, h, minWidth float64) (*Model, error) {
 		return nil, fmt.Errorf("bands: domain length %g um is not positive", h)
 	}
 	for _, p := range pts {
-		if !(p.Err > 0) || math.IsNaN(p.V) || math.IsNaN(p.U) {
+		if !(p.Err > 0) || math.IsInf(p.Err, 0) || math.IsNaN(p.V) || math.IsNaN(p.U) || math.IsInf(p.V, 0) || math.IsInf(p.U, 0) {
 			return nil, fmt.Errorf("bands: point at %g um has value %g and error %g; give only known layers with a positive error", p.U, p.V, p.Err)
 		}
 	}
@@ -142,6 +142,7 @@ func Fit(pts []Point, k int, h, minWidth float64) (*Model, error) {
 	var best struct {
 		chi2   float64
 		bounds []float64
+		found  bool // a placement was fitted (bounds is nil for one band)
 	}
 	best.chi2 = math.Inf(1)
 	try := func(b []float64) {
@@ -149,7 +150,7 @@ func Fit(pts []Point, k int, h, minWidth float64) (*Model, error) {
 			return
 		}
 		if c, _, _, ok := linearFit(pts, b); ok && c < best.chi2 {
-			best.chi2, best.bounds = c, append([]float64(nil), b...)
+			best.chi2, best.bounds, best.found = c, append([]float64(nil), b...), true
 		}
 	}
 	step := h / gridSteps
@@ -167,7 +168,13 @@ func Fit(pts []Point, k int, h, minWidth float64) (*Model, error) {
 			}
 		}
 	}
-	if best.bounds == nil && k > 1 {
+	if !best.found {
+		// Also one band: layers that all sit at one height, or whose
+		// values overflow, determine no line (issue 18: a cellular
+		// automaton's tracks gave a fit with no rates).
+		if k == 1 {
+			return nil, fmt.Errorf("bands: %d layers determine no straight-line profile (they lie at one height or their values are not finite)", len(pts))
+		}
 		return nil, fmt.Errorf("bands: no placement of %d bands of at least %g um fits %d layers", k, minWidth, len(pts))
 	}
 	// Coordinate search with a halving step around the grid optimum.
@@ -188,7 +195,10 @@ func Fit(pts []Point, k int, h, minWidth float64) (*Model, error) {
 			}
 		}
 	}
-	chi2, v0, rates, _ := linearFit(pts, best.bounds)
+	chi2, v0, rates, ok := linearFit(pts, best.bounds)
+	if !ok || len(rates) != k {
+		return nil, fmt.Errorf("bands: the %d-band fit of %d layers failed", k, len(pts))
+	}
 	m := &Model{H: h, V0: v0, Rates: rates, Bounds: best.bounds, Chi2: chi2, N: len(pts)}
 	np := 2 * k
 	m.BIC = chi2 + float64(np)*math.Log(float64(len(pts)))

@@ -93,6 +93,11 @@ func FromDetections(frames [][]Point, cal *calib.Calibration, opt HistOptions) (
 	if err != nil {
 		return nil, err
 	}
+	// The cell count is checked in floating point first: a huge step
+	// (issue 18: gap_um 1e308 with um_per_px 1e-300) would overflow int.
+	if cells := (2*math.Ceil(opt.MaxStepPx/opt.ResolutionPx) + 1) * float64(len(ys)); !(cells <= maxHistCells) {
+		return nil, fmt.Errorf("flowprior: MaxStepPx %g px at resolution %g px needs %.3g histogram cells, more than %d", opt.MaxStepPx, opt.ResolutionPx, cells, maxHistCells)
+	}
 	nh := 2*int(math.Ceil(opt.MaxStepPx/opt.ResolutionPx)) + 1
 	if nh*len(ys) > maxHistCells {
 		return nil, fmt.Errorf("flowprior: MaxStepPx %g px at resolution %g px needs %d histogram cells, more than %d", opt.MaxStepPx, opt.ResolutionPx, nh*len(ys), maxHistCells)

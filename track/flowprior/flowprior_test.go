@@ -346,3 +346,17 @@ func TestQuickCommonModeParallel(t *testing.T) {
 		t.Errorf("frame-to-frame shake off by up to %.3f px (tol %.3f)", worst, tol)
 	}
 }
+
+// TestHugeStep checks that a step too large for the displacement histogram
+// is an error, not a panic (issue 18: gap_um 1e308, um_per_px 1e-300 and
+// rate_per_s 1e300 gave an index out of range here).
+func TestHugeStep(t *testing.T) {
+	cal := &calib.Calibration{UMPerPx: 2, GapUM: 800, StationaryWallPx: calib.Line{{0, 450}, {639, 450}},
+		MovingWallPx: calib.Line{{0, 50}, {639, 50}}, FlowSign: 1}
+	frames := [][]Point{{{10, 100}, {20, 200}}, {{11, 100}, {21, 200}}}
+	for _, step := range []float64{1e300, math.MaxFloat64, 1e19, math.Inf(1)} {
+		if _, err := FromDetections(frames, cal, HistOptions{MaxStepPx: step}); err == nil {
+			t.Errorf("MaxStepPx %g: no error", step)
+		}
+	}
+}
