@@ -10,6 +10,7 @@ import (
 
 	"gaptrace/calib"
 	"gaptrace/calib/experiment"
+	"gaptrace/calib/walls"
 	"gaptrace/profile/phases"
 	"gaptrace/track/detect"
 	"gaptrace/track/frames"
@@ -22,8 +23,13 @@ import (
 const DefaultDiameterPx = 5
 
 // maskMarginFactor keeps detections this many tracer radii away from each
-// wall line, outside the wall's edge and reflection line.
+// wall line. The walls' profiles are subtracted next to them
+// (detect.Options.Walls), but the texture of a moving plate, which the
+// median image does not hold, still makes spots on the plate's edge.
 const maskMarginFactor = 1.0
+
+// maskSlackPx admits centres this far beyond the margin.
+const maskSlackPx = 0.0
 
 // fastestTracerFraction: without a motion program the linker allows a
 // wall speed that moves a tracer across this fraction of the image width
@@ -100,16 +106,16 @@ func (r *Recording) detectAll(ctx context.Context, t *Tracked) ([][]link.Detecti
 	defer src.Close()
 	t.Info = src.Info()
 	e := r.cfg.Experiment
-	d := e.Tracers.DiameterPx
-	if d == 0 {
-		d = DefaultDiameterPx
-	}
+	d := r.diameterPx()
 	cal := r.Calibration
 	opt := detect.Options{
 		DiameterPx: d,
 		Polarity:   e.PolarityHint(),
 		Mask: &detect.Mask{Stationary: cal.StationaryWallPx, Moving: cal.MovingWallPx,
-			MarginPx: maskMarginFactor * d / 2},
+			MarginPx: maskMarginFactor*d/2 - maskSlackPx},
+	}
+	if opt.Walls, err = r.wallProfiles(d); err != nil {
+		return nil, err
 	}
 	t.Diagnostics.MinSNR = detect.DefaultMinSNR
 	var out [][]link.Detection
@@ -157,6 +163,47 @@ func (r *Recording) detectAll(ctx context.Context, t *Tracked) ([][]link.Detecti
 	return out, nil
 }
 
+// diameterPx returns the tracers' diameter of the experiment file, or
+// DefaultDiameterPx.
+func (r *Recording) diameterPx() float64 {
+	if d := r.cfg.Experiment.Tracers.DiameterPx; d != 0 {
+		return d
+	}
+	return DefaultDiameterPx
+}
+
+// markNearWall flags the points whose centre is closer to a wall line than
+// tracks.NearWallRadii tracer radii.
+func markNearWall(pts []tracks.Point, cal *calib.Calibration, diameterPx float64) {
+	limUM := tracks.NearWallRadii * diameterPx / 2 * cal.UMPerPx
+	for i := range pts {
+		y := pts[i].YUM
+		pts[i].NearWall = y < limUM || cal.GapUM-y < limUM
+	}
+}
+
+// wallProfiles measures the static profile of each wall on the median
+// image, for the detector to subtract next to the walls; none when there is
+// no median image.
+func (r *Recording) wallProfiles(diameterPx float64) ([]*walls.Profile, error) {
+	if r.Median.Empty() {
+		return nil, nil
+	}
+	var out []*walls.Profile
+	for _, l := range []calib.Line{r.Calibration.StationaryWallPx, r.Calibration.MovingWallPx} {
+		line, err := walls.LineThrough(l[0], l[1])
+		if err != nil {
+			return nil, err
+		}
+		p, err := walls.MeasureProfile(r.Median, line, detect.WallReachPx(diameterPx))
+		if err != nil {
+			return nil, inputErr(err)
+		}
+		out = append(out, p)
+	}
+	return out, nil
+}
+
 // maxWallSpeed returns the largest moving-wall speed of the program, um/s.
 func maxWallSpeed(p experiment.Program) float64 {
 	v := 0.0
@@ -193,6 +240,7 @@ func (r *Recording) linkAll(ctx context.Context, t *Tracked, dets [][]link.Detec
 	if st.Tracks == 0 {
 		return inputErrf("no tracks: %d detections in %d frames could not be linked", st.Detections, len(dets))
 	}
+	markNearWall(pts, cal, r.diameterPx())
 	t.Points, t.Link = pts, st
 	r.cfg.report(StageLink, 1, 1)
 	return ctx.Err()

@@ -47,6 +47,8 @@ import (
 	"errors"
 	"fmt"
 	"math"
+
+	"gaptrace/calib/walls"
 )
 
 // Polarities of the tracers against the background.
@@ -116,7 +118,10 @@ type Detection struct {
 }
 
 // Mask keeps the detections between two wall lines, each given by two
-// points in image pixels, at least MarginPx away from each. A
+// points in image pixels, at least MarginPx away from each. A negative
+// margin, down to minus half a tracer diameter, admits centres that far
+// beyond the lines: a tracer touching a wall, whose centre the
+// localization noise may put a little beyond it. A
 // calib.Calibration's StationaryWallPx and MovingWallPx (calib.Line) assign
 // to the fields directly.
 type Mask struct {
@@ -152,8 +157,8 @@ func (m *Mask) check() error {
 			return fmt.Errorf("detect: mask wall line %v has two equal points", l)
 		}
 	}
-	if m.MarginPx < 0 || math.IsNaN(m.MarginPx) {
-		return fmt.Errorf("detect: mask margin %g px is negative", m.MarginPx)
+	if math.IsNaN(m.MarginPx) || math.IsInf(m.MarginPx, 0) {
+		return fmt.Errorf("detect: mask margin %g px", m.MarginPx)
 	}
 	return nil
 }
@@ -190,6 +195,13 @@ type Options struct {
 	Workers int
 	// Mask, when not nil, keeps only the detections inside it.
 	Mask *Mask
+	// Walls, when not empty, are the static profiles of the walls
+	// (walls.MeasureProfile on the median image, reaching at least
+	// WallReachPx from each line): next to each wall the frame minus its
+	// profile is band-passed and refined, so that the wall's edge and
+	// reflection line neither hide a tracer touching them nor pull its
+	// centre towards them.
+	Walls []*walls.Profile
 }
 
 // Defaults.
@@ -265,6 +277,9 @@ func (o Options) withDefaults() (Options, error) {
 	if o.Mask != nil {
 		if err := o.Mask.check(); err != nil {
 			return o, err
+		}
+		if o.Mask.MarginPx < -o.DiameterPx/2 {
+			return o, fmt.Errorf("detect: mask margin %g px is beyond half the tracer diameter (%g px) outside the walls", o.Mask.MarginPx, o.DiameterPx)
 		}
 	}
 	return o, nil

@@ -128,6 +128,11 @@ type Detector struct {
 	gx, gy  []float64
 	sgx     []float64
 	sgy     []float64
+
+	// bands are the rows next to the walls processed with the walls'
+	// profile subtracted, for frames of bandsW x bandsH.
+	bands          []wallBand
+	bandsW, bandsH int
 }
 
 type candidate struct {
@@ -199,6 +204,7 @@ func (d *Detector) Close() error {
 	for _, m := range []*gocv.Mat{&d.bgSmooth, &d.sm, &d.lo, &d.cand, &d.cand2} {
 		m.Close()
 	}
+	d.closeBands()
 	return nil
 }
 
@@ -313,6 +319,20 @@ func (d *Detector) Frame(img gocv.Mat, frame int, out []Detection) ([]Detection,
 		sign = -1
 	}
 	px := pixels{w: w, h: h, sign: sign, refF: d.bg, refOff: y0 * w}
+	if len(d.opt.Walls) > 0 && !hasBg {
+		if d.bandsW != w || d.bandsH != h {
+			if err := d.buildBands(w, h, y0, y1); err != nil {
+				return out, err
+			}
+		}
+		if err := d.applyWalls(img, y0, d.polarity == PolarityDark); err != nil {
+			return out, err
+		}
+		for i := range d.bands {
+			b := &d.bands[i]
+			px.bands = append(px.bands, bandRef{ia: b.ia, ib: b.ib, ref: b.refPx})
+		}
+	}
 	var err error
 	if t == gocv.MatTypeCV8U {
 		if px.u8, err = img.DataPtrUint8(); err == nil && !hasBg {
@@ -373,6 +393,25 @@ type pixels struct {
 	refOff int      // index in the frame of refU8[0] or refU16[0]
 	w, h   int
 	sign   float64
+	// bands replace ref on the rows next to the walls.
+	bands []bandRef
+}
+
+// bandRef is the reference of rows [ia, ib) of the frame, row-major.
+type bandRef struct {
+	ia, ib int
+	ref    []float32
+}
+
+// bandRow returns the reference row of frame row y in a wall band, or nil.
+func (p *pixels) bandRow(y int) []float32 {
+	for i := range p.bands {
+		b := &p.bands[i]
+		if y >= b.ia && y < b.ib {
+			return b.ref[(y-b.ia)*p.w : (y-b.ia+1)*p.w]
+		}
+	}
+	return nil
 }
 
 // at returns the residual at pixel index i.
@@ -382,6 +421,11 @@ func (p *pixels) at(i int) float64 {
 		v = float64(p.u8[i])
 	} else {
 		v = float64(p.u16[i])
+	}
+	if p.bands != nil {
+		if row := p.bandRow(i / p.w); row != nil {
+			return p.sign * (v - float64(row[i%p.w]))
+		}
 	}
 	switch {
 	case p.refF != nil:
@@ -397,12 +441,24 @@ func (p *pixels) at(i int) float64 {
 // window loads into dst, row by row, the frame on the (2R+1)^2 square
 // centred at (x0, y0), minus the background image when there is one, signed
 // by the polarity. Without a background image the raw frame is loaded: the
-// refinement subtracts the window's own border level.
-func (p *pixels) window(dst []float64, x0, y0, R int) {
+// refinement subtracts the window's own border level. With wall, the window
+// lies in a wall band and the frame minus the band's reference is loaded.
+func (p *pixels) window(dst []float64, x0, y0, R int, wall bool) {
 	n := 2*R + 1
 	for j := 0; j < n; j++ {
 		i0 := (y0-R+j)*p.w + x0 - R
 		row := dst[j*n : j*n+n]
+		if wall {
+			if ref := p.bandRow(y0 - R + j); ref != nil {
+				x := x0 - R
+				if p.u8 != nil {
+					loadRow(row, p.u8[i0:i0+n], ref[x:x+n], p.sign)
+				} else {
+					loadRow(row, p.u16[i0:i0+n], ref[x:x+n], p.sign)
+				}
+				continue
+			}
+		}
 		switch {
 		case p.u8 != nil && p.refF != nil:
 			loadRow(row, p.u8[i0:i0+n], p.refF[i0:i0+n], p.sign)
@@ -518,6 +574,11 @@ func (d *Detector) buildNoiseGrid(g *noiseGrid, w, h, step int) {
 			g.cell = append(g.cell, int32((y/step)*gw+x/step))
 		}
 	}
+}
+
+// float32Bytes returns the bytes of v.
+func float32Bytes(v []float32) []byte {
+	return unsafe.Slice((*byte)(unsafe.Pointer(&v[0])), 4*len(v))
 }
 
 func abs32(v float32) float32 {

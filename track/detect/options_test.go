@@ -22,7 +22,7 @@ func TestOptionsErrors(t *testing.T) {
 		{Options{DiameterPx: 5, Estimator: 7}, "unknown estimator 7"},
 		{Options{DiameterPx: 5, Workers: -2}, "-2 workers"},
 		{Options{DiameterPx: 5, Mask: &Mask{Stationary: line, Moving: [2][2]float64{{3, 3}, {3, 3}}}}, "two equal points"},
-		{Options{DiameterPx: 5, Mask: &Mask{Stationary: line, Moving: line, MarginPx: -1}}, "margin -1 px"},
+		{Options{DiameterPx: 5, Mask: &Mask{Stationary: line, Moving: line, MarginPx: -3}}, "margin -3 px"},
 	} {
 		_, err := NewDetector(tc.opt)
 		if err == nil || !strings.Contains(err.Error(), tc.want) {

@@ -13,7 +13,7 @@ func (d *Detector) refine(p *pixels, x0, y0 int) (Detection, bool) {
 	wr := d.wr
 	R := wr + windowSlack
 	n := 2*R + 1
-	p.window(d.win, x0, y0, R)
+	p.window(d.win, x0, y0, R, p.bands != nil && d.nearWall(x0, y0))
 	// The window's border, more than 4 sd from the candidate, holds no
 	// light of the spot: its median is the local background left.
 	// Every other border pixel is plenty for a median.

@@ -496,6 +496,7 @@ func (s *Scenario) TruthRows() []TruthRow {
 		row := TruthRow{Point: s.trackPoint(f, tS, t), InFocus: t.InFocus,
 			DistStationaryPx: t.YUM / s.UMPerPx, DistMovingPx: (s.GapUM() - t.YUM) / s.UMPerPx,
 			DistEdgePx: min(t.XPx+0.5, w-0.5-t.XPx)}
+		row.Point.NearWall = min(row.DistStationaryPx, row.DistMovingPx) < tracks.NearWallRadii*s.DiameterPx/2
 		switch t.Stuck {
 		case WallStationary:
 			row.Stuck = 1

@@ -10,6 +10,7 @@ import (
 	"fmt"
 	"io"
 	"runtime"
+	"slices"
 	"strconv"
 	"strings"
 )
@@ -26,10 +27,23 @@ type Point struct {
 	XUM, YUM   float64 // gap position, um
 	Brightness float64 // integrated, background-subtracted grey levels
 	SizePx     float64 // radius of gyration, px
+	// NearWall marks a centre closer to a wall line than half a tracer
+	// radius (NearWallRadii): the tracer overlaps the wall's edge and
+	// reflection line, which the detector subtracts, so its position is
+	// less certain than in the bulk.
+	NearWall bool
 }
 
-// Header is the column list of tracks.csv.
+// NearWallRadii is the distance from a wall line, in tracer radii, within
+// which a detection is flagged NearWall.
+const NearWallRadii = 0.5
+
+// Header is the contract's column list of tracks.csv.
 var Header = []string{"track", "frame", "t_s", "x_px", "y_px", "x_um", "y_um", "brightness", "size_px"}
+
+// Extra is the list of columns tracks.csv holds after Header: near_wall,
+// 1 for a NearWall detection, else 0.
+var Extra = []string{"near_wall"}
 
 // csvChunk is how many rows one goroutine formats at a time: large enough
 // that the hand-over costs nothing, small enough to keep both cores busy on
@@ -41,7 +55,7 @@ const csvChunk = 1 << 14
 // the rows are plain comma-joined fields.
 func WriteCSV(w io.Writer, pts []Point) error {
 	bw := bufio.NewWriterSize(w, 1<<16)
-	bw.WriteString(strings.Join(Header, ",") + "\n")
+	bw.WriteString(strings.Join(append(slices.Clip(Header), Extra...), ",") + "\n")
 	n := (len(pts) + csvChunk - 1) / csvChunk
 	bufs := make([]chan []byte, n)
 	for i := range bufs {
@@ -85,13 +99,18 @@ func appendRows(b []byte, pts []Point) []byte {
 			b = append(b, ',')
 			b = strconv.AppendFloat(b, f.v, 'f', f.prec, 64)
 		}
-		b = append(b, '\n')
+		if p.NearWall {
+			b = append(b, ",1\n"...)
+		} else {
+			b = append(b, ",0\n"...)
+		}
 	}
 	return b
 }
 
 // ReadCSV reads tracks.csv. Columns are found by name, so extra columns are
-// allowed; every column of Header must be present.
+// allowed; every column of Header must be present, near_wall may be
+// missing (then every NearWall is false).
 func ReadCSV(r io.Reader) ([]Point, error) {
 	cr := csv.NewReader(bufio.NewReader(r))
 	cr.ReuseRecord = true
@@ -111,6 +130,7 @@ func ReadCSV(r io.Reader) ([]Point, error) {
 			return nil, fmt.Errorf("tracks.csv: no column %q in header %v", name, head)
 		}
 	}
+	nearCol := slices.Index(head, Extra[0])
 	var pts []Point
 	for line := 2; ; line++ {
 		rec, err := cr.Read()
@@ -127,8 +147,18 @@ func ReadCSV(r io.Reader) ([]Point, error) {
 				return nil, fmt.Errorf("tracks.csv line %d: column %s: %q is not a number", line, Header[i], rec[c])
 			}
 		}
-		pts = append(pts, Point{Track: int(v[0]), Frame: int(v[1]), TS: v[2], XPx: v[3], YPx: v[4],
-			XUM: v[5], YUM: v[6], Brightness: v[7], SizePx: v[8]})
+		p := Point{Track: int(v[0]), Frame: int(v[1]), TS: v[2], XPx: v[3], YPx: v[4],
+			XUM: v[5], YUM: v[6], Brightness: v[7], SizePx: v[8]}
+		if nearCol >= 0 {
+			switch rec[nearCol] {
+			case "0":
+			case "1":
+				p.NearWall = true
+			default:
+				return nil, fmt.Errorf("tracks.csv line %d: column %s: %q is not 0 or 1", line, Extra[0], rec[nearCol])
+			}
+		}
+		pts = append(pts, p)
 	}
 	return pts, nil
 }

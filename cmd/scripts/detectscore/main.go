@@ -1,0 +1,297 @@
+// Command detectscore scores the track stage against the known truth of
+// track/synth's built-in scenarios: it writes each scenario in its own
+// output format (MJPEG, H.264, FFV1), runs the track stage of
+// profile/pipeline on it exactly as `gaptrace track` does, matches every
+// detection to the true tracers of its frame, and prints one line per
+// scenario:
+//
+//	recall      tracers of peak SNR >= 5 whose centre is in the gap and the image
+//	wall        the same within 5 px of a wall line
+//	edge        the same within 8 px of the image's left or right edge
+//	oof         the same, out of focus
+//	crowd       the same with another tracer closer than a diameter and a half
+//	precision   detections that lie on a true tracer (any SNR), over all
+//	rms         per-axis RMS error of in-focus tracers of SNR >= 10, px
+//	wallbias    mean shift towards the nearer wall of the wall layer's centres, px
+//	track/true  median track length over the median true passage, frames
+//
+// It is a measuring tool for issue 14 (the numbers of its report), not a
+// test: the acceptance tests render small videos in track/detect.
+//
+// Usage: go run ./cmd/scripts/detectscore [-seed N] [-frames N] [-dir DIR] [SCENARIO ...]
+package main
+
+import (
+	"context"
+	"flag"
+	"fmt"
+	"math"
+	"os"
+	"path/filepath"
+	"slices"
+	"strings"
+
+	"gaptrace/profile/pipeline"
+	"gaptrace/track/synth"
+	"gaptrace/track/tracks"
+)
+
+const (
+	// matchPx is how far a detection may be from a true centre to count as
+	// that tracer: half the diameter of a 5 px tracer, well beyond the
+	// localization error and below the separation of distinct spots.
+	matchPx = 2.5
+	// minSNR, hiSNR: the issue's recall and accuracy classes.
+	minSNR = 5
+	hiSNR  = 10
+	// wallLayerPx and edgeLayerPx are the issue's near-wall and edge layers.
+	wallLayerPx = 5
+	edgeLayerPx = 8
+	// crowdDiameters: a tracer with a neighbour closer than this many
+	// diameters has overlapping spots.
+	crowdDiameters = 1.5
+)
+
+var defaultScenarios = []string{"homogeneous", "near-wall", "textured", "faint", "dust", "colour-hard", "blur"}
+
+func main() {
+	seed := flag.Int64("seed", 7, "scenario seed")
+	nFrames := flag.Int("frames", 0, "frames per scenario (0: the scenario's own)")
+	dir := flag.String("dir", "", "folder for the renders (kept; default a temporary one, removed)")
+	flag.Parse()
+	names := flag.Args()
+	if len(names) == 0 {
+		names = defaultScenarios
+	}
+	base := *dir
+	if base == "" {
+		d, err := os.MkdirTemp("", "detectscore")
+		if err != nil {
+			fail(err)
+		}
+		defer os.RemoveAll(d)
+		base = d
+	}
+	fmt.Printf("%-12s %7s %7s %7s %7s %7s %7s %7s %8s %7s %8s\n", "scenario", "recall", "wall", "edge", "oof", "crowd", "prec", "rms_px", "wbias_px", "dets", "trk/true")
+	for _, n := range names {
+		if err := score(filepath.Join(base, n), n, *seed, *nFrames); err != nil {
+			fail(fmt.Errorf("%s: %w", n, err))
+		}
+	}
+}
+
+// debug prints the wall layer's recall by distance (DETECTSCORE_DEBUG=1).
+var debug = os.Getenv("DETECTSCORE_DEBUG") != ""
+
+func fail(err error) {
+	fmt.Fprintln(os.Stderr, "detectscore:", err)
+	os.Exit(1)
+}
+
+type frac struct{ hit, n int }
+
+func (f *frac) add(hit bool) {
+	f.n++
+	if hit {
+		f.hit++
+	}
+}
+
+func (f frac) String() string {
+	if f.n == 0 {
+		return "-"
+	}
+	return fmt.Sprintf("%.3f", float64(f.hit)/float64(f.n))
+}
+
+func score(dir, name string, seed int64, nFrames int) error {
+	s, err := synth.Builtin(name, seed)
+	if err != nil {
+		return err
+	}
+	if nFrames > 0 {
+		s.Frames = nFrames
+	}
+	out, err := synth.BuiltinOutput(name)
+	if err != nil {
+		return err
+	}
+	truth, err := s.Write(dir, out)
+	if err != nil {
+		return err
+	}
+	ctx := context.Background()
+	rec, err := pipeline.Open(ctx, pipeline.Config{Experiment: s.Experiment(), ExperimentDir: dir, Input: truth.Summary.Input.Path})
+	if err != nil {
+		return err
+	}
+	tr, err := rec.Track(ctx)
+	rec.Close()
+	if err != nil {
+		return err
+	}
+	rows := s.TruthRows()
+	byFrame := map[int][]int{}
+	passage := map[int]int{}
+	for i, r := range rows {
+		byFrame[r.Point.Frame] = append(byFrame[r.Point.Frame], i)
+		passage[r.Point.Track]++
+	}
+	dets := map[int][]int{}
+	trackLen := map[int]int{}
+	for i, p := range tr.Points {
+		dets[p.Frame] = append(dets[p.Frame], i)
+		if p.Track != tracks.Unlinked {
+			trackLen[p.Track]++
+		}
+	}
+	cal := s.Calibration() // the true walls
+	var all, wall, edge, oof, crowd, prec frac
+	var wallBins [20]frac
+	var falseAt [12]int // false detections by px from the nearer wall, from -1
+	var se, bias float64
+	var nse, nbias int
+	diam := s.DiameterPx
+	for f, ti := range byFrame {
+		di := dets[f]
+		used := make([]bool, len(di))
+		// Greedy one-to-one matching, nearest pairs first.
+		type pair struct {
+			d    float64
+			t, k int
+		}
+		var pairs []pair
+		for _, t := range ti {
+			for k, j := range di {
+				p := tr.Points[j]
+				if d := math.Hypot(p.XPx-rows[t].Point.XPx, p.YPx-rows[t].Point.YPx); d < matchPx {
+					pairs = append(pairs, pair{d, t, k})
+				}
+			}
+		}
+		slices.SortFunc(pairs, func(a, b pair) int {
+			if a.d < b.d {
+				return -1
+			}
+			if a.d > b.d {
+				return 1
+			}
+			return 0
+		})
+		match := map[int]int{}
+		for _, p := range pairs {
+			if _, ok := match[p.t]; ok || used[p.k] {
+				continue
+			}
+			match[p.t] = di[p.k]
+			used[p.k] = true
+		}
+		for k, u := range used {
+			prec.add(u)
+			if debug && !u {
+				p := tr.Points[di[k]]
+				_, y := cal.ToGap(p.XPx, p.YPx)
+				dpx := math.Min(y, cal.GapUM-y) / cal.UMPerPx
+				falseAt[min(len(falseAt)-1, max(0, int(dpx+1)))]++
+			}
+		}
+		for _, t := range ti {
+			r := rows[t]
+			if r.PeakSNR < minSNR || r.DistStationaryPx < 0 || r.DistMovingPx < 0 || r.DistEdgePx < 0 {
+				continue
+			}
+			j, hit := match[t]
+			all.add(hit)
+			dw := math.Min(r.DistStationaryPx, r.DistMovingPx)
+			if dw < wallLayerPx {
+				wall.add(hit)
+				if debug {
+					iso := true
+					for _, o := range ti {
+						if o != t && math.Hypot(rows[o].Point.XPx-r.Point.XPx, rows[o].Point.YPx-r.Point.YPx) < crowdDiameters*diam {
+							iso = false
+						}
+					}
+					k := int(dw)
+					if !iso {
+						k += 10
+					}
+					wallBins[k].add(hit)
+				}
+				if hit && r.InFocus {
+					// Distance of the detection from the same wall, along
+					// the gap coordinate of the true calibration.
+					_, yd := cal.ToGap(tr.Points[j].XPx, tr.Points[j].YPx)
+					_, yt := cal.ToGap(r.Point.XPx, r.Point.YPx)
+					toWall := (yt - yd) / cal.UMPerPx // positive: detection nearer the stationary wall
+					if r.DistMovingPx < r.DistStationaryPx {
+						toWall = -toWall
+					}
+					bias += toWall
+					nbias++
+				}
+			}
+			if r.DistEdgePx < edgeLayerPx {
+				edge.add(hit)
+			}
+			if !r.InFocus {
+				oof.add(hit)
+			}
+			crowded := false
+			for _, o := range ti {
+				if o != t && math.Hypot(rows[o].Point.XPx-r.Point.XPx, rows[o].Point.YPx-r.Point.YPx) < crowdDiameters*diam {
+					crowded = true
+					break
+				}
+			}
+			if crowded {
+				crowd.add(hit)
+			}
+			if hit && r.InFocus && r.PeakSNR >= hiSNR {
+				p := tr.Points[j]
+				se += (p.XPx-r.Point.XPx)*(p.XPx-r.Point.XPx) + (p.YPx-r.Point.YPx)*(p.YPx-r.Point.YPx)
+				nse += 2
+			}
+		}
+	}
+	if debug {
+		fmt.Println("wall layer recall by px from the wall (isolated 0-4, crowded 10-14):")
+		for k := range wallBins {
+			if wallBins[k].n > 0 {
+				fmt.Printf("  %2d %s of %d\n", k, wallBins[k], wallBins[k].n)
+			}
+		}
+	}
+	if debug {
+		fmt.Println("false detections by px from the nearer wall (from -1 px):", falseAt)
+	}
+	rms := math.NaN()
+	if nse > 0 {
+		rms = math.Sqrt(se / float64(nse))
+	}
+	wb := math.NaN()
+	if nbias > 0 {
+		wb = bias / float64(nbias)
+	}
+	fmt.Printf("%-12s %7s %7s %7s %7s %7s %7s %7.3f %8.3f %7d %8.3f\n", name, all, wall, edge, oof, crowd, prec, rms, wb,
+		len(tr.Points), median(trackLen)/median(passage))
+	if len(tr.Warnings) > 0 {
+		fmt.Printf("%-12s warnings: %s\n", "", strings.Join(tr.Warnings, "; "))
+	}
+	return nil
+}
+
+func median(m map[int]int) float64 {
+	v := make([]float64, 0, len(m))
+	for _, n := range m {
+		v = append(v, float64(n))
+	}
+	if len(v) == 0 {
+		return math.NaN()
+	}
+	slices.Sort(v)
+	if len(v)%2 == 1 {
+		return v[len(v)/2]
+	}
+	return (v[len(v)/2-1] + v[len(v)/2]) / 2
+}
