@@ -3,9 +3,10 @@ package target
 import (
 	"fmt"
 	"math"
-	"sort"
 
 	"gocv.io/x/gocv"
+
+	"gaptrace/calib/robust"
 )
 
 // Ruler is the result of a ruler calibration.
@@ -130,7 +131,7 @@ func profilePitch(prof []float64) (float64, float64, bool) {
 	if bestP == 0 {
 		return 0, 0, false
 	}
-	med := median(spec)
+	med := robust.Median(spec)
 	// Refine between the neighbouring bins by golden-section search.
 	a, b := (float64(bestK)-1)/float64(n), (float64(bestK)+1)/float64(n)
 	phi := (math.Sqrt(5) - 1) / 2
@@ -153,17 +154,4 @@ func profilePitch(prof []float64) (float64, float64, bool) {
 		contrast = math.Max(pc, pd) / med
 	}
 	return 1 / freq, contrast, true
-}
-
-func median(v []float64) float64 {
-	s := append([]float64(nil), v...)
-	sort.Float64s(s)
-	n := len(s)
-	if n == 0 {
-		return math.NaN()
-	}
-	if n%2 == 1 {
-		return s[n/2]
-	}
-	return (s[n/2-1] + s[n/2]) / 2
 }

@@ -4,6 +4,9 @@ import (
 	"fmt"
 	"math"
 	"sort"
+	"sync"
+
+	"gaptrace/calib/robust"
 )
 
 // Wall profile model. Across a wall, at signed distance u = y - y0 from the
@@ -312,8 +315,10 @@ func refineWalls(r *Result, profs []stripProfile, opt Options) error {
 	box := func(w *Wall) float64 { return math.Hypot(1, w.Slope*float64(opt.StripPx)) }
 	// The two walls' models are chosen independently, on both cores.
 	var mt, mb *wallModel
-	both(func() { mt = chooseModel(&r.Top, profs, box(&r.Top)) },
-		func() { mb = chooseModel(&r.Bottom, profs, box(&r.Bottom)) })
+	var wg sync.WaitGroup
+	wg.Go(func() { mb = chooseModel(&r.Bottom, profs, box(&r.Bottom)) })
+	mt = chooseModel(&r.Top, profs, box(&r.Top))
+	wg.Wait()
 	if mt.line && mb.line {
 		shareWidths(&r.Top, &r.Bottom, mt, mb, profs)
 	}
@@ -348,15 +353,20 @@ func shareWidths(top, bottom *Wall, mt, mb *wallModel, profs []stripProfile) {
 	sum := func(se, sl float64) float64 {
 		a.se, a.sl, b.se, b.sl = se, sl, se, sl
 		var ea, eb float64
-		both(func() { ea, _, _ = a.total(top, profs, refineStride) },
-			func() { eb, _, _ = b.total(bottom, profs, refineStride) })
+		var wg sync.WaitGroup
+		wg.Go(func() { eb, _, _ = b.total(bottom, profs, refineStride) })
+		ea, _, _ = a.total(top, profs, refineStride)
+		wg.Wait()
 		return ea + eb
 	}
 	bestSE, bestSL, bestSSE := mt.se, mt.sl, math.Inf(1)
 	for _, start := range [][2]float64{{mt.se, mt.sl}, {mb.se, mb.sl}} {
 		se, sl := start[0], start[1]
 		a.se, a.sl, b.se, b.sl = se, sl, se, sl
-		both(func() { a.setHints(top, profs) }, func() { b.setHints(bottom, profs) })
+		var wg sync.WaitGroup
+		wg.Go(func() { b.setHints(bottom, profs) })
+		a.setHints(top, profs)
+		wg.Wait()
 		for round := 0; round < sigmaRounds; round++ {
 			se = widthMin(se-sigmaStepPx, se+sigmaStepPx, func(v float64) float64 { return sum(v, sl) })
 			sl = widthMin(sl-sigmaStepPx, sl+sigmaStepPx, func(v float64) float64 { return sum(se, v) })
@@ -366,17 +376,6 @@ func shareWidths(top, bottom *Wall, mt, mb *wallModel, profs []stripProfile) {
 		}
 	}
 	mt.se, mt.sl, mb.se, mb.sl = bestSE, bestSL, bestSE, bestSL
-}
-
-// both runs f and g at the same time and returns when both are done.
-func both(f, g func()) {
-	done := make(chan struct{})
-	go func() {
-		defer close(done)
-		g()
-	}()
-	f()
-	<-done
 }
 
 // chooseModel picks the model's widths, and whether it has the reflection
@@ -461,7 +460,7 @@ func (m *wallModel) total(w *Wall, profs []stripProfile, step int) (sse, lineFra
 	for _, e := range es[:len(es)-int(trimFrac*float64(len(es)))] {
 		sse += e
 	}
-	return sse, median(fr), median(mis)
+	return sse, robust.Median(fr), robust.Median(mis)
 }
 
 // widthMin returns the minimiser of f on [lo, hi] (clamped to positive
@@ -586,7 +585,7 @@ func placeWall(w *Wall, m *wallModel, profs []stripProfile, opt Options) error {
 			kept = append(kept, bs[i])
 		}
 	}
-	w.ContrastLevels = median(kept)
+	w.ContrastLevels = robust.Median(kept)
 	return nil
 }
 
@@ -611,7 +610,7 @@ func robustLine(x, y []float64) (Line, float64, []float64) {
 		for i := range x {
 			res[i] = math.Abs(y[i] - l.YAt(x[i]))
 		}
-		sigma = math.Max(1.4826*median(res), minSigmaPx)
+		sigma = math.Max(robust.MADToSigma*robust.Median(res), minSigmaPx)
 		for i := range wt {
 			u := res[i] / (tukeyC * sigma)
 			if u < 1 {

@@ -32,6 +32,8 @@ import (
 	"sort"
 
 	"gocv.io/x/gocv"
+
+	"gaptrace/calib/robust"
 )
 
 // Line is a straight line in image pixels, y = Y0 + Slope*x.
@@ -520,7 +522,7 @@ func refine(cands []candidate, used []bool, l Line, sign float64) (fitted, []int
 			contr = append(contr, cands[k].contrast)
 		}
 	}
-	f.ContrastLevels = median(contr)
+	f.ContrastLevels = robust.Median(contr)
 	f.Strips = f.Inliers
 	return f, idx
 }
@@ -548,19 +550,6 @@ func weightedLine(x, y, w []float64) (Line, bool) {
 	}
 	b := sxy / sxx
 	return Line{Y0: my - b*mx, Slope: b}, true
-}
-
-func median(v []float64) float64 {
-	if len(v) == 0 {
-		return math.NaN()
-	}
-	s := append([]float64(nil), v...)
-	sort.Float64s(s)
-	n := len(s)
-	if n%2 == 1 {
-		return s[n/2]
-	}
-	return (s[n/2-1] + s[n/2]) / 2
 }
 
 // pickWalls groups the strong lines into walls (lines closer than the

@@ -16,6 +16,7 @@ import (
 	"slices"
 	"sort"
 
+	"gaptrace/calib/robust"
 	"gaptrace/profile/layers"
 	"gaptrace/profile/velocity"
 	"gaptrace/track/tracks"
@@ -317,7 +318,7 @@ func refPosition(pre []tracks.Point, stopS, sigmaUM float64) float64 {
 	for i, q := range pre {
 		res[i] = math.Abs(q.XUM - a - b*(q.TS-stopS))
 	}
-	lim := math.Max(refOutlierSigmas*sigmaUM, refOutlierSigmas*madToSigma*median(slices.Clone(res)))
+	lim := math.Max(refOutlierSigmas*sigmaUM, refOutlierSigmas*robust.MADToSigma*robust.Median(res))
 	if a2, _, ok := fit(func(q tracks.Point) bool { return math.Abs(q.XUM-a-b*(q.TS-stopS)) <= lim }); ok {
 		return a2
 	}
@@ -424,16 +425,9 @@ func restFloor(ts []velocity.Track, o Options) (float64, bool) {
 	if len(d) < minRestSamples {
 		return 0, false
 	}
-	m := median(d)
-	for i := range d {
-		d[i] = math.Abs(d[i] - m)
-	}
-	return madToSigma * median(d), true
+	_, mad := robust.MAD(d)
+	return robust.MADToSigma * mad, true
 }
-
-// madToSigma converts a median absolute deviation into a normal standard
-// deviation (Huber 1981, Robust Statistics).
-const madToSigma = 1.4826
 
 // LogTimes returns n times after the stop, log-spaced from one frame dtS to
 // observedS and rounded to whole frames, without repeats.
@@ -502,7 +496,7 @@ func (r *Result) final(placed []placedTracer, o Options) {
 		}
 		if len(d) > 0 {
 			// The median, so that a mislinked frame does not move it.
-			r.Final = append(r.Final, TracerDisplacement{Track: p.id, YUM: p.yUM, DXUM: median(d)})
+			r.Final = append(r.Final, TracerDisplacement{Track: p.id, YUM: p.yUM, DXUM: robust.Median(d)})
 		}
 	}
 }
@@ -566,7 +560,7 @@ func fitPicture(fin []TracerDisplacement, gapUM, floorUM float64) (Picture, erro
 		for i, p := range pts {
 			res[i] = math.Abs(p.DXUM - best.at(p.YUM, jumpAt, pts))
 		}
-		s := madToSigma * median(slices.Clone(res))
+		s := robust.MADToSigma * robust.Median(res)
 		if !(s > 0) {
 			break
 		}
@@ -785,7 +779,7 @@ func (r *Result) amplitude(placed []placedTracer, o Options) {
 			for _, x := range b {
 				res = append(res, math.Abs(x.dx-a*x.s))
 			}
-			c := huberK * math.Max(r.NoiseFloorUM, madToSigma*median(res))
+			c := huberK * math.Max(r.NoiseFloorUM, robust.MADToSigma*robust.Median(res))
 			if !(c > 0) {
 				break
 			}
@@ -819,18 +813,6 @@ func (r *Result) amplitude(placed []placedTracer, o Options) {
 	if r.Moving && math.IsNaN(r.OnsetAfterStopS) && len(r.Amplitude) > 0 {
 		r.OnsetAfterStopS = r.Amplitude[0].TAfterS
 	}
-}
-
-func median(v []float64) float64 {
-	if len(v) == 0 {
-		return math.NaN()
-	}
-	slices.Sort(v)
-	n := len(v)
-	if n%2 == 1 {
-		return v[n/2]
-	}
-	return (v[n/2-1] + v[n/2]) / 2
 }
 
 // AmplitudeAt returns the amplitude of the final picture at tAfterS: the

@@ -11,6 +11,8 @@ import (
 	"math"
 	"math/rand/v2"
 	"slices"
+
+	"gaptrace/calib/robust"
 )
 
 // Obs is one measurement: Group is the track it comes from, YUM its height
@@ -165,7 +167,7 @@ func (e *estimator) bin(obs []Obs, o Options, rng *rand.Rand) Bin {
 	for i := range e.wts {
 		e.wts[i] = 1
 	}
-	scale := madToSigma * e.weightedMAD()
+	scale := robust.MADToSigma * e.weightedMAD()
 	b.Value = e.huber(scale, e.weightedMedian(e.vals))
 	// Fast bootstrap of the M-estimate (Salibian-Barrera & Zamar 2002,
 	// Ann. Statist. 30:556; from memory): each replicate takes one Newton step from the
@@ -234,10 +236,6 @@ func dofFactor(ng int, trend bool) float64 {
 	}
 	return float64(ng) / float64(ng-lost)
 }
-
-// madToSigma converts a median absolute deviation into the standard
-// deviation of a normal distribution (Huber 1981, Robust Statistics).
-const madToSigma = 1.4826
 
 // weightedMAD returns the median absolute deviation of vals from their
 // median, both weighted by wts.

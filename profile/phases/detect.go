@@ -5,6 +5,8 @@ import (
 	"fmt"
 	"math"
 	"sort"
+
+	"gaptrace/calib/robust"
 )
 
 // Detection settings.
@@ -85,12 +87,12 @@ func Detect(signal []float64, fps float64) (*Detected, error) {
 			rest = append(rest, v)
 		}
 	}
-	lo := median(rest)
+	lo := robust.Median(rest)
 	dev := make([]float64, len(rest))
 	for i, v := range rest {
 		dev[i] = math.Abs(v - lo)
 	}
-	d := &Detected{NoisePxPerFrame: 1.4826 * median(dev), Phases: []Phase{}}
+	d := &Detected{NoisePxPerFrame: robust.MADToSigma * robust.Median(dev), Phases: []Phase{}}
 	if len(rest) == 0 {
 		lo, d.NoisePxPerFrame = 0, 0
 	}
@@ -168,7 +170,7 @@ func timeRun(cum, signal []float64, first, last int, fps float64) Segment {
 	for i := first; i <= last; i++ {
 		in = append(in, signal[i])
 	}
-	seg := Segment{PxPerFrame: median(in)}
+	seg := Segment{PxPerFrame: robust.Median(in)}
 	// Still levels: the mean cumulative displacement over up to fitFrames
 	// frames before the run and after it. Frame first-1 may already have
 	// moved by up to half a frame's travel, frame last+1 not any more.
@@ -220,17 +222,4 @@ func meanRange(y []float64, a, b int) float64 {
 		s += y[i]
 	}
 	return s / float64(b-a+1)
-}
-
-func median(v []float64) float64 {
-	if len(v) == 0 {
-		return 0
-	}
-	s := append([]float64(nil), v...)
-	sort.Float64s(s)
-	k := len(s)
-	if k%2 == 1 {
-		return s[k/2]
-	}
-	return (s[k/2-1] + s[k/2]) / 2
 }

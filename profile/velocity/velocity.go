@@ -15,6 +15,7 @@ import (
 	"slices"
 	"sort"
 
+	"gaptrace/calib/robust"
 	"gaptrace/track/tracks"
 )
 
@@ -67,7 +68,7 @@ func FrameIntervalS(ts []Track) (float64, error) {
 	if len(d) == 0 {
 		return 0, errors.New("velocity: no track holds two consecutive frames, so the frame interval is unknown")
 	}
-	dt := median(d)
+	dt := robust.Median(d)
 	if !(dt > 0) {
 		return 0, fmt.Errorf("velocity: frame interval %g s is not positive (t_s does not grow with frame)", dt)
 	}
@@ -76,11 +77,6 @@ func FrameIntervalS(ts []Track) (float64, error) {
 
 // maxIntervalPairs is enough frame pairs for a median frame interval.
 const maxIntervalPairs = 10000
-
-// madToSigma converts a median absolute deviation into the standard
-// deviation of a normal distribution (1/0.6745; Huber 1981, Robust
-// Statistics).
-const madToSigma = 1.4826
 
 // NoiseUM estimates the localization noise, the standard deviation of one
 // coordinate of one detection in um, from second differences of positions
@@ -112,7 +108,8 @@ func NoiseUM(ts []Track) (float64, error) {
 		}
 		d2 = d2[:n]
 	}
-	return madToSigma * mad(d2) / math.Sqrt(6), nil
+	_, mad := robust.MAD(d2)
+	return robust.MADToSigma * mad / math.Sqrt(6), nil
 }
 
 // maxNoiseSamples second differences are enough for the noise's scale.
@@ -282,25 +279,6 @@ func Samples(ts []Track, rule LagRule, sigmaUM, dtS, t0S, t1S float64) []Sample 
 	return out
 }
 
-func median(v []float64) float64 {
-	c := slices.Clone(v)
-	slices.Sort(c)
-	n := len(c)
-	if n%2 == 1 {
-		return c[n/2]
-	}
-	return (c[n/2-1] + c[n/2]) / 2
-}
-
-func mad(v []float64) float64 {
-	m := median(v)
-	d := make([]float64, len(v))
-	for i, x := range v {
-		d[i] = math.Abs(x - m)
-	}
-	return median(d)
-}
-
 // JumpSigmas is how many standard deviations of the noise of a
 // frame-to-frame step a step may stray from its track's typical step before
 // the track is cut there: a larger stray is a mislink or a tracer that
@@ -333,7 +311,7 @@ func Split(ts []Track, sigmaUM, maxChangeUM, untilS float64) []Track {
 			sx = append(sx, (p[i].XUM-p[i-1].XUM)/df)
 			sy = append(sy, (p[i].YUM-p[i-1].YUM)/df)
 		}
-		mx, my := median(sx), median(sy)
+		mx, my := robust.Median(sx), robust.Median(sy)
 		lim := maxChangeUM + JumpSigmas*math.Sqrt2*sigmaUM
 		id, from := t.ID, 0
 		for i := 1; i < len(p); i++ {
@@ -368,7 +346,7 @@ func FastestStepUM(ts []Track) float64 {
 			df := float64(p[i].Frame - p[i-1].Frame)
 			d = append(d, math.Hypot(p[i].XUM-p[i-1].XUM, p[i].YUM-p[i-1].YUM)/df)
 		}
-		best = math.Max(best, median(d))
+		best = math.Max(best, robust.Median(d))
 	}
 	return best
 }

@@ -3,7 +3,7 @@ package detect
 import (
 	"encoding/binary"
 	"fmt"
-	"gaptrace/track/internal/order"
+	"gaptrace/calib/robust"
 	"image"
 	"math"
 	"slices"
@@ -38,8 +38,6 @@ const (
 	// samples has a relative sd of about 1.36/sqrt(n), 1% and 2% here.
 	noiseSamples      = 16384
 	crudeNoiseSamples = 4096
-	// madToSigma converts a median absolute deviation into a Gaussian sd.
-	madToSigma = 1.4826
 	// minNoiseSamples is the fewest samples the noise is estimated from.
 	minNoiseSamples = 100
 	// clipSigmas is where the first noise estimate clips the samples, and
@@ -530,15 +528,15 @@ func (d *Detector) noise(p *pixels, excludeCandidates bool) float64 {
 	if len(d.samples) < minNoiseSamples {
 		return 0
 	}
-	med := order.SelectKth(d.samples, len(d.samples)/2)
+	med := robust.SelectKth(d.samples, len(d.samples)/2)
 	for i, v := range d.samples {
 		d.samples[i] = abs32(v - med)
 	}
-	mad := float64(order.SelectKth(d.samples, len(d.samples)/2))
+	mad := float64(robust.SelectKth(d.samples, len(d.samples)/2))
 	if excludeCandidates {
-		return madToSigma * mad / 2
+		return robust.MADToSigma * mad / 2
 	}
-	lim := float32(clipSigmas * madToSigma * mad)
+	lim := float32(clipSigmas * robust.MADToSigma * mad)
 	kept := d.samples[:0]
 	for _, v := range d.samples {
 		if v < lim {
@@ -546,9 +544,9 @@ func (d *Detector) noise(p *pixels, excludeCandidates bool) float64 {
 		}
 	}
 	if len(kept) < minNoiseSamples {
-		return madToSigma * mad / 2
+		return robust.MADToSigma * mad / 2
 	}
-	return float64(order.SelectKth(kept, len(kept)/2)) / clippedMAD / 2
+	return float64(robust.SelectKth(kept, len(kept)/2)) / clippedMAD / 2
 }
 
 // noiseGrid is the sampling pattern of noise for one frame size: the pixel

@@ -3,7 +3,7 @@ package detect
 import (
 	"math"
 
-	"gaptrace/track/internal/order"
+	"gaptrace/calib/robust"
 )
 
 // refine locates, sizes and weighs the spot whose integer maximum is
@@ -271,10 +271,10 @@ func maskVar(sigma float64) float64 {
 // medianOfFew returns the k-th smallest of the few values of v (the
 // window's border ring), reordering v: an insertion sort, which beats
 // selection on a couple of dozen values; longer slices go to
-// order.SelectKth.
+// robust.SelectKth.
 func medianOfFew(v []float64, k int) float64 {
 	if len(v) > fewValues {
-		return order.SelectKth(v, k)
+		return robust.SelectKth(v, k)
 	}
 	for i := 1; i < len(v); i++ {
 		x, j := v[i], i

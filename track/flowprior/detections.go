@@ -9,6 +9,7 @@ import (
 	"sync"
 
 	"gaptrace/calib"
+	"gaptrace/calib/robust"
 	"gaptrace/track/tracks"
 )
 
@@ -202,7 +203,7 @@ func histPeak(h []float64, half int, resPx float64) (alongPx float64, n int, ok 
 			rest = append(rest, c)
 		}
 	}
-	bg := median(rest)
+	bg := robust.Median(rest)
 	if math.IsNaN(bg) {
 		bg = 0
 	}
@@ -338,7 +339,7 @@ func profileFromSteps(ss []step, cal *calib.Calibration, opt TrackOptions, npts 
 			continue
 		}
 		u, s := medianSpread(along[b])
-		v := median(across[b])
+		v := robust.Median(across[b])
 		p.DXPx[b], p.DYPx[b] = u*fx+v*ax, u*fy+v*ay
 		p.SpreadPx[b] = s
 		p.N[b] = len(along[b])
@@ -534,10 +535,12 @@ func commonMode(pts []tracks.Point, cal *calib.Calibration, frames int, clock []
 	ay := newAxis(func(o obs) float64 { return o.y })
 	jx, jy := ax.j, ay.j
 	rms := make([]float64, nPieces)
-	tmp := make([]float64, 0, nPieces)
 	bad := make([]bool, nPieces)
 	for round := 0; round < commonRounds; round++ {
-		bothAxes(ax.fitLines, ay.fitLines)
+		var wg sync.WaitGroup
+		wg.Go(ay.fitLines)
+		ax.fitLines()
+		wg.Wait()
 		if round > 0 {
 			// Leave out the pieces that do not move uniformly.
 			clear(rms)
@@ -550,13 +553,15 @@ func commonMode(pts []tracks.Point, cal *calib.Calibration, frames int, clock []
 			for k := range rms {
 				rms[k] = math.Sqrt(rms[k] / math.Max(n[k], 1))
 			}
-			lim := pieceReject * median(append(tmp[:0], rms...))
+			lim := pieceReject * robust.Median(rms)
 			for k := range bad {
 				bad[k] = rms[k] > lim
 			}
 		}
 		var cx, cy float64
-		bothAxes(func() { cx = ax.offsets(bad) }, func() { cy = ay.offsets(bad) })
+		wg.Go(func() { cy = ay.offsets(bad) })
+		cx = ax.offsets(bad)
+		wg.Wait()
 		if round > 0 && math.Max(cx, cy) < commonSettledPx {
 			break
 		}
@@ -649,7 +654,7 @@ func (c *cmAxis) offsets(bad []bool) float64 {
 	}
 	for f := range c.j {
 		if len(c.r[f]) >= minCommonPoints {
-			c.j[f] = median(c.r[f])
+			c.j[f] = robust.Median(c.r[f])
 		} else {
 			c.j[f] = math.NaN()
 		}
@@ -662,17 +667,6 @@ func (c *cmAxis) offsets(bad []bool) float64 {
 	}
 	copy(c.prev, c.j)
 	return change
-}
-
-// bothAxes runs f and g at the same time and returns when both are done.
-func bothAxes(f, g func()) {
-	done := make(chan struct{})
-	go func() {
-		defer close(done)
-		g()
-	}()
-	f()
-	<-done
 }
 
 // fillGaps replaces NaN values by linear interpolation between the nearest
@@ -812,7 +806,7 @@ func QuickCommonMode(pts []tracks.Point, field Field, frames int) []Shift {
 			defer wg.Done()
 			for f := f0; f < min(f0+perCore, frames); f++ {
 				if lo, hi := start[f], start[f+1]; hi-lo >= minCommonPoints {
-					mx[f], my[f] = median(rx[lo:hi]), median(ry[lo:hi])
+					mx[f], my[f] = robust.Median(rx[lo:hi]), robust.Median(ry[lo:hi])
 				}
 			}
 		}()

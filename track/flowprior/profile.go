@@ -16,7 +16,7 @@ package flowprior
 
 import (
 	"fmt"
-	"gaptrace/track/internal/order"
+	"gaptrace/calib/robust"
 	"math"
 
 	"gaptrace/calib"
@@ -146,39 +146,12 @@ func binOf(yUM, gapUM float64, n int) int {
 	return i
 }
 
-// madScale turns a median absolute deviation into a standard deviation for
-// normally distributed values (Rousseeuw and Croux, 1993).
-const madScale = 1.4826
-
-// median returns the median of v, reordering v; NaN for no values. It
-// selects rather than sorts: linear time on average.
-func median(v []float64) float64 {
-	n := len(v)
-	if n == 0 {
-		return math.NaN()
-	}
-	hi := order.SelectKth(v, n/2)
-	if n%2 == 1 {
-		return hi
-	}
-	// The lower middle value is the largest of those left of n/2.
-	lo := v[0]
-	for _, x := range v[1 : n/2] {
-		lo = math.Max(lo, x)
-	}
-	return (lo + hi) / 2
-}
-
-// medianSpread returns the median of v and 1.4826 times its median absolute
-// deviation, reordering v.
+// medianSpread returns the median of v and robust.MADToSigma times its
+// median absolute deviation; the spread is NaN for fewer than two values.
 func medianSpread(v []float64) (med, spread float64) {
-	med = median(v)
+	med, mad := robust.MAD(v)
 	if len(v) < 2 {
 		return med, math.NaN()
 	}
-	dev := make([]float64, len(v))
-	for i, x := range v {
-		dev[i] = math.Abs(x - med)
-	}
-	return med, madScale * median(dev)
+	return med, robust.MADToSigma * mad
 }

@@ -10,6 +10,7 @@ import (
 	"gocv.io/x/gocv"
 
 	"gaptrace/calib"
+	"gaptrace/calib/robust"
 )
 
 // StripOptions sets how a StripEstimator cuts the gap into strips.
@@ -282,7 +283,7 @@ func polish(m [][]float64, ns int) (u, j []float64) {
 					buf = append(buf, v-j[q])
 				}
 			}
-			u[s] = median(buf)
+			u[s] = robust.Median(buf)
 		}
 		for q := 0; q < np; q++ {
 			buf = buf[:0]
@@ -295,10 +296,10 @@ func polish(m [][]float64, ns int) (u, j []float64) {
 				j[q] = 0
 				continue
 			}
-			j[q] = median(buf)
+			j[q] = robust.Median(buf)
 		}
 		buf = append(buf[:0], j...)
-		if mj := median(buf); !math.IsNaN(mj) {
+		if mj := robust.Median(buf); !math.IsNaN(mj) {
 			for q := range j {
 				j[q] -= mj
 			}

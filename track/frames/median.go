@@ -2,7 +2,7 @@ package frames
 
 import (
 	"fmt"
-	"gaptrace/track/internal/order"
+	"gaptrace/calib/robust"
 	"runtime"
 	"sync"
 
@@ -81,7 +81,7 @@ func medianOfStack[T uint8 | uint16](stack [][]T, info Info) gocv.Mat {
 func medianOf[T uint8 | uint16](v []T) float32 {
 	n := len(v)
 	h := n / 2
-	hi := float32(order.SelectKth(v, h))
+	hi := float32(robust.SelectKth(v, h))
 	if n%2 == 1 {
 		return hi
 	}

@@ -1,5 +1,7 @@
 package link
 
+import "slices"
+
 import "math"
 
 // assigner solves dense rectangular assignment problems by the Hungarian
@@ -18,11 +20,11 @@ type assigner struct {
 // for each row, its column.
 func (a *assigner) solve(cost []float64, n, m int) []int {
 	// 1-based arrays with a virtual column 0, as in the classic formulation.
-	a.u = growF(a.u, n+1)
-	a.v = growF(a.v, m+1)
-	a.minv = growF(a.minv, m+1)
-	a.p = growI(a.p, m+1)
-	a.way = growI(a.way, m+1)
+	a.u = slices.Grow(a.u[:0], n+1)[:n+1]
+	a.v = slices.Grow(a.v[:0], m+1)[:m+1]
+	a.minv = slices.Grow(a.minv[:0], m+1)[:m+1]
+	a.p = slices.Grow(a.p[:0], m+1)[:m+1]
+	a.way = slices.Grow(a.way[:0], m+1)[:m+1]
 	if cap(a.used) < m+1 {
 		a.used = make([]bool, m+1)
 	}
@@ -73,25 +75,11 @@ func (a *assigner) solve(cost []float64, n, m int) []int {
 			j0 = j1
 		}
 	}
-	a.rowOf = growI(a.rowOf, n)
+	a.rowOf = slices.Grow(a.rowOf[:0], n)[:n]
 	for j := 1; j <= m; j++ {
 		if p[j] != 0 {
 			a.rowOf[p[j]-1] = j - 1
 		}
 	}
 	return a.rowOf
-}
-
-func growF(s []float64, n int) []float64 {
-	if cap(s) < n {
-		return make([]float64, n)
-	}
-	return s[:n]
-}
-
-func growI(s []int, n int) []int {
-	if cap(s) < n {
-		return make([]int, n)
-	}
-	return s[:n]
 }

@@ -26,6 +26,7 @@ import (
 	"fmt"
 	"gaptrace/track/internal/grid"
 	"math"
+	"slices"
 	"sort"
 
 	"gaptrace/calib"
@@ -481,13 +482,13 @@ func b2f(b bool) float64 {
 // tracks, marking them in dTaken.
 func (l *Linker) resolve() {
 	nt, nd := len(l.active), len(l.p)
-	l.dTaken = growB(l.dTaken, nd)
+	l.dTaken = slices.Grow(l.dTaken[:0], nd)[:nd]
 	clear(l.dTaken)
 	if len(l.edges) == 0 {
 		return
 	}
 	// Union-find over tracks (0..nt-1) and detections (nt..nt+nd-1).
-	l.parent = growI32(l.parent, nt+nd)
+	l.parent = slices.Grow(l.parent[:0], nt+nd)[:nt+nd]
 	for i := range l.parent {
 		l.parent[i] = int32(i)
 	}
@@ -505,7 +506,7 @@ func (l *Linker) resolve() {
 		}
 	}
 	// Order edges by component (counting sort on the root).
-	l.comp = growI32(l.comp, nt+nd+1)
+	l.comp = slices.Grow(l.comp[:0], nt+nd+1)[:nt+nd+1]
 	clear(l.comp)
 	for _, e := range l.edges {
 		l.comp[find(e.t)+1]++
@@ -513,7 +514,7 @@ func (l *Linker) resolve() {
 	for i := 1; i < len(l.comp); i++ {
 		l.comp[i] += l.comp[i-1]
 	}
-	l.order = growI32(l.order, len(l.edges))
+	l.order = slices.Grow(l.order[:0], len(l.edges))[:len(l.edges)]
 	l.cursor = append(l.cursor[:0], l.comp...)
 	cursor := l.cursor
 	for i, e := range l.edges {
@@ -559,7 +560,7 @@ func (l *Linker) solve(es []int32) {
 	if !rowsAreTracks {
 		n, m = m, n
 	}
-	l.cost = growF(l.cost, n*m)
+	l.cost = slices.Grow(l.cost[:0], n*m)[:n*m]
 	clear(l.cost)
 	for _, ei := range es {
 		e := l.edges[ei]
@@ -646,18 +647,4 @@ func medianNN(p []pos, g *grid.Grid) float64 {
 	}
 	sort.Float64s(d)
 	return d[len(d)/2]
-}
-
-func growB(s []bool, n int) []bool {
-	if cap(s) < n {
-		return make([]bool, n)
-	}
-	return s[:n]
-}
-
-func growI32(s []int32, n int) []int32 {
-	if cap(s) < n {
-		return make([]int32, n)
-	}
-	return s[:n]
 }

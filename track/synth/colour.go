@@ -1,5 +1,7 @@
 package synth
 
+import "slices"
+
 // noiseStream is the random stream of a colour channel's noise; the blue
 // channel and the Bayer mosaic use the grey camera's.
 func noiseStream(c int) int {
@@ -54,7 +56,7 @@ func (r *Renderer) colourFrame(data []byte, frame int) error {
 	if bd == 16 {
 		n *= 2
 	}
-	r.plane = grow(r.plane, n)
+	r.plane = slices.Grow(r.plane[:0], n)[:n]
 	quantizeStrided(r.plane, r.scratch, bd, gain, 1, 0)
 	demosaic(data, r.plane, w, h, bd)
 	return nil

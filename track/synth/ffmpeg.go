@@ -7,6 +7,7 @@ import (
 	"os"
 	"os/exec"
 	"path/filepath"
+	"slices"
 	"strconv"
 	"strings"
 
@@ -162,7 +163,7 @@ func (r *Renderer) frameBytes(f int, m *gocv.Mat, buf []byte) ([]byte, []byte, e
 		return data, buf, nil
 	}
 	ch := m.Channels()
-	buf = grow(buf, len(data))
+	buf = slices.Grow(buf[:0], len(data))[:len(data)]
 	n := len(data) / ch
 	for i := range n {
 		copy(buf[(n-1-i)*ch:(n-i)*ch], data[i*ch:(i+1)*ch])
@@ -224,7 +225,7 @@ func (r *Renderer) encodeList(bin, tmp, path string, o Output) error {
 		var head string
 		if m.Channels() == 3 {
 			head = fmt.Sprintf("P6\n%d %d\n255\n", s.WidthPx, s.HeightPx)
-			rgb = grow(rgb, len(b))
+			rgb = slices.Grow(rgb[:0], len(b))[:len(b)]
 			for i := 0; i < len(b); i += 3 {
 				rgb[i], rgb[i+1], rgb[i+2] = b[i+2], b[i+1], b[i]
 			}

@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"math"
 	"math/rand/v2"
+	"slices"
 
 	"gocv.io/x/gocv"
 )
@@ -132,13 +133,13 @@ func toBytes(buf []byte, img []float64, w, h int, bitDepth int, gain float64) ([
 	}
 	switch bitDepth {
 	case 8:
-		buf = grow(buf, w*h)
+		buf = slices.Grow(buf[:0], w*h)[:w*h]
 		for i, v := range img {
 			buf[i] = uint8(quantize(gain*v, 255))
 		}
 		return buf, gocv.MatTypeCV8U, nil
 	case 16:
-		buf = grow(buf, 2*w*h)
+		buf = slices.Grow(buf[:0], 2*w*h)[:2*w*h]
 		for i, v := range img {
 			q := uint16(quantize(gain*v, 65535))
 			buf[2*i], buf[2*i+1] = byte(q), byte(q>>8) // little-endian, as on every gocv platform
@@ -158,13 +159,6 @@ func quantize(v, top float64) uint {
 		return uint(top)
 	}
 	return uint(v + 0.5)
-}
-
-func grow(b []byte, n int) []byte {
-	if cap(b) < n {
-		return make([]byte, n)
-	}
-	return b[:n]
 }
 
 func clamp(v, lo, hi float64) float64 {

@@ -1,7 +1,4 @@
-// Package order selects order statistics in place: the k-th smallest value
-// of a slice in linear time on average, for the medians of detection,
-// background estimation and the flow prior.
-package order
+package robust
 
 import (
 	"cmp"

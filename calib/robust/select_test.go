@@ -1,4 +1,4 @@
-package order
+package robust
 
 import (
 	"math/rand/v2"
