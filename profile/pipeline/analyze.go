@@ -27,6 +27,11 @@ func Analyze(ctx context.Context, cfg Config, t *Tracked) (*Analysis, error) {
 	if err := ctx.Err(); err != nil {
 		return nil, err
 	}
+	warn, err := checkRequest(cfg, t) // bounds.go
+	if err != nil {
+		return nil, err
+	}
+	t.Warnings = append(t.Warnings, warn...)
 	cfg.report(StageProfile, 0, 1)
 	opt := profile.Options{Bins: cfg.Bins, Windows: cfg.Windows, EveryS: cfg.EveryS, Seed: cfg.Seed, Phases: t.Phases, Log: cfg.Log}
 	if cfg.Log != nil {

@@ -279,10 +279,7 @@ func (t *Tracked) findPhases(cfg *Config, prog experiment.Program) {
 			t.Points[i].XUM = -t.Points[i].XUM
 		}
 	}
-	durS := float64(t.Info.Frames) / t.Info.FPS
-	if n := len(t.FrameTimesS); n > 0 {
-		durS = t.FrameTimesS[n-1] + float64(t.Info.Frames-n+1)/t.Info.FPS
-	}
+	durS := t.durationS()
 	use, warn := phases.Reconcile(cfg.programPhases(prog, durS), det.Phases, t.Info.FPS)
 	t.Warnings = append(t.Warnings, warn...)
 	if len(prog) == 0 {

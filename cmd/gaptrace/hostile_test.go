@@ -1,0 +1,73 @@
+package main
+
+import (
+	"bytes"
+	"os"
+	"path/filepath"
+	"strings"
+	"testing"
+	"time"
+)
+
+// TestHostileInputs feeds the profile command the odd inputs of issue 18
+// that reach it (an experiment file with values beyond physics, more layers
+// than the gap has pixels, a window outside the recording, a motion step
+// shorter than a frame) and checks exit status 2 with one line on stderr
+// naming the value, quickly and without summary.json. Before the bounds,
+// --bins 1000000 ran for minutes at 5 GB; fps 1e-6 and gap_um 1e15 were
+// accepted; gap_um 1e308 with um_per_px 1e-300 panicked in the flow prior.
+func TestHostileInputs(t *testing.T) {
+	dir := t.TempDir()
+	in, exp := writeProfileInput(t, dir, "homogeneous")
+	orig, err := os.ReadFile(exp)
+	if err != nil {
+		t.Fatal(err)
+	}
+	// edited writes the experiment file with old replaced by new.
+	edited := func(name, old, new string) string {
+		s := string(orig)
+		if !strings.Contains(s, old) {
+			t.Fatalf("%q is not in the experiment file:\n%s", old, s)
+		}
+		p := filepath.Join(dir, name+".yaml")
+		if err := os.WriteFile(p, []byte(strings.Replace(s, old, new, 1)), 0o644); err != nil {
+			t.Fatal(err)
+		}
+		return p
+	}
+	// quick: a refused input is refused before any work (the bound's
+	// point), well within this on a loaded 2-core machine.
+	const quick = 20 * time.Second
+	cases := []struct {
+		name string
+		args []string
+		want string
+	}{
+		{"fps 1e-6", []string{"-e", edited("fps", "fps: 100", "fps: 1e-6")}, "camera.fps"},
+		{"gap 1e15", []string{"-e", edited("gap", "gap_um: 800", "gap_um: 1e15")}, "gap_um"},
+		{"gap 1e308", []string{"-e", edited("huge", "gap_um: 800", "gap_um: 1e308")}, "gap_um"},
+		{"scale 1e-300", []string{"-e", edited("scale", "um_per_px: 2", "um_per_px: 1e-300")}, "um_per_px"},
+		{"rate 1e300", []string{"-e", edited("rate", "rate_per_s: 1", "rate_per_s: 1e300")}, "rate_per_s"},
+		{"step of 1 us", []string{"-e", edited("short", "end_s: 2", "end_s: 0.500001")}, "shorter than one frame"},
+		{"bins 1000000", []string{"-e", exp, "--bins", "1000000"}, "--bins 1000000"},
+		{"window outside", []string{"-e", exp, "--window", "100:200"}, "outside the recording"},
+		{"seq as file", []string{"-e", edited("seq", string(orig), "- 1\n- 2\n")}, "a list where a mapping"},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			out := filepath.Join(dir, "out-"+strings.ReplaceAll(c.name, " ", "-"))
+			var stderr bytes.Buffer
+			t0 := time.Now()
+			code := mainArgs(append(append([]string{"profile"}, c.args...), "-o", out, in), &stderr)
+			took := time.Since(t0)
+			t.Logf("exit %d in %v: %s", code, took.Round(time.Millisecond), strings.TrimSpace(stderr.String()))
+			checkBadInput(t, code, stderr.String(), c.want)
+			if took > quick {
+				t.Errorf("took %v to refuse", took)
+			}
+			if _, err := os.Stat(filepath.Join(out, "summary.json")); err == nil {
+				t.Error("summary.json written")
+			}
+		})
+	}
+}
