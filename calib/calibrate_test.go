@@ -17,6 +17,7 @@ import (
 	"gaptrace/calib/target"
 	"gaptrace/track/frames"
 	"gaptrace/track/synth"
+	"gaptrace/track/synth/acceptance"
 )
 
 func medianOf(t testing.TB, s *synth.Scenario, n int) gocv.Mat {
@@ -27,13 +28,6 @@ func medianOf(t testing.TB, s *synth.Scenario, n int) gocv.Mat {
 	}
 	return m
 }
-
-// Acceptance limits of issue 4 on rendered videos.
-const (
-	scaleTolFrac = 0.005 // um_per_px from the gap
-	lineTolPx    = 0.3   // wall lines, and so gap positions of the tracers
-	tiltTolDeg   = 0.05
-)
 
 // TestCalibrateOnSynth calibrates rendered videos (track/synth) with the
 // scale from the gap, across tilts, polarities, both moving sides and both
@@ -70,16 +64,16 @@ func TestCalibrateOnSynth(t *testing.T) {
 			}
 			d := cal.UMPerPx/s.UMPerPx - 1
 			worstScale = math.Max(worstScale, math.Abs(d))
-			if math.Abs(d) > scaleTolFrac {
+			if math.Abs(d) > acceptance.ScaleFromGapFrac {
 				t.Errorf("um_per_px %.5f, truth %g (%+.3f%%)", cal.UMPerPx, s.UMPerPx, 100*d)
 			}
-			if dd := cal.TiltDeg - c.tiltDeg; math.Abs(dd) > tiltTolDeg {
+			if dd := cal.TiltDeg - c.tiltDeg; math.Abs(dd) > acceptance.TiltDeg {
 				t.Errorf("tilt %.4f, want %g", cal.TiltDeg, c.tiltDeg)
 			}
 			truth := s.Calibration()
 			for k, pair := range [][2]calib.Line{{cal.StationaryWallPx, truth.StationaryWallPx}, {cal.MovingWallPx, truth.MovingWallPx}} {
 				for j := range 2 {
-					if dy := pair[0][j][1] - pair[1][j][1]; math.Abs(dy) > lineTolPx {
+					if dy := pair[0][j][1] - pair[1][j][1]; math.Abs(dy) > acceptance.WallLinePx {
 						t.Errorf("wall %d point %d: y off by %.3f px", k, j, dy)
 					}
 				}
@@ -91,16 +85,16 @@ func TestCalibrateOnSynth(t *testing.T) {
 				x, y := cal.ToGap(tr.XPx-jx, tr.YPx-jy)
 				dy := (y - tr.YUM) / s.UMPerPx
 				worstY = math.Max(worstY, math.Abs(dy))
-				if math.Abs(dy) > lineTolPx+scaleTolFrac*s.GapPx() {
+				if math.Abs(dy) > acceptance.WallLinePx+acceptance.ScaleFromGapFrac*s.GapPx() {
 					t.Fatalf("tracer %d at (%.1f, %.1f) px: y %.2f um, truth %.2f um", tr.ID, tr.XPx, tr.YPx, y, tr.YUM)
 				}
-				if dx := (x - tr.XUM) / s.UMPerPx; math.Abs(dx) > 1+scaleTolFrac*float64(s.WidthPx) {
+				if dx := (x - tr.XUM) / s.UMPerPx; math.Abs(dx) > 1+acceptance.ScaleFromGapFrac*float64(s.WidthPx) {
 					t.Fatalf("tracer %d: x %.2f um, truth %.2f um (flow sign %g)", tr.ID, x, tr.XUM, c.flow)
 				}
 			}
 		})
 	}
-	t.Logf("worst um_per_px error %.3f%% (limit %.1f%%), worst tracer height error %.3f px", 100*worstScale, 100*scaleTolFrac, worstY)
+	t.Logf("worst um_per_px error %.3f%% (limit %.1f%%), worst tracer height error %.3f px", 100*worstScale, 100*acceptance.ScaleFromGapFrac, worstY)
 }
 
 func TestCalibrateManualWalls(t *testing.T) {
@@ -224,7 +218,7 @@ func TestCalibrateWithCheckerboard(t *testing.T) {
 	if cal.ScaleSource != calib.ScaleTarget || cal.Distortion == nil {
 		t.Fatalf("scale source %q, distortion %v", cal.ScaleSource, cal.Distortion)
 	}
-	if d := cal.UMPerPx/2 - 1; math.Abs(d) > scaleTolFrac {
+	if d := cal.UMPerPx/2 - 1; math.Abs(d) > acceptance.ScaleFromGapFrac {
 		t.Errorf("um_per_px %.5f, want 2 (%+.3f%%)", cal.UMPerPx, 100*d)
 	}
 	// The video was rendered without distortion, so the walls now carry the
@@ -296,12 +290,12 @@ func TestCalibrateThroughLens(t *testing.T) {
 		for j := range 2 {
 			d := pair[0][j][1] - pair[1][j][1]
 			worst = math.Max(worst, math.Abs(d))
-			if math.Abs(d) > lineTolPx {
+			if math.Abs(d) > acceptance.WallLinePx {
 				t.Errorf("wall %d point %d: y off by %.3f px (undistorted)", k, j, d)
 			}
 		}
 	}
-	if d := cal.UMPerPx/s.UMPerPx - 1; math.Abs(d) > scaleTolFrac {
+	if d := cal.UMPerPx/s.UMPerPx - 1; math.Abs(d) > acceptance.ScaleFromGapFrac {
 		t.Errorf("um_per_px %.5f from the target, truth %g", cal.UMPerPx, s.UMPerPx)
 	}
 	// Tracers as the lens shows them map to their true heights.
@@ -313,7 +307,7 @@ func TestCalibrateThroughLens(t *testing.T) {
 		worstY = math.Max(worstY, math.Abs(y-tr.YUM)/s.UMPerPx)
 	}
 	// Heights are off by the wall error plus the scale's error across the gap.
-	heightTol := lineTolPx + math.Abs(cal.UMPerPx/s.UMPerPx-1)*s.GapPx()
+	heightTol := acceptance.WallLinePx + math.Abs(cal.UMPerPx/s.UMPerPx-1)*s.GapPx()
 	if worstY > heightTol {
 		t.Errorf("tracer heights off by up to %.3f px, want within %.3f", worstY, heightTol)
 	}
@@ -332,7 +326,7 @@ func TestCalibrateThroughLens(t *testing.T) {
 		_, y := plain.ToGap(dx, dy)
 		worstPlain = math.Max(worstPlain, math.Abs(y-tr.YUM)/s.UMPerPx)
 	}
-	if worstPlain <= lineTolPx {
+	if worstPlain <= acceptance.WallLinePx {
 		t.Errorf("without the lens the tracer heights are still within %.3f px: the lens is too weak to test", worstPlain)
 	}
 	t.Logf("ignoring the lens: tracer heights off by up to %.3f px", worstPlain)

@@ -15,27 +15,18 @@ import (
 	"gaptrace/profile/rheometry"
 	"gaptrace/profile/summary"
 	"gaptrace/track/synth"
+	"gaptrace/track/synth/acceptance"
 )
 
 // The acceptance checks of issue 6 run on synth's true tracer positions
 // with localization noise and track breaks added (observe). The truth is the
 // scenario's own profile and cessation field.
 
-// seeds is the number of seeds of the repeated checks.
-const seeds = 20
+// The limits of issue 6's acceptance list are in package acceptance.
 
-// Tolerances of issue 6's acceptance list.
-const (
-	bulkRateTol      = 0.01  // relative
-	homogSlipTol     = 0.005 // of the wall speed
-	slipTol          = 0.01  // of the wall speed
-	slipFractionTol  = 0.01
-	boundaryTol      = 0.03 // of the gap
-	bandRateTol      = 0.05 // relative
-	planeTol         = 0.03 // of the gap
-	onsetFrames      = 2
-	recoveredStrainT = 0.1 // relative; not in the list, a sanity bound of our own
-)
+// recoveredStrainT bounds the relative error of the recovered strain: not
+// in the list, a sanity bound of our own.
+const recoveredStrainT = 0.1
 
 func wallSpeed(s *synth.Scenario) float64 { return s.Program()[0].WallSpeedUMPerS }
 
@@ -58,7 +49,7 @@ const pullLow, pullHigh = 0.5, 2.0
 func TestHomogeneousSeeds(t *testing.T) {
 	worst := struct{ rate, slipS, slipM float64 }{}
 	var pull [3]float64
-	for seed := range int64(seeds) {
+	for seed := range int64(acceptance.Seeds) {
 		s, truth, r := builtin(t, "homogeneous", seed+1)
 		sp, tp := r.ShearPhases[0], truth.ShearPhases[0]
 		v := wallSpeed(s)
@@ -69,20 +60,20 @@ func TestHomogeneousSeeds(t *testing.T) {
 		for i, p := range []float64{float64((sp.BulkRatePerS - tp.BulkRatePerS) / sp.BulkRateErrPerS),
 			float64((sp.SlipStationaryUMPerS - tp.SlipStationaryUMPerS) / sp.SlipStationaryErrUMPerS),
 			float64((sp.SlipMovingUMPerS - tp.SlipMovingUMPerS) / sp.SlipMovingErrUMPerS)} {
-			pull[i] += p * p / seeds
+			pull[i] += p * p / acceptance.Seeds
 		}
-		if dr > bulkRateTol || ds > homogSlipTol || dm > homogSlipTol || sp.Verdict != tp.Verdict || sp.Banded {
+		if dr > acceptance.BulkRateFrac || ds > acceptance.HomogeneousSlipFrac || dm > acceptance.HomogeneousSlipFrac || sp.Verdict != tp.Verdict || sp.Banded {
 			t.Errorf("seed %d: bulk rate %.4f (truth %.4f), slip errors %.3g, %.3g of V, verdict %s (truth %s), %d bands",
 				seed+1, float64(sp.BulkRatePerS), float64(tp.BulkRatePerS), ds, dm, sp.Verdict, tp.Verdict, len(sp.Bands))
 		}
 	}
 	t.Logf("homogeneous, %d seeds: worst bulk rate error %.2g (tol %g), worst slip errors %.2g, %.2g of V (tol %g)",
-		seeds, worst.rate, bulkRateTol, worst.slipS, worst.slipM, homogSlipTol)
+		acceptance.Seeds, worst.rate, acceptance.BulkRateFrac, worst.slipS, worst.slipM, acceptance.HomogeneousSlipFrac)
 	for i, name := range []string{"bulk rate", "stationary slip", "moving slip"} {
 		rms := math.Sqrt(pull[i])
 		t.Logf("rms pull of the %s: %.2f", name, rms)
 		if rms < pullLow || rms > pullHigh {
-			t.Errorf("rms pull of the %s over %d seeds is %.2f: its standard error is off", name, seeds, rms)
+			t.Errorf("rms pull of the %s over %d seeds is %.2f: its standard error is off", name, acceptance.Seeds, rms)
 		}
 	}
 }
@@ -99,7 +90,7 @@ func TestSlipBothWalls(t *testing.T) {
 			100+seed, float64(sp.SlipStationaryUMPerS)/v, float64(tp.SlipStationaryUMPerS)/v,
 			float64(sp.SlipMovingUMPerS)/v, float64(tp.SlipMovingUMPerS)/v, float64(sp.SlipFraction), float64(tp.SlipFraction),
 			float64(sp.SlipLengthStationaryUM), float64(sp.SlipLengthMovingUM), float64(tp.SlipLengthStationaryUM), float64(tp.SlipLengthMovingUM), sp.Verdict)
-		if math.Abs(ds) > slipTol || math.Abs(dm) > slipTol || math.Abs(df) > slipFractionTol {
+		if math.Abs(ds) > acceptance.SlipFrac || math.Abs(dm) > acceptance.SlipFrac || math.Abs(df) > acceptance.SlipFraction {
 			t.Errorf("seed %d: slip errors %.3g, %.3g of V, slip fraction error %.3g", 100+seed, ds, dm, df)
 		}
 		if sp.Verdict != tp.Verdict || sp.Banded {
@@ -131,11 +122,11 @@ func checkBands(t *testing.T, seed int64, h float64, got, want []summary.Band) {
 	}
 	for i, b := range got {
 		w := want[i]
-		if e := math.Abs(float64(b.RatePerS/w.RatePerS) - 1); e > bandRateTol {
+		if e := math.Abs(float64(b.RatePerS/w.RatePerS) - 1); e > acceptance.BandRateFrac {
 			t.Errorf("seed %d band %d: rate %.4f, truth %.4f (error %.3g)", seed, i, float64(b.RatePerS), float64(w.RatePerS), e)
 		}
 		if i < len(got)-1 {
-			if e := math.Abs(float64(b.ToUM-w.ToUM)) / h; e > boundaryTol {
+			if e := math.Abs(float64(b.ToUM-w.ToUM)) / h; e > acceptance.BandBoundaryFrac {
 				t.Errorf("seed %d band %d: ends at %.1f um, truth %.1f um (error %.3g of the gap)", seed, i, float64(b.ToUM), float64(w.ToUM), e)
 			}
 		}
@@ -151,7 +142,7 @@ func TestBands(t *testing.T) {
 				checkBands(t, 200+seed, s.GapUM(), sp.Bands, truthBands(tp.Bands))
 				t.Logf("seed %d: bands %v (truth %v); bulk %.4f (truth %.4f), verdict %s (truth %s)", 200+seed,
 					bandList(sp.Bands), bandList(truthBands(tp.Bands)), float64(sp.BulkRatePerS), float64(tp.BulkRatePerS), sp.Verdict, tp.Verdict)
-				if math.Abs(float64(sp.BulkRatePerS/tp.BulkRatePerS)-1) > bulkRateTol || sp.Verdict != tp.Verdict {
+				if math.Abs(float64(sp.BulkRatePerS/tp.BulkRatePerS)-1) > acceptance.BulkRateFrac || sp.Verdict != tp.Verdict {
 					t.Errorf("seed %d: bulk rate %.4f (truth %.4f), verdict %s (truth %s)", 200+seed,
 						float64(sp.BulkRatePerS), float64(tp.BulkRatePerS), sp.Verdict, tp.Verdict)
 				}
@@ -213,7 +204,7 @@ func TestCouetteNewtonian(t *testing.T) {
 		if sp.Verdict != rheometry.Homogeneous || sp.Banded {
 			t.Errorf("seed %d: verdict %s with %d bands, want homogeneous", 300+seed, sp.Verdict, len(sp.Bands))
 		}
-		if e := math.Abs(float64(sp.BulkRatePerS/tp.BulkRatePerS) - 1); e > bulkRateTol {
+		if e := math.Abs(float64(sp.BulkRatePerS/tp.BulkRatePerS) - 1); e > acceptance.BulkRateFrac {
 			t.Errorf("seed %d: bulk rate %.4f, truth %.4f", 300+seed, float64(sp.BulkRatePerS), float64(tp.BulkRatePerS))
 		}
 	}
@@ -248,7 +239,7 @@ func bicBest(s *bands.Selection) int {
 }
 
 func TestNoBandsOnSlipOnly(t *testing.T) {
-	for seed := range int64(seeds) {
+	for seed := range int64(acceptance.Seeds) {
 		_, _, r := builtin(t, "slip", 400+seed)
 		if sp := r.ShearPhases[0]; sp.Banded {
 			t.Errorf("seed %d: slip-only data called banded: %v", 400+seed, bandList(sp.Bands))
@@ -259,7 +250,7 @@ func TestNoBandsOnSlipOnly(t *testing.T) {
 func TestQuiescentSeeds(t *testing.T) {
 	worst, wallSig, jumpSig, gain := 0.0, 0.0, 0.0, 0.0
 	n := 0
-	for seed := range int64(seeds) {
+	for seed := range int64(acceptance.Seeds) {
 		_, _, r := builtin(t, "step-quiescent", 500+seed)
 		a := r.AfterStop
 		if a == nil {
@@ -276,7 +267,7 @@ func TestQuiescentSeeds(t *testing.T) {
 	}
 	t.Logf("quiescent, %d seeds: largest layer displacement %.3g um; largest wall displacement %.2f sigma (moving at %d); "+
 		"best interior jump %.2f sigma (moving at %d), its gain %.1f (BIC penalty 2 ln n about %.1f)",
-		seeds, worst, wallSig, cessation.MovingSigma, jumpSig, cessation.MovingSigma, gain, 2*math.Log(float64(n)))
+		acceptance.Seeds, worst, wallSig, cessation.MovingSigma, jumpSig, cessation.MovingSigma, gain, 2*math.Log(float64(n)))
 }
 
 func TestFailurePlane(t *testing.T) {
@@ -296,7 +287,7 @@ func TestFailurePlane(t *testing.T) {
 		t.Logf("seed %d: plane %.1f um (truth %.1f), onset %.4f s (truth %.4f), recovered %.4f (truth %.4f), floor %.3f um (%s)",
 			600+seed, float64(a.PlaneUM), float64(ta.PlaneUM), float64(a.OnsetAfterStopS), float64(ta.OnsetAfterStopS),
 			float64(a.RecoveredStrain), float64(ta.RecoveredStrain), float64(a.NoiseFloorUM), r.Cessation.NoiseSource)
-		if dp > planeTol || df > onsetFrames || ds > recoveredStrainT {
+		if dp > acceptance.PlaneFrac || df > acceptance.OnsetFrames || ds > recoveredStrainT {
 			t.Errorf("seed %d: plane error %.3g of the gap, onset error %.2f frames, strain error %.3g", 600+seed, dp, df, ds)
 		}
 	}
@@ -380,9 +371,9 @@ func TestTwoSteps(t *testing.T) {
 	for i, sp := range r.ShearPhases {
 		tp := truth.ShearPhases[i]
 		v := math.Abs(float64(tp.WallSpeedUMPerS))
-		if math.Abs(float64(sp.SlipStationaryUMPerS-tp.SlipStationaryUMPerS))/v > slipTol ||
-			math.Abs(float64(sp.SlipMovingUMPerS-tp.SlipMovingUMPerS))/v > slipTol ||
-			math.Abs(float64(sp.BulkRatePerS/tp.BulkRatePerS)-1) > bulkRateTol || sp.Verdict != tp.Verdict {
+		if math.Abs(float64(sp.SlipStationaryUMPerS-tp.SlipStationaryUMPerS))/v > acceptance.SlipFrac ||
+			math.Abs(float64(sp.SlipMovingUMPerS-tp.SlipMovingUMPerS))/v > acceptance.SlipFrac ||
+			math.Abs(float64(sp.BulkRatePerS/tp.BulkRatePerS)-1) > acceptance.BulkRateFrac || sp.Verdict != tp.Verdict {
 			t.Errorf("step %d: rate %.4f slips %.2f %.2f %s; truth %.4f %.2f %.2f %s", i+1,
 				float64(sp.BulkRatePerS), float64(sp.SlipStationaryUMPerS), float64(sp.SlipMovingUMPerS), sp.Verdict,
 				float64(tp.BulkRatePerS), float64(tp.SlipStationaryUMPerS), float64(tp.SlipMovingUMPerS), tp.Verdict)
@@ -441,19 +432,19 @@ func TestDetectedPhasesWithoutProgram(t *testing.T) {
 			t.Logf("wall speed %.2f um/s (fluid at the moving wall %.2f, wall %.2f), nominal rate %.4f, slip fraction %.4f (truth %.4f for the stationary wall), verdict %s; warnings %q",
 				float64(sp.WallSpeedUMPerS), fluidMoving, v, float64(sp.NominalRatePerS), float64(sp.SlipFraction),
 				float64(tp.SlipStationaryUMPerS)/fluidMoving, sp.Verdict, r.Warnings)
-			if math.Abs(float64(sp.WallSpeedUMPerS)-fluidMoving)/v > slipTol || !sp.NominalRatePerS.Known() {
+			if math.Abs(float64(sp.WallSpeedUMPerS)-fluidMoving)/v > acceptance.SlipFrac || !sp.NominalRatePerS.Known() {
 				t.Errorf("wall speed %v um/s, want the fluid's at the moving wall, %.2f um/s; nominal rate %v", sp.WallSpeedUMPerS, fluidMoving, sp.NominalRatePerS)
 			}
 			if sp.SlipMovingUMPerS.Known() || sp.SlipLengthMovingUM.Known() {
 				t.Errorf("moving slip %v, slip length %v: want null without a program", sp.SlipMovingUMPerS, sp.SlipLengthMovingUM)
 			}
-			if f := float64(tp.SlipStationaryUMPerS) / fluidMoving; math.Abs(float64(sp.SlipFraction)-f) > slipFractionTol {
+			if f := float64(tp.SlipStationaryUMPerS) / fluidMoving; math.Abs(float64(sp.SlipFraction)-f) > acceptance.SlipFraction {
 				t.Errorf("slip fraction %v, want the stationary wall's share %.4f", sp.SlipFraction, f)
 			}
 			if !slices.ContainsFunc(r.Warnings, func(w string) bool { return strings.Contains(w, "no motion program gives the wall speed") }) {
 				t.Errorf("no warning on the wall speed: %q", r.Warnings)
 			}
-			if math.Abs(float64(sp.SlipStationaryUMPerS-tp.SlipStationaryUMPerS))/v > slipTol || math.Abs(float64(sp.BulkRatePerS/tp.BulkRatePerS)-1) > bulkRateTol ||
+			if math.Abs(float64(sp.SlipStationaryUMPerS-tp.SlipStationaryUMPerS))/v > acceptance.SlipFrac || math.Abs(float64(sp.BulkRatePerS/tp.BulkRatePerS)-1) > acceptance.BulkRateFrac ||
 				sp.WallSlip != tp.WallSlip || sp.Verdict != tp.Verdict {
 				t.Errorf("stationary slip %.2f (truth %.2f), bulk rate %.4f (truth %.4f), wall slip %v (truth %v), verdict %s (truth %s)", float64(sp.SlipStationaryUMPerS),
 					float64(tp.SlipStationaryUMPerS), float64(sp.BulkRatePerS), float64(tp.BulkRatePerS), sp.WallSlip, tp.WallSlip, sp.Verdict, tp.Verdict)
@@ -472,10 +463,10 @@ func TestDetectedPhasesWithoutProgram(t *testing.T) {
 				t.Errorf("after stop %s mode %v, truth %s mode %v", a.Verdict, a.Mode, ta.Verdict, ta.Mode)
 			}
 			if ta.PlaneUM.Known() {
-				if dp := math.Abs(float64(a.PlaneUM-ta.PlaneUM)) / s.GapUM(); dp > planeTol {
+				if dp := math.Abs(float64(a.PlaneUM-ta.PlaneUM)) / s.GapUM(); dp > acceptance.PlaneFrac {
 					t.Errorf("plane at %v um, truth %v um", a.PlaneUM, ta.PlaneUM)
 				}
-				if df := math.Abs(float64(a.OnsetAfterStopS-ta.OnsetAfterStopS)) * s.FPS; df > onsetFrames {
+				if df := math.Abs(float64(a.OnsetAfterStopS-ta.OnsetAfterStopS)) * s.FPS; df > acceptance.OnsetFrames {
 					t.Errorf("onset %v s after the stop, truth %v s", a.OnsetAfterStopS, ta.OnsetAfterStopS)
 				}
 			}
@@ -512,7 +503,7 @@ func TestMislinks(t *testing.T) {
 	dm := float64(sp.SlipMovingUMPerS-tp.SlipMovingUMPerS) / v
 	t.Logf("with 2%% mislinks: slip errors %.2g, %.2g of V, bulk rate %.4f (truth %.4f), verdict %s",
 		ds, dm, float64(sp.BulkRatePerS), float64(tp.BulkRatePerS), sp.Verdict)
-	if math.Abs(ds) > slipTol || math.Abs(dm) > slipTol || math.Abs(float64(sp.BulkRatePerS/tp.BulkRatePerS)-1) > bulkRateTol || sp.Verdict != tp.Verdict {
+	if math.Abs(ds) > acceptance.SlipFrac || math.Abs(dm) > acceptance.SlipFrac || math.Abs(float64(sp.BulkRatePerS/tp.BulkRatePerS)-1) > acceptance.BulkRateFrac || sp.Verdict != tp.Verdict {
 		t.Errorf("mislinks spoil the decomposition: slip errors %.3g, %.3g of V, verdict %s", ds, dm, sp.Verdict)
 	}
 }
@@ -546,7 +537,7 @@ func TestMislinksAfterStop(t *testing.T) {
 			df := math.Abs(float64(a.OnsetAfterStopS-ta.OnsetAfterStopS)) * s.FPS
 			t.Logf("%s with mislinks: plane %.1f um (truth %.1f), onset %.4f s (truth %.4f)", name,
 				float64(a.PlaneUM), float64(ta.PlaneUM), float64(a.OnsetAfterStopS), float64(ta.OnsetAfterStopS))
-			if dp > planeTol || df > onsetFrames {
+			if dp > acceptance.PlaneFrac || df > acceptance.OnsetFrames {
 				t.Errorf("%s with mislinks: plane error %.3g of the gap, onset error %.2f frames", name, dp, df)
 			}
 		}

@@ -9,6 +9,7 @@ import (
 	"gocv.io/x/gocv"
 
 	"gaptrace/calib/internal/testtarget"
+	"gaptrace/track/synth/acceptance"
 )
 
 func renderBoard(t *testing.T, b testtarget.Board) gocv.Mat {
@@ -19,12 +20,6 @@ func renderBoard(t *testing.T, b testtarget.Board) gocv.Mat {
 	}
 	return m
 }
-
-// Acceptance tolerances of issue 4.
-const (
-	squareTolFrac = 0.005
-	undistTolPx   = 0.3
-)
 
 func TestCheckerboardDistortion(t *testing.T) {
 	cases := []struct {
@@ -49,10 +44,10 @@ func TestCheckerboardDistortion(t *testing.T) {
 			if err != nil {
 				t.Fatal(err)
 			}
-			if d := got.SquarePx/b.SquarePx - 1; math.Abs(d) > squareTolFrac {
+			if d := got.SquarePx/b.SquarePx - 1; math.Abs(d) > acceptance.TargetSquareFrac {
 				t.Errorf("square %.4f px, want %g (%.3f%%)", got.SquarePx, b.SquarePx, 100*d)
 			}
-			if d := got.UMPerPx/(250/b.SquarePx) - 1; math.Abs(d) > squareTolFrac {
+			if d := got.UMPerPx/(250/b.SquarePx) - 1; math.Abs(d) > acceptance.TargetSquareFrac {
 				t.Errorf("um_per_px %.5f, want %.5f", got.UMPerPx, 250/b.SquarePx)
 			}
 			var worst, ss float64
@@ -65,8 +60,8 @@ func TestCheckerboardDistortion(t *testing.T) {
 			}
 			t.Logf("square %.4f px (truth %g), undistorted corners RMS %.3f px, worst %.3f px, reprojection %.3f px, k=%v",
 				got.SquarePx, b.SquarePx, math.Sqrt(ss/float64(len(got.Corners))), worst, got.ReprojectionPx, got.Lens.K)
-			if worst > undistTolPx {
-				t.Errorf("undistorted corner off by %.3f px, want within %g", worst, undistTolPx)
+			if worst > acceptance.UndistortPx {
+				t.Errorf("undistorted corner off by %.3f px, want within %g", worst, acceptance.UndistortPx)
 			}
 		})
 	}

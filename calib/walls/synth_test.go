@@ -11,6 +11,7 @@ import (
 	"gaptrace/calib/walls"
 	"gaptrace/track/frames"
 	"gaptrace/track/synth"
+	"gaptrace/track/synth/acceptance"
 )
 
 // synthSource streams a synth scenario's frames as a frames.Source.
@@ -50,12 +51,6 @@ func medianOf(t testing.TB, s *synth.Scenario, n int) gocv.Mat {
 	}
 	return m
 }
-
-// Acceptance limits of issue 4 for detected walls on rendered videos.
-const (
-	synthLineTolPx  = 0.3
-	synthTiltTolDeg = 0.05
-)
 
 // TestFindOnSynth checks the walls against the renderer's truth
 // (track/synth) over tilts from -3 to +3 degrees, both polarities, 8 and 16
@@ -101,12 +96,12 @@ func TestFindOnSynth(t *testing.T) {
 				for _, p := range want.l {
 					d := want.got.YAt(p[0]) - p[1]
 					worstLine = math.Max(worstLine, math.Abs(d))
-					if math.Abs(d) > synthLineTolPx {
+					if math.Abs(d) > acceptance.WallLinePx {
 						t.Errorf("wall %d at x=%g: y off by %.3f px", k, p[0], d)
 					}
 				}
 			}
-			if d := r.TiltDeg - c.tiltDeg; math.Abs(d) > synthTiltTolDeg {
+			if d := r.TiltDeg - c.tiltDeg; math.Abs(d) > acceptance.TiltDeg {
 				t.Errorf("tilt %.4f deg, want %g", r.TiltDeg, c.tiltDeg)
 			}
 			worstTilt = math.Max(worstTilt, math.Abs(r.TiltDeg-c.tiltDeg))
@@ -114,5 +109,5 @@ func TestFindOnSynth(t *testing.T) {
 				r.Top.YAt(0)-top[0][1], r.Bottom.YAt(0)-bot[0][1], r.GapPx, truth.GapPx, r.TiltDeg, r.Top.Reflection, r.Bottom.Reflection)
 		})
 	}
-	t.Logf("worst wall error %.3f px (limit %g), worst tilt error %.4f deg (limit %g)", worstLine, synthLineTolPx, worstTilt, synthTiltTolDeg)
+	t.Logf("worst wall error %.3f px (limit %g), worst tilt error %.4f deg (limit %g)", worstLine, acceptance.WallLinePx, worstTilt, acceptance.TiltDeg)
 }

@@ -7,6 +7,8 @@ import (
 	"testing"
 
 	"gocv.io/x/gocv"
+
+	"gaptrace/track/synth/acceptance"
 )
 
 // gapImage describes a simple test picture: two plates with a blurred edge,
@@ -73,28 +75,22 @@ func sq(x float64) float64 { return x * x }
 // reflSigma is the sd of the test reflection lines, px.
 const reflSigma = 0.7
 
-// Tolerances of the detection tests, from the acceptance list of issue 4.
-const (
-	lineTolPx  = 0.3
-	tiltTolDeg = 0.05
-)
-
 func checkWalls(t *testing.T, g gapImage, r *Result) {
 	t.Helper()
 	s := math.Tan(g.tiltDeg * math.Pi / 180)
 	for _, x := range []float64{0, float64(g.w-1) / 2, float64(g.w - 1)} {
-		if d := r.Top.YAt(x) - (g.topY + s*x); math.Abs(d) > lineTolPx {
+		if d := r.Top.YAt(x) - (g.topY + s*x); math.Abs(d) > acceptance.WallLinePx {
 			t.Errorf("top wall at x=%g off by %.3f px", x, d)
 		}
-		if d := r.Bottom.YAt(x) - (g.botY + s*x); math.Abs(d) > lineTolPx {
+		if d := r.Bottom.YAt(x) - (g.botY + s*x); math.Abs(d) > acceptance.WallLinePx {
 			t.Errorf("bottom wall at x=%g off by %.3f px", x, d)
 		}
 	}
-	if d := r.TiltDeg - g.tiltDeg; math.Abs(d) > tiltTolDeg {
+	if d := r.TiltDeg - g.tiltDeg; math.Abs(d) > acceptance.TiltDeg {
 		t.Errorf("tilt %.4f deg, want %.4f", r.TiltDeg, g.tiltDeg)
 	}
 	wantGap := (g.botY - g.topY) * math.Cos(math.Atan(s))
-	if d := r.GapPx - wantGap; math.Abs(d) > lineTolPx {
+	if d := r.GapPx - wantGap; math.Abs(d) > acceptance.WallLinePx {
 		t.Errorf("gap %.3f px, want %.3f", r.GapPx, wantGap)
 	}
 }

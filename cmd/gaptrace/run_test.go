@@ -14,6 +14,7 @@ import (
 	"gaptrace/profile/report"
 	"gaptrace/profile/summary"
 	"gaptrace/track/synth"
+	"gaptrace/track/synth/acceptance"
 )
 
 // End-to-end tolerances: the whole chain on rendered MJPEG video, where
@@ -23,14 +24,8 @@ import (
 const (
 	// e2eRateTol is the relative error allowed on the bulk rate.
 	e2eRateTol = 0.02
-	// e2eSlipTol is the error allowed on a slip velocity, as a fraction of
-	// the wall speed.
-	e2eSlipTol = 0.01
-	// e2ePlaneTol is the error allowed on a failure plane's height, as a
-	// fraction of the gap.
-	e2ePlaneTol = 0.03
-	// e2eOnsetFrames is the error allowed on the onset after the stop.
-	e2eOnsetFrames = 2
+	// The slip velocities, the failure plane and the onset after the stop
+	// are held to issue 6's limits (package acceptance) end to end, too.
 	// e2eStrainTol is the absolute error allowed on the recovered strain.
 	e2eStrainTol = 0.005
 )
@@ -164,7 +159,7 @@ func compareSummaries(t *testing.T, got *summary.Summary, want *synth.SummaryTru
 			t.Errorf("phase %d bulk rate %g, want %g", i, g.BulkRatePerS, w.BulkRatePerS)
 		}
 		for _, s := range [][2]summary.Num{{g.SlipStationaryUMPerS, w.SlipStationaryUMPerS}, {g.SlipMovingUMPerS, w.SlipMovingUMPerS}} {
-			if d := math.Abs(float64(s[0]-s[1])) / v; !(d <= e2eSlipTol) {
+			if d := math.Abs(float64(s[0]-s[1])) / v; !(d <= acceptance.SlipFrac) {
 				t.Errorf("phase %d slip %g um/s, want %g (wall speed %g)", i, s[0], s[1], v)
 			}
 		}
@@ -185,10 +180,10 @@ func compareSummaries(t *testing.T, got *summary.Summary, want *synth.SummaryTru
 	if g.Verdict != w.Verdict || deref(g.Mode) != deref(w.Mode) {
 		t.Errorf("after stop %s/%s, want %s/%s", g.Verdict, deref(g.Mode), w.Verdict, deref(w.Mode))
 	}
-	if w.PlaneUM.Known() && !(math.Abs(float64(g.PlaneUM-w.PlaneUM)) <= e2ePlaneTol*got.Calibration.GapUM) {
+	if w.PlaneUM.Known() && !(math.Abs(float64(g.PlaneUM-w.PlaneUM)) <= acceptance.PlaneFrac*got.Calibration.GapUM) {
 		t.Errorf("plane at %g um, want %g", g.PlaneUM, w.PlaneUM)
 	}
-	if w.OnsetAfterStopS.Known() && !(math.Abs(float64(g.OnsetAfterStopS-w.OnsetAfterStopS)) <= e2eOnsetFrames/got.Input.FPS) {
+	if w.OnsetAfterStopS.Known() && !(math.Abs(float64(g.OnsetAfterStopS-w.OnsetAfterStopS)) <= acceptance.OnsetFrames/got.Input.FPS) {
 		t.Errorf("onset %g s, want %g", g.OnsetAfterStopS, w.OnsetAfterStopS)
 	}
 	if w.Verdict == cessation.Moving && !(math.Abs(float64(g.RecoveredStrain-w.RecoveredStrain)) <= e2eStrainTol) {

@@ -9,6 +9,7 @@ import (
 	"gaptrace/calib"
 	"gaptrace/calib/experiment"
 	"gaptrace/track/synth"
+	"gaptrace/track/synth/acceptance"
 	"gaptrace/track/tracks"
 )
 
@@ -240,7 +241,7 @@ func (sm *sample) options() Options {
 // 0.15 px of localization noise.
 func TestLinkAccuracyTable(t *testing.T) {
 	// Aims of issue 5: at least 99% correct at 0.5, at least 95% at 0.8.
-	aims := map[float64]float64{0.5: 0.99, 0.8: 0.95}
+	aims := map[float64]float64{0.5: acceptance.CorrectLinksAtHalf, 0.8: acceptance.CorrectLinksAtEightTenths}
 	// maxWrong bounds the wrong links of Link at every ratio: a wrong link
 	// is what biases the profile next to the moving wall.
 	const maxWrong = 0.01
@@ -268,7 +269,7 @@ func TestLinkAccuracyTable(t *testing.T) {
 // TestLinkDense repeats rows 0.5 and 0.8 of the table at 1000 tracers in the
 // image (mean spacing 16 px instead of 25 px).
 func TestLinkDense(t *testing.T) {
-	aims := map[float64]float64{0.5: 0.99, 0.8: 0.95} // issue 5
+	aims := map[float64]float64{0.5: acceptance.CorrectLinksAtHalf, 0.8: acceptance.CorrectLinksAtEightTenths} // issue 5
 	for i, ratio := range []float64{0.5, 0.8} {
 		sm := detect(t, shearN(t, "homogeneous", ratio, 30, tableDrop, int64(600+i), 1000), uint64(60+i))
 		opt := sm.options()

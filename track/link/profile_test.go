@@ -11,6 +11,7 @@ import (
 	"gaptrace/calib/experiment"
 	"gaptrace/track/flowprior"
 	"gaptrace/track/synth"
+	"gaptrace/track/synth/acceptance"
 	"gaptrace/track/tracks"
 )
 
@@ -123,7 +124,7 @@ func TestLinkGapClosing(t *testing.T) {
 	const (
 		frames = 100
 		drop   = 0.10
-		aim    = 0.80 // issue 5
+		aim    = acceptance.GapClosingLengthFrac
 	)
 	full := detect(t, shear(t, "homogeneous", 0.5, frames, 0, 300), 30)
 	dropped := detect(t, shear(t, "homogeneous", 0.5, frames, drop, 300), 30)
