@@ -59,6 +59,7 @@ func Calibrate(median gocv.Mat, e *experiment.Experiment, opt Options) (*Calibra
 		}
 	}
 	var top, bot walls.Line
+	topErr, botErr := math.NaN(), math.NaN()
 	source := WallsDetected
 	if e.Walls.StationaryPx != nil {
 		var err error
@@ -86,13 +87,53 @@ func Calibrate(median gocv.Mat, e *experiment.Experiment, opt Options) (*Calibra
 			return nil, err
 		}
 		top, bot = r.Top.Line, r.Bottom.Line
+		xc := float64(w-1) / 2
+		topErr, botErr = r.Top.HeightErrPx(xc), r.Bottom.HeightErrPx(xc)
 	}
 	c, err := FromWalls(top, bot, w, h, e, lens, tgtScale, opt.FlowSign)
 	if err != nil {
 		return nil, err
 	}
 	c.WallSource = source
+	c.setErrors(e, topErr, botErr)
 	return c, nil
+}
+
+// setErrors fills in the calibration's standard uncertainties from the
+// experiment file's stated ones and the wall fits' (topErrPx, botErrPx at
+// the middle column; NaN when unknown): the gap's as stated; the scale's as
+// stated, or for the gap-based scale s = H / d from the gap H and the wall
+// distance d, u(s)/s = sqrt((u(H)/H)^2 + u(d)^2/d^2), u(d)^2 the sum of the
+// walls' variances (GUM eq. 10, uncorrelated inputs).
+func (c *Calibration) setErrors(e *experiment.Experiment, topErrPx, botErrPx float64) {
+	num := func(v float64) *float64 {
+		if math.IsNaN(v) || math.IsInf(v, 0) {
+			return nil
+		}
+		return &v
+	}
+	moving, stationary := topErrPx, botErrPx
+	if e.MovingSide() == experiment.Bottom {
+		moving, stationary = botErrPx, topErrPx
+	}
+	c.MovingWallErrPx, c.StationaryWallErrPx = num(moving), num(stationary)
+	gapErr := math.NaN()
+	if e.Geometry.GapErrUM > 0 {
+		gapErr = e.Geometry.GapErrUM
+	}
+	c.GapErrUM = num(gapErr)
+	switch c.ScaleSource {
+	case ScaleExperiment:
+		if e.Camera.UMPerPxErr > 0 {
+			c.UMPerPxErr = num(e.Camera.UMPerPxErr)
+		}
+	case ScaleGap:
+		rel2 := (topErrPx*topErrPx + botErrPx*botErrPx) / (c.GapPx * c.GapPx)
+		if !math.IsNaN(gapErr) {
+			rel2 += (gapErr / c.GapUM) * (gapErr / c.GapUM)
+		}
+		c.UMPerPxErr = num(c.UMPerPx * math.Sqrt(rel2))
+	}
 }
 
 // FromWalls builds the calibration from the top and bottom wall lines of a

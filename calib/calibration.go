@@ -32,6 +32,15 @@ type Calibration struct {
 	ScaleSource      string  `json:"scale_source"` // experiment | gap | target
 	StationaryWallPx Line    `json:"stationary_wall_px"`
 	MovingWallPx     Line    `json:"moving_wall_px"`
+	// Standard uncertainties (GUM, JCGM 100:2008), nil (null) when not
+	// known: of the gap (um, as the experiment file states it), of the
+	// scale (um/px: the file's, or for the gap-based scale propagated from
+	// the gap and both walls), and of each wall line's height at the middle
+	// column of the frame (px, from the wall fit's residuals).
+	GapErrUM            *float64 `json:"gap_err_um"`
+	UMPerPxErr          *float64 `json:"um_per_px_err"`
+	StationaryWallErrPx *float64 `json:"stationary_wall_err_px"`
+	MovingWallErrPx     *float64 `json:"moving_wall_err_px"`
 	// FlowSign is +1 when the moving wall travels towards +x in the image
 	// during the first shear phase, -1 when towards -x.
 	FlowSign float64 `json:"flow_sign"`
@@ -146,6 +155,15 @@ func (c *Calibration) ToImage(xUM, yUM float64) (xPx, yPx float64) {
 		xPx, yPx = c.Distortion.Distort(xPx, yPx)
 	}
 	return xPx, yPx
+}
+
+// Known returns the value behind an uncertainty field and whether it is
+// known (not nil, finite, not negative).
+func Known(p *float64) (float64, bool) {
+	if p == nil || math.IsNaN(*p) || math.IsInf(*p, 0) || *p < 0 {
+		return 0, false
+	}
+	return *p, true
 }
 
 // Check reports the first field that makes the calibration unusable.

@@ -26,6 +26,7 @@ import (
 	"gaptrace/profile/phases"
 	"gaptrace/profile/rheometry"
 	"gaptrace/profile/summary"
+	"gaptrace/profile/uncertainty"
 	"gaptrace/profile/velocity"
 	"gaptrace/track/tracks"
 )
@@ -189,6 +190,9 @@ func Analyze(pts []tracks.Point, e *experiment.Experiment, c *calib.Calibration,
 			warn = append(warn, fmt.Sprintf("the calibration's gap %.1f um differs from the %s's %.1f um; heights beyond %.1f um are left out", c.GapUM, geom.Kind, gap, gap))
 		}
 	}
+	if c != nil && c.WallSource == calib.WallsExperiment && c.StationaryWallErrPx == nil {
+		warn = append(warn, "the wall lines are given by hand without an uncertainty: the uncertainty budgets count them exact")
+	}
 	ts := velocity.Group(pts)
 	if len(ts) == 0 {
 		return nil, errors.New("profile: no tracks (every detection is unlinked)")
@@ -333,12 +337,24 @@ func Analyze(pts []tracks.Point, e *experiment.Experiment, c *calib.Calibration,
 			SlipLengthMovingUM: summary.Null, SlipLengthMovingErrUM: summary.Null, SlipFraction: summary.Null,
 			SlipFractionErr: summary.Null, Bands: []summary.Band{}, InTimeWindowS: summary.Null,
 			InhomogeneityOnsetS: summary.Null, InhomogeneityOnsetErrS: summary.Null, InhomogeneityOnsetStrain: summary.Null,
-			PhaseStress: summary.NoStress}
+			PhaseStress: summary.NoStress, Budget: summary.Budget{}}
 		d, err := rheometry.Decompose(steady.Bins, geom, st.WallSpeedUMPerS, rheometry.Options{})
 		if err != nil {
 			r.Warnings = append(r.Warnings, fmt.Sprintf("shear phase %d (%g-%g s): %v", n, st.StartS, st.EndS, err))
 		} else {
 			sh.Decomposition = d
+			shared := sharedErrors(c, gap)
+			shared.CommonUMPerS = velocity.CommonOffsetErr(all, steady.T0S, steady.T1S, func(y float64) float64 { v, _ := d.FitAt(y); return v })
+			if math.IsNaN(shared.CommonUMPerS) {
+				shared.CommonUMPerS = 0
+				r.Warnings = append(r.Warnings, fmt.Sprintf("shear phase %d (%g-%g s): too few tracers to measure the motion they share; the budget leaves it out", n, st.StartS, st.EndS))
+			}
+			if b, err := d.Budget(steady.Bins, shared); err != nil {
+				r.Warnings = append(r.Warnings, fmt.Sprintf("shear phase %d (%g-%g s): %v; the errors are the statistical ones alone", n, st.StartS, st.EndS, err))
+			} else {
+				d.ApplyBudget(b)
+				sp.Budget = budgetOf(b)
+			}
 			fillShear(&sp, d)
 			if math.IsNaN(st.WallSpeedUMPerS) {
 				r.Warnings = append(r.Warnings, wallFromFluid(&sp, &sh, d, geom, n))
@@ -408,6 +424,47 @@ func mapGrid(t0S, t1S float64, o Options, steps []experiment.Step) (lenS, startS
 // windowEdgeTol is the fraction of a window by which times may miss a
 // window edge and still count as on it (rounding of frame times).
 const windowEdgeTol = 1e-9
+
+// FrameRateRel is the relative standard uncertainty taken for the frame
+// rate, stated or read from the video: camera clocks are quartz-timed to
+// better than 1e-4 (common practice).
+const FrameRateRel = 1e-4
+
+// sharedErrors returns the shared errors of the calibration c for a gap
+// of gapUM: unknown wall errors (walls given by hand) count as exact.
+func sharedErrors(c *calib.Calibration, gapUM float64) rheometry.Shared {
+	sh := rheometry.Shared{FrameRateRel: FrameRateRel}
+	if c == nil {
+		return sh
+	}
+	if u, ok := calib.Known(c.StationaryWallErrPx); ok {
+		sh.StationaryWallUM = u * c.UMPerPx
+	}
+	if u, ok := calib.Known(c.MovingWallErrPx); ok {
+		sh.MovingWallUM = u * c.UMPerPx
+	}
+	if u, ok := calib.Known(c.GapErrUM); ok {
+		sh.GapUM = u
+	}
+	sh.GapScale = c.ScaleSource == calib.ScaleGap
+	if u, ok := calib.Known(c.UMPerPxErr); ok && !sh.GapScale && c.UMPerPx > 0 {
+		sh.ScaleRel = u / c.UMPerPx
+	}
+	return sh
+}
+
+// budgetOf converts a budget to the summary's form.
+func budgetOf(b map[string]uncertainty.Contributions) summary.Budget {
+	out := summary.Budget{}
+	for q, c := range b {
+		m := map[string]summary.Num{}
+		for k, u := range c {
+			m[k] = summary.Num(u)
+		}
+		out[q] = m
+	}
+	return out
+}
 
 // shearSteps returns the program's steps with a moving wall.
 func shearSteps(p experiment.Program) []experiment.Step {
@@ -621,7 +678,8 @@ func (r *Result) afterStop(ts []velocity.Track, steps []experiment.Step, o Optio
 	r.Cessation = c
 	a := &summary.AfterStop{StopS: c.StopS, ObservedS: c.ObservedS, NoiseFloorUM: summary.Num(c.NoiseFloorUM),
 		MaxDisplacementUM: summary.Num(c.MaxDisplacementUM), RecoveredStrain: summary.Num(c.RecoveredStrain),
-		Verdict: c.Verdict(), PlaneUM: summary.Null, OnsetAfterStopS: summary.Null}
+		Verdict: c.Verdict(), PlaneUM: summary.Null, OnsetAfterStopS: summary.Null,
+		PlaneErrUM: summary.Null, OnsetAfterStopErrS: summary.Null, RecoveredStrainErr: summary.Num(c.RecoveredStrainErr)}
 	if c.Moving {
 		mode := c.Mode
 		a.Mode = &mode

@@ -52,6 +52,9 @@ type Camera struct {
 	// UMPerPx is the image scale; 0 means derive it (from Target, or from
 	// the gap over the detected wall distance).
 	UMPerPx float64 `yaml:"um_per_px,omitempty"`
+	// UMPerPxErr is the standard uncertainty of UMPerPx; 0 means not
+	// stated.
+	UMPerPxErr float64 `yaml:"um_per_px_err,omitempty"`
 	// Target, when given, is a calibration image of a known pattern.
 	Target *Target `yaml:"target,omitempty"`
 }
@@ -236,6 +239,12 @@ func (e *Experiment) Validate() error {
 	}
 	if c.UMPerPx < 0 || math.IsNaN(c.UMPerPx) {
 		return fmt.Errorf("camera.um_per_px: must be positive, got %g", c.UMPerPx)
+	}
+	if c.UMPerPxErr < 0 || math.IsNaN(c.UMPerPxErr) || math.IsInf(c.UMPerPxErr, 0) {
+		return fmt.Errorf("camera.um_per_px_err: must be a finite standard uncertainty of at least 0, got %g", c.UMPerPxErr)
+	}
+	if c.UMPerPxErr > 0 && c.UMPerPx == 0 {
+		return fmt.Errorf("camera.um_per_px_err: %g is given without camera.um_per_px", c.UMPerPxErr)
 	}
 	if t := c.Target; t != nil {
 		if t.Image == "" {

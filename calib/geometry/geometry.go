@@ -48,6 +48,9 @@ type Geometry struct {
 	// AreaMM2 is the sheared area of sliding plates, mm^2: with the force
 	// it gives the wall stress (optional).
 	AreaMM2 float64 `yaml:"area_mm2,omitempty" json:"area_mm2,omitempty"`
+	// GapErrUM is the standard uncertainty of the gap as measured, um; 0
+	// means not stated.
+	GapErrUM float64 `yaml:"gap_err_um,omitempty" json:"gap_err_um,omitempty"`
 }
 
 // maxConeAngleDeg bounds the cone angle: rheometer cones are a few degrees;
@@ -57,6 +60,9 @@ const maxConeAngleDeg = 45
 // Validate reports the first field that makes the geometry unusable, naming
 // the experiment-file key and its value.
 func (g Geometry) Validate() error {
+	if g.GapErrUM < 0 || math.IsNaN(g.GapErrUM) || math.IsInf(g.GapErrUM, 0) {
+		return fmt.Errorf("geometry.gap_err_um: must be a finite standard uncertainty of at least 0, got %g", g.GapErrUM)
+	}
 	pos := func(key string, v float64) error {
 		if !(v > 0) || math.IsInf(v, 0) {
 			if v == 0 {

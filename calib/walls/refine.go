@@ -575,6 +575,7 @@ func placeWall(w *Wall, m *wallModel, profs []stripProfile, opt Options) error {
 	l, sigma, wt := robustLine(xs, ys)
 	w.Line = l
 	w.ResidualPx = sigma
+	w.fit = momentsOf(xs, wt)
 	w.Strips = len(xs)
 	w.Inliers = 0
 	w.Reflection = m.line

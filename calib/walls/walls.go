@@ -45,6 +45,46 @@ type Line struct {
 // YAt returns the line's y in px at column xPx.
 func (l Line) YAt(xPx float64) float64 { return l.Y0 + l.Slope*xPx }
 
+// HeightErrPx returns the standard uncertainty, in px, of the wall line's
+// height at column xPx, from the fit's own residuals: the variance of a
+// straight-line fit's value at x, s^2 (1/W + (x - xbar)^2 / Sxx), with s the
+// robust residual scale and W, xbar, Sxx the biweight-weighted count, mean
+// and sum of squares of the points' columns (any regression text, e.g.
+// Draper & Smith 1998, Applied Regression Analysis, eq. 1.4.7; from
+// memory). NaN when the line was not fitted to points (given by hand).
+func (w Wall) HeightErrPx(xPx float64) float64 {
+	m := w.fit
+	if !(m.w > 1) || !(m.sxx > 0) {
+		return math.NaN()
+	}
+	d := xPx - m.xbar
+	return w.ResidualPx * math.Sqrt(1/m.w+d*d/m.sxx)
+}
+
+// lineMoments are the weighted moments of a line fit's columns: the summed
+// weights, the weighted mean column and the weighted sum of squares about
+// it (px^2).
+type lineMoments struct{ w, xbar, sxx float64 }
+
+// momentsOf returns the moments of columns x with weights wt.
+func momentsOf(x, wt []float64) lineMoments {
+	var m lineMoments
+	var sx float64
+	for i, v := range x {
+		m.w += wt[i]
+		sx += wt[i] * v
+	}
+	if !(m.w > 0) {
+		return m
+	}
+	m.xbar = sx / m.w
+	for i, v := range x {
+		d := v - m.xbar
+		m.sxx += wt[i] * d * d
+	}
+	return m
+}
+
 // AngleDeg returns the line's angle to the image's x axis in degrees,
 // positive when y grows with x (clockwise on screen).
 func (l Line) AngleDeg() float64 { return math.Atan(l.Slope) * 180 / math.Pi }
@@ -83,6 +123,9 @@ type Wall struct {
 	// ResidualPx is the robust spread (1.4826 x MAD) of the inlier points
 	// about the line.
 	ResidualPx float64
+	// fit holds the weighted moments of the line fit's points, for
+	// HeightErrPx.
+	fit lineMoments
 	// Reflection reports a thin reflection line found on the wall.
 	Reflection bool
 }
@@ -514,6 +557,7 @@ func refine(cands []candidate, used []bool, l Line, sign float64) (fitted, []int
 	l, sigma, wt := robustLine(x, y)
 	f.Line = l
 	f.ResidualPx = sigma
+	f.fit = momentsOf(x, wt)
 	contr := make([]float64, 0, n)
 	for i, k := range idx {
 		if wt[i] > 0 {

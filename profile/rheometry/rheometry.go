@@ -104,12 +104,16 @@ type Decomposition struct {
 	Model     *bands.Model
 	Selection *bands.Selection
 	geom      geometry.Geometry
+	criteria  *bands.Criteria
 }
 
 // Options tunes the decomposition; the zero value means the defaults.
 type Options struct {
 	// Criteria for accepting bands; zero means bands.DefaultCriteria(gap).
 	Criteria *bands.Criteria
+	// bands, when positive, fits that many bands instead of choosing
+	// (the budget's re-evaluations keep the chosen model).
+	bands int
 }
 
 // Decompose decomposes the profile bins (velocities in um/s) of a phase in
@@ -134,12 +138,25 @@ func Decompose(bins []layers.Bin, g geometry.Geometry, wallSpeedUMPerS float64, 
 	if o.Criteria != nil {
 		c = *o.Criteria
 	}
-	sel, err := bands.Select(pts, h, c)
+	var sel *bands.Selection
+	var err error
+	if o.bands > 0 {
+		minW := c.MinWidthUM
+		if o.bands == 1 {
+			minW = 0
+		}
+		var m *bands.Model
+		if m, err = bands.Fit(pts, o.bands, h, minW); err == nil {
+			sel = &bands.Selection{Best: m}
+		}
+	} else {
+		sel, err = bands.Select(pts, h, c)
+	}
 	if err != nil {
 		return nil, fmt.Errorf("rheometry: %w", err)
 	}
 	m := sel.Best
-	d := &Decomposition{GapUM: h, WallSpeedUMPerS: wallSpeedUMPerS, Model: m, Selection: sel, geom: g}
+	d := &Decomposition{GapUM: h, WallSpeedUMPerS: wallSpeedUMPerS, Model: m, Selection: sel, geom: g, criteria: &c}
 	v := wallSpeedUMPerS
 	d.FluidStationaryUMPerS, d.FluidStationaryErrUMPerS = m.AtErr(0)
 	d.FluidMovingUMPerS, d.FluidMovingErrUMPerS = m.AtErr(h)

@@ -119,7 +119,15 @@ type ShearPhase struct {
 	// null with the onset.
 	InhomogeneityFirst *string `json:"inhomogeneity_first"`
 	PhaseStress
+	// Budget lists, per quantity (its summary field's name), each
+	// component's standard uncertainty in the quantity's unit; the field's
+	// error is their root sum of squares (see profile/uncertainty).
+	Budget Budget `json:"budget"`
 }
+
+// Budget is an uncertainty budget: per quantity, the standard uncertainty
+// each component contributes, by the component's name.
+type Budget map[string]map[string]Num
 
 // InTime is one time-resolved window of a shear phase.
 type InTime struct {
@@ -148,6 +156,11 @@ type AfterStop struct {
 	Mode              *string `json:"mode"`    // cessation.ModeWall or ModeBulk; nil when quiescent
 	PlaneUM           Num     `json:"plane_um"`
 	OnsetAfterStopS   Num     `json:"onset_after_stop_s"`
+	// Standard uncertainties of the values above (null when unknown).
+	PlaneErrUM         Num    `json:"plane_err_um"`
+	OnsetAfterStopErrS Num    `json:"onset_after_stop_err_s"`
+	RecoveredStrainErr Num    `json:"recovered_strain_err"`
+	Budget             Budget `json:"budget"`
 }
 
 // New returns a summary with the tool filled in and empty, non-null lists.

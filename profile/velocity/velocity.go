@@ -353,3 +353,96 @@ func FastestStepUM(ts []Track) float64 {
 
 // minStepPoints is the shortest track whose median step is trusted.
 const minStepPoints = 5
+
+// CommonOffsetBlocks is the number of time blocks a window is cut into to
+// measure the velocity offset its tracers share: ten blocks give the
+// offset's scatter to about a quarter (1/sqrt(2*9)) while keeping
+// thousands of samples per block.
+const CommonOffsetBlocks = 10
+
+// CommonOffsetErr returns the standard uncertainty, in um/s, of a velocity
+// offset that every tracer in the samples ss (of one window, from t0S to
+// t1S) shares: residual camera motion, or a codec's or motion blur's
+// shift that changes over the window. The residuals from the fitted
+// profile fit(y) are cut into blocks in time; each block's median is its
+// shared offset, and the scatter of the medians beyond what the tracers'
+// own scatter gives (the variance of a median, (pi/2) s^2 / n for n tracks
+// of spread s; e.g. Kendall & Stuart 1977, The Advanced Theory of
+// Statistics vol. 1, 10.10; from memory) is the shared part, whose mean over
+// the blocks has that variance over the number of blocks. 0 when the
+// scatter is no more than the tracers' own; NaN with too few samples.
+func CommonOffsetErr(ss []Sample, t0S, t1S float64, fit func(yUM float64) float64) float64 {
+	if !(t1S > t0S) {
+		return math.NaN()
+	}
+	blocks := make([][]float64, CommonOffsetBlocks)
+	groups := make([]map[int]bool, CommonOffsetBlocks)
+	for i := range groups {
+		groups[i] = map[int]bool{}
+	}
+	for _, s := range ss {
+		if s.TS < t0S || s.TS >= t1S {
+			continue
+		}
+		r := s.VXUMPerS - fit(s.YUM)
+		if math.IsNaN(r) {
+			continue
+		}
+		k := min(int(float64(CommonOffsetBlocks)*(s.TS-t0S)/(t1S-t0S)), CommonOffsetBlocks-1)
+		blocks[k] = append(blocks[k], r)
+		groups[k][s.Track] = true
+	}
+	var meds []float64
+	var within float64
+	for k, b := range blocks {
+		if len(b) < minBlockSamples || len(groups[k]) < minBlockTracks {
+			continue
+		}
+		m := medianOf(b)
+		dev := make([]float64, len(b))
+		for i, v := range b {
+			dev[i] = math.Abs(v - m)
+		}
+		s := madSigma * medianOf(dev)
+		meds = append(meds, m)
+		within += math.Pi / 2 * s * s / float64(len(groups[k]))
+	}
+	n := len(meds)
+	if n < minBlocks {
+		return math.NaN()
+	}
+	var mean, ss2 float64
+	for _, m := range meds {
+		mean += m / float64(n)
+	}
+	for _, m := range meds {
+		ss2 += (m - mean) * (m - mean)
+	}
+	excess := ss2/float64(n-1) - within/float64(n)
+	if !(excess > 0) {
+		return 0
+	}
+	return math.Sqrt(excess / float64(n))
+}
+
+// Least data for CommonOffsetErr: blocks of at least minBlockSamples
+// samples from minBlockTracks tracks, and minBlocks such blocks.
+const (
+	minBlockSamples = 30
+	minBlockTracks  = 10
+	minBlocks       = 4
+)
+
+// madSigma converts a median absolute deviation into a normal standard
+// deviation (Huber 1981, Robust Statistics).
+const madSigma = 1.4826
+
+// medianOf returns the median of v, reordering it.
+func medianOf(v []float64) float64 {
+	slices.Sort(v)
+	n := len(v)
+	if n%2 == 1 {
+		return v[n/2]
+	}
+	return (v[n/2-1] + v[n/2]) / 2
+}
