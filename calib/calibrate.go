@@ -88,7 +88,8 @@ func Calibrate(median gocv.Mat, e *experiment.Experiment, opt Options) (*Calibra
 		}
 		top, bot = r.Top.Line, r.Bottom.Line
 		xc := float64(w-1) / 2
-		topErr, botErr = r.Top.HeightErrPx(xc), r.Bottom.HeightErrPx(xc)
+		topErr = math.Hypot(r.Top.HeightErrPx(xc), walls.EdgeModelErrPx)
+		botErr = math.Hypot(r.Bottom.HeightErrPx(xc), walls.EdgeModelErrPx)
 	}
 	c, err := FromWalls(top, bot, w, h, e, lens, tgtScale, opt.FlowSign)
 	if err != nil {

@@ -61,6 +61,15 @@ func (w Wall) HeightErrPx(xPx float64) float64 {
 	return w.ResidualPx * math.Sqrt(1/m.w+d*d/m.sxx)
 }
 
+// EdgeModelErrPx is the standard uncertainty, in px, that the wall model
+// itself adds to a wall line's height, beyond what its residuals show: the
+// edge's blur, a reflection line and the codec shift the fitted edge the
+// same way in every strip, so that the residuals cannot see it. A Type B
+// evaluation (GUM 4.3) from the renders of the coverage sweep
+// (profile/pipeline BenchmarkCoverage, issue 12): there the fitted lines
+// lie up to 0.16 px, in rms 0.08 px, from the true ones.
+const EdgeModelErrPx = 0.1
+
 // lineMoments are the weighted moments of a line fit's columns: the summed
 // weights, the weighted mean column and the weighted sum of squares about
 // it (px^2).

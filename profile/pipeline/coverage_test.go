@@ -12,6 +12,7 @@ import (
 	"strings"
 	"testing"
 
+	"gaptrace/calib"
 	"gaptrace/calib/experiment"
 	"gaptrace/profile/cessation"
 	"gaptrace/profile/summary"
@@ -83,10 +84,15 @@ func (c coverageCase) build() (*synth.Scenario, error) {
 // trackedCache is what the sweep keeps of a recording's tracking, so that
 // a rerun analyses the same tracks without rendering and tracking again.
 type trackedCache struct {
+	Version int
 	Tracked *Tracked
 	Truth   *synth.Truth
 	Exp     *experiment.Experiment
 }
+
+// cacheVersion changes when the tracking or calibration changes what it
+// gives, so that older cached tracks are made again.
+const cacheVersion = 2
 
 // trackCase renders c and tracks it, through the cache folder
 // GAPTRACE_COVERAGE_CACHE when that is set.
@@ -99,7 +105,7 @@ func trackCase(tb testing.TB, c coverageCase) trackedCache {
 			var tc trackedCache
 			err := gob.NewDecoder(f).Decode(&tc)
 			f.Close()
-			if err == nil {
+			if err == nil && tc.Version == cacheVersion {
 				return tc
 			}
 		}
@@ -137,7 +143,7 @@ func trackCase(tb testing.TB, c coverageCase) trackedCache {
 		tb.Fatalf("%s: %v", c.name, err)
 	}
 	t.Diagnostics = Diagnostics{}
-	tc := trackedCache{Tracked: t, Truth: truth, Exp: exp}
+	tc := trackedCache{Version: cacheVersion, Tracked: t, Truth: truth, Exp: exp}
 	if cache != "" {
 		if f, err := os.Create(file); err == nil {
 			if err := gob.NewEncoder(f).Encode(&tc); err != nil {
@@ -168,6 +174,24 @@ func zValues(got *summary.Summary, truth *synth.SummaryTruth) []zValue {
 			return
 		}
 		out = append(out, zValue{q, float64(v), float64(e), float64(tr)})
+	}
+	if c, tc := got.Calibration, truth.Calibration; c != nil && tc != nil {
+		// Each wall line's height at the middle column, px.
+		xc := float64(c.WidthPx-1) / 2
+		at := func(l calib.Line) float64 {
+			return l[0][1] + (l[1][1]-l[0][1])*(xc-l[0][0])/(l[1][0]-l[0][0])
+		}
+		errOf := func(p *float64) summary.Num {
+			if u, ok := calib.Known(p); ok {
+				return summary.Num(u)
+			}
+			return summary.Null
+		}
+		add("stationary_wall_px", summary.Num(at(c.StationaryWallPx)), errOf(c.StationaryWallErrPx), summary.Num(at(tc.StationaryWallPx)))
+		add("moving_wall_px", summary.Num(at(c.MovingWallPx)), errOf(c.MovingWallErrPx), summary.Num(at(tc.MovingWallPx)))
+		if c.ScaleSource == calib.ScaleGap {
+			add("um_per_px", summary.Num(c.UMPerPx), errOf(c.UMPerPxErr), summary.Num(tc.UMPerPx))
+		}
 	}
 	for i, tp := range truth.ShearPhases {
 		if i >= len(got.ShearPhases) {

@@ -26,6 +26,10 @@ type Shared struct {
 	GapUM float64
 	// FrameRateRel is the relative standard uncertainty of the frame rate.
 	FrameRateRel float64
+	// VelocityRel is the relative standard uncertainty of the tracked
+	// velocities themselves (a Type B evaluation of detection and linking;
+	// see profile.TrackingVelocityRel).
+	VelocityRel float64
 	// CommonUMPerS is the standard uncertainty of a velocity offset that
 	// every tracer of the profile shares (residual camera motion, codec or
 	// blur bias), um/s.
@@ -58,6 +62,7 @@ const (
 	inGap               // relative error of the gap
 	inRate              // relative error of the frame rate
 	inCommon            // common velocity offset, um/s
+	inVelocity          // relative error of the tracked velocities
 	nInputs
 )
 
@@ -70,7 +75,7 @@ const (
 // The measurement model: with a true stationary wall at a and a true
 // moving wall at H + m in measured heights, a true scale (1 + e) times the
 // one used, a true gap H (1 + g) and a true frame rate (1 + f) times the
-// one used, the true height of a layer is k (y - a), with k = H (1 + g) /
+// one used, and true velocities (1 + t) times the tracked ones, the true height of a layer is k (y - a), with k = H (1 + g) /
 // (H + m - a) for a scale from the gap and k = 1 + e otherwise, and its
 // true velocity k (1 + f) (v - c) for a shared offset c.
 func (d *Decomposition) Budget(bins []layers.Bin, sh Shared) (map[string]uncertainty.Contributions, error) {
@@ -91,6 +96,7 @@ func (d *Decomposition) Budget(bins []layers.Bin, sh Shared) (map[string]uncerta
 	}
 	in[inRate] = uncertainty.Input{Component: uncertainty.TimeBase, StdUnc: sh.FrameRateRel}
 	in[inCommon] = uncertainty.Input{Component: uncertainty.SharedMotion, StdUnc: sh.CommonUMPerS}
+	in[inVelocity] = uncertainty.Input{Component: uncertainty.Tracking, StdUnc: sh.VelocityRel}
 	var failed error
 	f := func(x []float64) []float64 {
 		y, err := d.perturbed(bins, x, sh.GapScale, names)
@@ -128,6 +134,7 @@ func (d *Decomposition) BudgetModel(bins []layers.Bin, sh Shared) (uncertainty.M
 		inGap:        {Component: uncertainty.Scale},
 		inRate:       {Component: uncertainty.TimeBase, StdUnc: sh.FrameRateRel},
 		inCommon:     {Component: uncertainty.SharedMotion, StdUnc: sh.CommonUMPerS},
+		inVelocity:   {Component: uncertainty.Tracking, StdUnc: sh.VelocityRel},
 	}
 	if sh.GapScale {
 		in[inMoving].StdUnc = sh.MovingWallUM
@@ -196,6 +203,7 @@ func (d *Decomposition) gapAdjustable() bool {
 // returns the quantities names.
 func (d *Decomposition) perturbed(bins []layers.Bin, x []float64, gapScale bool, names []string) ([]float64, error) {
 	a, m, e, g, f, c := x[inStationary], x[inMoving], x[inScale], x[inGap], x[inRate], x[inCommon]
+	f = (1+f)*(1+x[inVelocity]) - 1
 	h := d.GapUM
 	geom := d.geom
 	ht := h

@@ -34,6 +34,10 @@ const (
 	// SharedMotion is what every track of a frame shares: residual camera
 	// jitter, and codec or blur bias, measured on the recording itself.
 	SharedMotion = "shared_motion"
+	// Tracking is the bias detection and linking leave in the tracers'
+	// velocities and heights, evaluated (Type B, GUM 4.3) on renders with
+	// known truth.
+	Tracking = "tracking"
 )
 
 // Input is one input quantity of a measurement model: its best estimate,
