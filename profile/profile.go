@@ -58,6 +58,11 @@ type Options struct {
 	// null. The end of a shear phase whose source is neither "experiment"
 	// nor "log" is placed where the tracks stop (cessation.RefineStop).
 	Phases []phases.Phase
+	// VelocityRel is the relative standard uncertainty of the tracks'
+	// velocities that the tracker that made them leaves (a Type B
+	// evaluation of its bias, component "tracking" of the budgets); 0 for
+	// exact tracks.
+	VelocityRel float64
 	// EveryS, when positive, is the length of the time-resolved windows
 	// through every shear phase, s: their profiles go to the profile table
 	// and their decompositions to the phase's InTime. Zero leaves InTime
@@ -344,6 +349,7 @@ func Analyze(pts []tracks.Point, e *experiment.Experiment, c *calib.Calibration,
 		} else {
 			sh.Decomposition = d
 			shared := sharedErrors(c, gap)
+			shared.VelocityRel = o.VelocityRel
 			shared.CommonUMPerS = velocity.CommonOffsetErr(all, steady.T0S, steady.T1S, func(y float64) float64 { v, _ := d.FitAt(y); return v })
 			if math.IsNaN(shared.CommonUMPerS) {
 				shared.CommonUMPerS = 0
@@ -430,17 +436,10 @@ const windowEdgeTol = 1e-9
 // better than 1e-4 (common practice).
 const FrameRateRel = 1e-4
 
-// TrackingVelocityRel is the relative standard uncertainty of the tracked
-// velocities: a Type B evaluation (GUM 4.3) from the renders of the
-// coverage sweep (profile/pipeline BenchmarkCoverage, issue 12), where the
-// bulk rate, a slope the walls and the scale do not touch, lies up to
-// 0.6 %, in rms about 0.25 %, from the truth across codecs, blur and jitter.
-const TrackingVelocityRel = 0.003
-
 // sharedErrors returns the shared errors of the calibration c for a gap
 // of gapUM: unknown wall errors (walls given by hand) count as exact.
 func sharedErrors(c *calib.Calibration, gapUM float64) rheometry.Shared {
-	sh := rheometry.Shared{FrameRateRel: FrameRateRel, VelocityRel: TrackingVelocityRel}
+	sh := rheometry.Shared{FrameRateRel: FrameRateRel}
 	if c == nil {
 		return sh
 	}
