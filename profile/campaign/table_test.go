@@ -25,8 +25,10 @@ func phase(ratePerS, gapUM, f float64) summary.ShearPhase {
 		SlipLengthStationaryUM: summary.Null, SlipLengthStationaryErrUM: summary.Null,
 		SlipLengthMovingUM: 12.5, SlipLengthMovingErrUM: summary.Null,
 		SlipFraction: summary.Num(f), SlipFractionErr: 0.004, WallSlip: f > 0.02,
-		Bands:   []summary.Band{{FromUM: 0, ToUM: summary.Num(gapUM), RatePerS: summary.Num(ratePerS * (1 - f)), RateErrPerS: 0.01, ToErrUM: summary.Null}},
-		Verdict: rheometry.VerdictOf(f > 0.02, false)}
+		Bands:         []summary.Band{{FromUM: 0, ToUM: summary.Num(gapUM), RatePerS: summary.Num(ratePerS * (1 - f)), RateErrPerS: 0.01, ToErrUM: summary.Null}},
+		Verdict:       rheometry.VerdictOf(f > 0.02, false),
+		InTimeWindowS: summary.Null, InhomogeneityOnsetS: summary.Null, InhomogeneityOnsetErrS: summary.Null,
+		InhomogeneityOnsetStrain: summary.Null, PhaseStress: summary.NoStress}
 }
 
 // writeSummary writes a made-up summary.json for a row.
