@@ -9,6 +9,7 @@ import (
 	"encoding/csv"
 	"fmt"
 	"io"
+	"math"
 	"runtime"
 	"slices"
 	"strconv"
@@ -127,7 +128,7 @@ func ReadCSV(r io.Reader) ([]Point, error) {
 			}
 		}
 		if col[i] < 0 {
-			return nil, fmt.Errorf("tracks.csv: no column %q in header %v", name, head)
+			return nil, fmt.Errorf("tracks.csv: no column %q in header %q", name, head)
 		}
 	}
 	nearCol := slices.Index(head, Extra[0])
@@ -147,6 +148,9 @@ func ReadCSV(r io.Reader) ([]Point, error) {
 				return nil, fmt.Errorf("tracks.csv line %d: column %s: %q is not a number", line, Header[i], rec[c])
 			}
 		}
+		if err := checkRow(v); err != nil {
+			return nil, fmt.Errorf("tracks.csv line %d: %w", line, err)
+		}
 		p := Point{Track: int(v[0]), Frame: int(v[1]), TS: v[2], XPx: v[3], YPx: v[4],
 			XUM: v[5], YUM: v[6], Brightness: v[7], SizePx: v[8]}
 		if nearCol >= 0 {
@@ -161,4 +165,29 @@ func ReadCSV(r io.Reader) ([]Point, error) {
 		pts = append(pts, p)
 	}
 	return pts, nil
+}
+
+// MaxFrame is the largest frame index ReadCSV accepts: ten million frames,
+// a day at over a hundred frames/s; the stages after it keep a few numbers
+// per frame, so a larger index (a damaged file) would make them allocate
+// gigabytes.
+const MaxFrame = 10_000_000
+
+// checkRow reports a row of tracks.csv whose values cannot be a detection:
+// a track or frame that is not a whole number in range, or a time,
+// position, brightness or size that is not finite.
+func checkRow(v [9]float64) error {
+	whole := func(x float64) bool { return x == math.Trunc(x) }
+	switch {
+	case !whole(v[0]) || v[0] < Unlinked || v[0] > math.MaxInt32:
+		return fmt.Errorf("column track: %g is not a track number (a whole number, %d for none)", v[0], Unlinked)
+	case !whole(v[1]) || v[1] < 0 || v[1] > MaxFrame:
+		return fmt.Errorf("column frame: %g is not a frame index (a whole number from 0 to %d)", v[1], MaxFrame)
+	}
+	for i := 2; i < len(v); i++ {
+		if math.IsNaN(v[i]) || math.IsInf(v[i], 0) {
+			return fmt.Errorf("column %s: %g is not a finite number", Header[i], v[i])
+		}
+	}
+	return nil
 }
