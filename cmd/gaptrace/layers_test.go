@@ -134,3 +134,28 @@ func TestImportsPointDown(t *testing.T) {
 		}
 	}
 }
+
+// TestLowerFoldersDeps checks the design's two folder rules on everything
+// the packages build from (go list -deps): calib uses nothing of track or
+// profile, and track nothing of profile.
+func TestLowerFoldersDeps(t *testing.T) {
+	for _, c := range []struct {
+		folder    string
+		forbidden []string
+	}{
+		{"calib", []string{"gaptrace/track", "gaptrace/profile"}},
+		{"track", []string{"gaptrace/profile"}},
+	} {
+		out, err := exec.Command("go", "list", "-deps", "gaptrace/"+c.folder+"/...").Output()
+		if err != nil {
+			t.Fatalf("go list -deps %s: %v", c.folder, err)
+		}
+		for _, dep := range strings.Fields(string(out)) {
+			for _, f := range c.forbidden {
+				if dep == f || strings.HasPrefix(dep, f+"/") {
+					t.Errorf("%s builds from %s", c.folder, dep)
+				}
+			}
+		}
+	}
+}
