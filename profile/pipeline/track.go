@@ -233,7 +233,7 @@ func (r *Recording) linkAll(ctx context.Context, t *Tracked, dets [][]link.Detec
 	// which keeps only the fast part along the flow).
 	opt := link.Options{FPS: t.Info.FPS, MaxStepPx: link.MaxStepFor(v, t.Info.FPS, cal.UMPerPx),
 		GapFrames: link.DefaultGapFrames, MeasureCommonMode: !r.cfg.NoJitter, FrameTimesS: t.FrameTimesS}
-	pts, st, err := link.Link(dets, cal, opt)
+	pts, st, err := link.LinkContext(ctx, dets, cal, opt)
 	if err != nil {
 		return err
 	}

@@ -1,6 +1,8 @@
 package link
 
 import (
+	"context"
+	"errors"
 	"math"
 	"math/rand/v2"
 	"sort"
@@ -284,5 +286,17 @@ func TestLinkDense(t *testing.T) {
 		if lk.fracCorrect() < aims[ratio] {
 			t.Errorf("ratio %.1f: %.4f of links correct, aim %.2f", ratio, lk.fracCorrect(), aims[ratio])
 		}
+	}
+}
+
+// TestLinkContextCancelled checks that a cancelled context stops linking
+// with the context's error and no tracks.
+func TestLinkContextCancelled(t *testing.T) {
+	sm := detect(t, shear(t, "homogeneous", 0.5, 40, 0, 7), 7)
+	ctx, cancel := context.WithCancel(context.Background())
+	cancel()
+	pts, _, err := LinkContext(ctx, sm.frames, sm.cal, sm.options())
+	if !errors.Is(err, context.Canceled) || pts != nil {
+		t.Errorf("cancelled link: %d points, error %v; want none and context.Canceled", len(pts), err)
 	}
 }

@@ -1,6 +1,7 @@
 package link
 
 import (
+	"context"
 	"math"
 	"testing"
 
@@ -49,7 +50,7 @@ func TestSteadyCamera(t *testing.T) {
 				t.Fatal(err)
 			}
 			opt.Prior = prior
-			first, _, err := linkAll(sm.frames, sm.cal, opt)
+			first, _, err := linkAll(context.Background(), sm.frames, sm.cal, opt)
 			if err != nil {
 				t.Fatal(err)
 			}

@@ -1,6 +1,7 @@
 package link
 
 import (
+	"context"
 	"math"
 	"sort"
 
@@ -62,6 +63,12 @@ func priorWindow(frames [][]Detection) int {
 // pass when its RMS exceeds JitterMinRMSPx; Stats.CommonMode holds what was
 // removed.
 func Link(frames [][]Detection, cal *calib.Calibration, opt Options) ([]tracks.Point, Stats, error) {
+	return LinkContext(context.Background(), frames, cal, opt)
+}
+
+// LinkContext is Link that stops, with ctx's error, soon after ctx is
+// done: within cancelCheckFrames frames of either pass.
+func LinkContext(ctx context.Context, frames [][]Detection, cal *calib.Calibration, opt Options) ([]tracks.Point, Stats, error) {
 	if _, err := NewLinker(cal, opt); err != nil {
 		return nil, Stats{}, err
 	}
@@ -85,7 +92,7 @@ func Link(frames [][]Detection, cal *calib.Calibration, opt Options) ([]tracks.P
 				opt.Prior = s
 			}
 		}
-		first, firstSt, err := linkAll(frames, cal, opt)
+		first, firstSt, err := linkAll(ctx, frames, cal, opt)
 		if err != nil {
 			return nil, Stats{}, err
 		}
@@ -142,7 +149,10 @@ func Link(frames [][]Detection, cal *calib.Calibration, opt Options) ([]tracks.P
 			return first, firstSt, nil
 		}
 	}
-	pts, st, err := linkAll(frames, cal, opt)
+	if err := ctx.Err(); err != nil {
+		return nil, Stats{}, err
+	}
+	pts, st, err := linkAll(ctx, frames, cal, opt)
 	st.CommonMode = opt.CommonMode
 	return pts, st, err
 }
@@ -191,8 +201,12 @@ func priorsAgree(a, b flowprior.Field, tolPx float64) bool {
 	return true
 }
 
+// cancelCheckFrames is how often, in frames, a pass looks at its context:
+// a few milliseconds of linking, so that an interrupt stops it at once.
+const cancelCheckFrames = 64
+
 // linkAll runs one Linker over all frames.
-func linkAll(frames [][]Detection, cal *calib.Calibration, opt Options) ([]tracks.Point, Stats, error) {
+func linkAll(ctx context.Context, frames [][]Detection, cal *calib.Calibration, opt Options) ([]tracks.Point, Stats, error) {
 	l, err := NewLinker(cal, opt)
 	if err != nil {
 		return nil, Stats{}, err
@@ -205,6 +219,11 @@ func linkAll(frames [][]Detection, cal *calib.Calibration, opt Options) ([]track
 	}
 	l.done = make([]tracks.Point, 0, n)
 	for f, ds := range frames {
+		if f%cancelCheckFrames == 0 {
+			if err := ctx.Err(); err != nil {
+				return nil, Stats{}, err
+			}
+		}
 		if err := l.Add(f, ds); err != nil {
 			return nil, Stats{}, err
 		}
