@@ -137,6 +137,14 @@ func onsetWords(sp *summary.ShearPhase) string {
 	if known(num(sp.InhomogeneityOnsetStrain)) {
 		s += ", at a nominal strain of " + formatValue(num(sp.InhomogeneityOnsetStrain), "")
 	}
+	if pk := num(sp.StressPeakS); known(pk) {
+		d := num(sp.InhomogeneityOnsetS) - pk
+		rel := "after"
+		if d < 0 {
+			rel = "before"
+		}
+		s += "; that is " + formatPM(math.Abs(d), num(sp.InhomogeneityOnsetErrS), "s") + " " + rel + " the stress maximum of the rheometer's log"
+	}
 	return s + "."
 }
 
