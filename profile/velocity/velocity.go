@@ -398,12 +398,8 @@ func CommonOffsetErr(ss []Sample, t0S, t1S float64, fit func(yUM float64) float6
 		if len(b) < minBlockSamples || len(groups[k]) < minBlockTracks {
 			continue
 		}
-		m := medianOf(b)
-		dev := make([]float64, len(b))
-		for i, v := range b {
-			dev[i] = math.Abs(v - m)
-		}
-		s := madSigma * medianOf(dev)
+		m, mad := robust.MAD(b)
+		s := robust.MADToSigma * mad
 		meds = append(meds, m)
 		within += math.Pi / 2 * s * s / float64(len(groups[k]))
 	}
@@ -432,17 +428,3 @@ const (
 	minBlockTracks  = 10
 	minBlocks       = 4
 )
-
-// madSigma converts a median absolute deviation into a normal standard
-// deviation (Huber 1981, Robust Statistics).
-const madSigma = 1.4826
-
-// medianOf returns the median of v, reordering it.
-func medianOf(v []float64) float64 {
-	slices.Sort(v)
-	n := len(v)
-	if n%2 == 1 {
-		return v[n/2]
-	}
-	return (v[n/2-1] + v[n/2]) / 2
-}

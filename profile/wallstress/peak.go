@@ -5,6 +5,7 @@ import (
 	"slices"
 
 	"gaptrace/calib/rheolog"
+	"gaptrace/calib/robust"
 )
 
 // Peak is the stress maximum of one start-up phase. AfterStartS is the
@@ -33,9 +34,6 @@ const (
 	// samples does not place it.
 	peakFitDrop  = 0.01
 	peakFitNoise = 5.0
-	// madToSD turns the median absolute deviation of Gaussian noise into
-	// its standard deviation (1/0.6745; Hampel 1974, from memory).
-	madToSD = 1.4826
 )
 
 // FindPeak returns the stress maximum of the phase from startS to endS
@@ -153,11 +151,6 @@ func noiseSD(s []float64) float64 {
 	for k := range d {
 		d[k] = s[k+2] - 2*s[k+1] + s[k]
 	}
-	slices.Sort(d)
-	med := d[len(d)/2]
-	for k := range d {
-		d[k] = math.Abs(d[k] - med)
-	}
-	slices.Sort(d)
-	return madToSD * d[len(d)/2] / math.Sqrt(6)
+	_, mad := robust.MAD(d)
+	return robust.MADToSigma * mad / math.Sqrt(6)
 }
