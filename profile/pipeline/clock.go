@@ -76,3 +76,22 @@ func frameClock(src frames.Source, info frames.Info, n int) (timesS []float64, f
 	}
 	return ts, fps, warn
 }
+
+// inputNotes returns the warnings about the input itself once it was read
+// to the end: frames the container announces beyond the last one read (a
+// file cut short), and a display rotation that was applied.
+func inputNotes(src frames.Source, info frames.Info, n int) []string {
+	var warn []string
+	if c, ok := src.(frames.Counted); ok {
+		if k := c.Short(); k > 0 {
+			warn = append(warn, fmt.Sprintf("the video ends after %d frames, but its container announces %d: the last %d are lost (file truncated or damaged)", n, n+k, k))
+		}
+	}
+	switch r := info.RotationDeg; {
+	case r > 0:
+		warn = append(warn, fmt.Sprintf("the video asks to be turned by %d degrees for display: its frames were turned before the analysis", r))
+	case r < 0:
+		warn = append(warn, "the video's display matrix is not a rotation by a multiple of 90 degrees: it was not applied")
+	}
+	return warn
+}

@@ -1,8 +1,10 @@
 package pipeline
 
 import (
+	"bytes"
 	"context"
 	"math"
+	"os"
 	"os/exec"
 	"path/filepath"
 	"strings"
@@ -76,4 +78,54 @@ func TestVariableFrameRate(t *testing.T) {
 	if s.AfterStop.Verdict != cessation.Quiescent {
 		t.Logf("after the stop: %q (truth quiescent; see above)", s.AfterStop.Verdict)
 	}
+}
+
+// TestInputNotes renders a short MJPEG recording, cuts it at the start of
+// its last frame's chunk (AVI's 00dc before its idx1, Microsoft's AVI RIFF
+// File Reference), and checks that tracking it warns of the lost frame.
+func TestInputNotes(t *testing.T) {
+	dir := t.TempDir()
+	sc, err := synth.Builtin("homogeneous", 3)
+	if err != nil {
+		t.Fatal(err)
+	}
+	sc.Frames = 60
+	tr, err := sc.Write(dir, synth.Output{Format: synth.FormatMJPEG})
+	if err != nil {
+		t.Fatal(err)
+	}
+	path := tr.Summary.Input.Path
+	b, err := os.ReadFile(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	idx := bytes.LastIndex(b, []byte("idx1"))
+	last := bytes.LastIndex(b[:max(idx, 0)], []byte("00dc"))
+	if idx < 0 || last < 0 {
+		t.Fatal("no index or frame chunk in the AVI file")
+	}
+	if err := os.WriteFile(path, b[:last], 0o644); err != nil {
+		t.Fatal(err)
+	}
+	exp, err := experiment.Load(filepath.Join(dir, synth.ExperimentFile))
+	if err != nil {
+		t.Fatal(err)
+	}
+	cfg := Config{Experiment: exp, ExperimentDir: dir, Input: path}
+	rec, err := Open(context.Background(), cfg)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer rec.Close()
+	tk, err := rec.Track(context.Background())
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, w := range tk.Warnings {
+		if strings.Contains(w, "the last 1 are lost") {
+			t.Logf("%s", w)
+			return
+		}
+	}
+	t.Errorf("no warning of the lost frame among %q", tk.Warnings)
 }

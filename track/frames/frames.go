@@ -49,6 +49,19 @@ type Info struct {
 	RotationDeg int
 }
 
+// Counted is a video whose container announces its number of frames (the
+// MP4/QuickTime frame table, else the container's header, which some
+// containers estimate from the duration). A video that ends earlier is
+// truncated or damaged: Next returns an error when it ends well before the
+// count and io.EOF when it ends within a frame or two of it (or 1 %), and
+// Short then tells how many frames were lost.
+type Counted interface {
+	// Short returns the number of frames the container announces beyond
+	// the last one read, once Next has returned io.EOF; 0 before then, or
+	// when nothing is missing.
+	Short() int
+}
+
 // Timed is a Source that knows when each frame was taken. Videos are
 // Timed: from the container's table of frame times where it has one (MP4,
 // QuickTime), else from the time the reader gives each frame as it decodes
@@ -301,6 +314,8 @@ type video struct {
 	posS   []float64
 	pos0S  float64
 	posBad bool
+	// short is how many frames the container announced beyond the end.
+	short int
 }
 
 // probe reads the first frame of a fresh capture to learn the size and
@@ -466,6 +481,9 @@ func openCapture(path string, jpeg bool) (*video, error) {
 
 func (v *video) Info() Info { return v.info }
 
+// Short implements Counted.
+func (v *video) Short() int { return v.short }
+
 // FrameTimesS implements Timed.
 func (v *video) FrameTimesS() []float64 {
 	if v.listed != nil {
@@ -518,6 +536,7 @@ func (v *video) advance() (int, error) {
 			if v.info.Frames >= 0 && v.next < v.info.Frames-countSlack(v.info.Frames) {
 				return 0, fmt.Errorf("frames: %s: cannot read frame %d of %d (file truncated or damaged)", v.info.Path, v.next, v.info.Frames)
 			}
+			v.short = max(v.info.Frames-v.next, len(v.listed)-v.next, 0)
 			return 0, io.EOF
 		}
 		v.notePosition()

@@ -1,6 +1,7 @@
 package frames
 
 import (
+	"bytes"
 	"errors"
 	"fmt"
 	"gaptrace/track/matleak"
@@ -564,5 +565,51 @@ func TestMedianPackets(t *testing.T) {
 		if fmt.Sprint(meds[0]) != fmt.Sprint(meds[1]) {
 			t.Errorf("max %d frames: median from packets differs from the median by Next", maxFrames)
 		}
+	}
+}
+
+// TestVideoShortByAFrame cuts an MJPEG AVI at the start of its last
+// frame's chunk (its last 1 %, index included): the reader ends a frame
+// early without an error, within the slack some containers need, and Short
+// says one frame was lost (issue 18: a file truncated at 99 % was read
+// without a word). The chunk is found by its id, 00dc, before the index,
+// idx1 (Microsoft's AVI RIFF File Reference).
+func TestVideoShortByAFrame(t *testing.T) {
+	const w, h, n = 64, 48, 100
+	path := filepath.Join(t.TempDir(), "short.avi")
+	writeVideo(t, path, "MJPG", n, w, h)
+	b, err := os.ReadFile(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	idx := bytes.LastIndex(b, []byte("idx1"))
+	last := bytes.LastIndex(b[:max(idx, 0)], []byte("00dc"))
+	if idx < 0 || last < 0 {
+		t.Fatal("no index or frame chunk in the AVI file")
+	}
+	if err := os.WriteFile(path, b[:last], 0o644); err != nil {
+		t.Fatal(err)
+	}
+	s, err := Open(path, 0, All)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer s.Close()
+	m := gocv.NewMat()
+	defer m.Close()
+	read := 0
+	for {
+		if _, err = s.Next(&m); err != nil {
+			break
+		}
+		read++
+	}
+	c, ok := s.(Counted)
+	if !ok {
+		t.Fatal("a video is not Counted")
+	}
+	t.Logf("read %d of %d frames (%v), short by %d; the container announces %d", read, n, err, c.Short(), s.Info().Frames)
+	if !errors.Is(err, io.EOF) || read >= n || c.Short() != n-read {
+		t.Errorf("read %d of %d frames, Short %d, want %d", read, n, c.Short(), n-read)
 	}
 }

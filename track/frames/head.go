@@ -292,6 +292,15 @@ func (h *Head) take(dst *gocv.Mat) (index int, ok bool, err error) {
 // Info describes the input.
 func (h *Head) Info() Info { return h.info }
 
+// Short implements Counted with the source's count (0 when the source
+// announces none).
+func (h *Head) Short() int {
+	if c, ok := h.src.(Counted); ok {
+		return c.Short()
+	}
+	return 0
+}
+
 // FrameTimesS implements Timed with the source's times (nil when the
 // source has none). It must not be called while reading ahead.
 func (h *Head) FrameTimesS() []float64 {
