@@ -19,6 +19,11 @@ import (
 // checks it against gonum's normal quantile.
 const MADToSigma = 1.4826
 
+// HuberK is the tuning constant of Huber's M-estimator, in robust standard
+// deviations: residuals beyond it are down-weighted, for 95 % efficiency
+// at the normal distribution (Huber 1981, Robust Statistics; from memory).
+const HuberK = 1.345
+
 // smallN is the length up to which Median works on a copy on the stack.
 const smallN = 64
 

@@ -505,10 +505,6 @@ func (r *Result) final(placed []placedTracer, o Options) {
 // mislinked tracer.
 const huberRounds = 3
 
-// huberK is the Huber tuning constant, in robust standard deviations
-// (Huber 1981, Robust Statistics; from memory).
-const huberK = 1.345
-
 // fitPicture fits the standard picture to the tracers' final displacements:
 // a straight line, and a straight line with one jump inside the gap; the
 // jump is kept when it lowers the Bayesian information criterion (Schwarz
@@ -566,8 +562,8 @@ func fitPicture(fin []TracerDisplacement, gapUM, floorUM float64) (Picture, erro
 		}
 		for i := range w {
 			w[i] = 1
-			if res[i] > huberK*s {
-				w[i] = huberK * s / res[i]
+			if res[i] > robust.HuberK*s {
+				w[i] = robust.HuberK * s / res[i]
 			}
 		}
 	}
@@ -779,7 +775,7 @@ func (r *Result) amplitude(placed []placedTracer, o Options) {
 			for _, x := range b {
 				res = append(res, math.Abs(x.dx-a*x.s))
 			}
-			c := huberK * math.Max(r.NoiseFloorUM, robust.MADToSigma*robust.Median(res))
+			c := robust.HuberK * math.Max(r.NoiseFloorUM, robust.MADToSigma*robust.Median(res))
 			if !(c > 0) {
 				break
 			}

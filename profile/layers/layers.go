@@ -73,11 +73,6 @@ type Bin struct {
 // Known reports whether the layer has a value.
 func (b Bin) Known() bool { return !math.IsNaN(b.Value) }
 
-// HuberK is the tuning constant of the Huber M-estimator in units of the
-// robust scale: 95% efficiency at the normal distribution (Huber 1981,
-// Robust Statistics; from memory).
-const HuberK = 1.345
-
 // huberIter iterations of reweighting bring the M-estimate to well below a
 // hundredth of its standard error from a median start.
 const huberIter = 8
@@ -163,7 +158,7 @@ func (e *estimator) bin(obs []Obs, o Options, rng *rand.Rand) Bin {
 	}
 	e.start = append(e.start, len(obs))
 	ng := b.Groups
-	e.wts = resize(e.wts, len(obs))
+	e.wts = slices.Grow(e.wts[:0], len(obs))[:len(obs)]
 	for i := range e.wts {
 		e.wts[i] = 1
 	}
@@ -173,8 +168,8 @@ func (e *estimator) bin(obs []Obs, o Options, rng *rand.Rand) Bin {
 	// Ann. Statist. 30:556; from memory): each replicate takes one Newton step from the
 	// full-sample estimate, mu* = mu + sum psi(r) / sum psi'(r) over the
 	// resampled tracks, so per-track sums of psi and psi' are all it needs.
-	e.psi, e.dpsi = resize(e.psi, ng), resize(e.dpsi, ng)
-	c := HuberK * scale
+	e.psi, e.dpsi = slices.Grow(e.psi[:0], ng)[:ng], slices.Grow(e.dpsi[:0], ng)[:ng]
+	c := robust.HuberK * scale
 	for g := range ng {
 		var p, d float64
 		for i := e.start[g]; i < e.start[g+1]; i++ {
@@ -193,7 +188,7 @@ func (e *estimator) bin(obs []Obs, o Options, rng *rand.Rand) Bin {
 		}
 		e.psi[g], e.dpsi[g] = p, d
 	}
-	e.mult = resize(e.mult, ng)
+	e.mult = slices.Grow(e.mult[:0], ng)[:ng]
 	var s, s2 float64
 	for range o.Replicates {
 		clear(e.mult)
@@ -241,7 +236,7 @@ func dofFactor(ng int, trend bool) float64 {
 // median, both weighted by wts.
 func (e *estimator) weightedMAD() float64 {
 	m := e.weightedMedian(e.vals)
-	e.scratch = resize(e.scratch, len(e.vals))
+	e.scratch = slices.Grow(e.scratch[:0], len(e.vals))[:len(e.vals)]
 	for i, v := range e.vals {
 		e.scratch[i] = math.Abs(v - m)
 	}
@@ -285,7 +280,7 @@ func (e *estimator) huber(scale, mu float64) float64 {
 	if !(scale > 0) {
 		return mu
 	}
-	c := HuberK * scale
+	c := robust.HuberK * scale
 	for range huberIter {
 		var sw, swx float64
 		for i, v := range e.vals {
@@ -302,11 +297,4 @@ func (e *estimator) huber(scale, mu float64) float64 {
 		mu = swx / sw
 	}
 	return mu
-}
-
-func resize(b []float64, n int) []float64 {
-	if cap(b) < n {
-		return make([]float64, n)
-	}
-	return b[:n]
 }
