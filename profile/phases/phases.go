@@ -13,6 +13,7 @@ import (
 	"math"
 
 	"gaptrace/calib/experiment"
+	"gaptrace/calib/robust"
 )
 
 // Phase kinds.
@@ -139,4 +140,30 @@ func shears(ph []Phase) []Phase {
 		}
 	}
 	return s
+}
+
+// ClockShift returns the offset, s, to add to the times of the phases
+// logged (a rheometer log's, on its own clock) to put them on the video's
+// clock, when the video's detected phases show the same shear phases all
+// shifted alike: as many shear phases, every start and end off by the same
+// amount to within MaxDisagreeFrames frames, and that amount more than
+// MaxDisagreeFrames frames. ok is false otherwise (the clocks agree, or the
+// two disagree in more than a constant offset).
+func ClockShift(logged, detected []Phase, fps float64) (shiftS float64, ok bool) {
+	ls, ds := shears(logged), shears(detected)
+	if len(ls) == 0 || len(ls) != len(ds) || !(fps > 0) {
+		return 0, false
+	}
+	var diffs []float64
+	for i := range ls {
+		diffs = append(diffs, ds[i].StartS-ls[i].StartS, ds[i].EndS-ls[i].EndS)
+	}
+	m := robust.Median(diffs)
+	tol := MaxDisagreeFrames / fps
+	for _, d := range diffs {
+		if math.Abs(d-m) > tol {
+			return 0, false
+		}
+	}
+	return m, math.Abs(m) > tol
 }

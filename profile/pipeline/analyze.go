@@ -41,6 +41,7 @@ func Analyze(ctx context.Context, cfg Config, t *Tracked) (*Analysis, error) {
 		return nil, err
 	}
 	t.Warnings = append(t.Warnings, warn...)
+	cfg = t.logConfig(cfg)
 	cfg.report(StageProfile, 0, 1)
 	opt := profile.Options{Bins: cfg.Bins, Windows: cfg.Windows, EveryS: cfg.EveryS, Seed: cfg.Seed, Phases: t.Phases, Log: cfg.Log,
 		VelocityRel: TrackingVelocityRel}

@@ -3,11 +3,14 @@ package pipeline
 import (
 	"context"
 	"errors"
+	"math"
+	"os"
 	"os/exec"
 	"path/filepath"
 	"testing"
 
 	"gaptrace/calib/experiment"
+	"gaptrace/calib/rheolog"
 	"gaptrace/track/synth"
 )
 
@@ -139,5 +142,59 @@ func TestStartUpOnsetThroughCodecs(t *testing.T) {
 				t.Errorf("first departure %v, want bands", sp.InhomogeneityFirst)
 			}
 		})
+	}
+}
+
+// TestLogClockFromTheVideo renders synth's start-up with its rheometer log
+// 1.25 s off the video's clock (the scenario's ClockOffsetS) and gives the
+// log without --log-offset: the offset must be found from the wall motion
+// to within a quarter frame, the phases put on the video's clock, the
+// sample found quiescent after the stop (a stop a frame late reads as the
+// wall's travel in a frame), and the stress maximum placed within one log
+// sample of the renderer's.
+func TestLogClockFromTheVideo(t *testing.T) {
+	const quarterFrame = 0.25
+	dir := t.TempDir()
+	sc, err := synth.Builtin("startup-bands", 5)
+	if err != nil {
+		t.Fatal(err)
+	}
+	truth, err := sc.Write(dir, synth.Output{Format: synth.FormatMJPEG})
+	if err != nil {
+		t.Fatal(err)
+	}
+	exp, err := experiment.Load(filepath.Join(dir, synth.ExperimentFile))
+	if err != nil {
+		t.Fatal(err)
+	}
+	f, err := os.Open(filepath.Join(dir, "rheometer_log.csv"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer f.Close()
+	lg, err := rheolog.Read(f, rheolog.Spec{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	a, err := Run(context.Background(), Config{Experiment: exp, ExperimentDir: dir, Input: truth.Summary.Input.Path, Log: lg, Seed: 5})
+	if err != nil {
+		t.Fatal(err)
+	}
+	want := -sc.Log.ClockOffsetS
+	got := a.Tracked.LogShiftS
+	t.Logf("log clock shift %.4f s found, %.4f s rendered; warnings %q", got, want, a.Summary.Warnings)
+	if math.Abs(got-want) > quarterFrame/sc.FPS {
+		t.Errorf("log clock shift %.4f s, want %.4f s within a quarter frame", got, want)
+	}
+	if as := a.Summary.AfterStop; as == nil || as.Verdict != "quiescent" {
+		t.Errorf("after the stop: %+v, want quiescent", as)
+	}
+	sp := a.Summary.ShearPhases[0]
+	peak := sp.StartS + float64(sp.StressPeakS)
+	step := truth.Steps[0]
+	logSample := 1 / sc.Log.RateHz
+	t.Logf("stress maximum at %.4f s, rendered at %.4f s (log sample %.3f s)", peak, float64(step.StressPeakS), logSample)
+	if !sp.StressPeakS.Known() || math.Abs(peak-float64(step.StressPeakS)) > logSample {
+		t.Errorf("stress maximum at %.4f s, rendered at %.4f s: more than one log sample (%.3f s) apart", peak, float64(step.StressPeakS), logSample)
 	}
 }

@@ -10,8 +10,11 @@ import (
 
 	"gaptrace/calib"
 	"gaptrace/calib/experiment"
+	"gaptrace/calib/robust"
 	"gaptrace/calib/walls"
+	"gaptrace/profile/cessation"
 	"gaptrace/profile/phases"
+	"gaptrace/profile/velocity"
 	"gaptrace/track/detect"
 	"gaptrace/track/frames"
 	"gaptrace/track/link"
@@ -62,6 +65,12 @@ type Tracked struct {
 	// Phases, when not nil, are phases found in the video to use instead of
 	// the motion program's (which has none).
 	Phases []phases.Phase
+	// LogShiftS is the offset, s, added to the rheometer log's times (on
+	// top of any the Config's log already has) to put its phases on the
+	// video's clock, found from the wall motion in the video
+	// (phases.ClockShift); 0 when the clocks agreed or could not be
+	// compared.
+	LogShiftS float64
 	// Warnings are doubts raised on the way, for the summary.
 	Warnings []string
 }
@@ -281,6 +290,21 @@ func (t *Tracked) findPhases(cfg *Config, prog experiment.Program) {
 		}
 	}
 	durS := t.durationS()
+	if cfg.Log != nil {
+		logged := cfg.programPhases(prog, durS)
+		if sh, ok := phases.ClockShift(logged, det.Phases, t.Info.FPS); ok {
+			sh = t.refineShift(logged, sh)
+			t.LogShiftS = sh
+			c := t.logConfig(*cfg)
+			if p, err := c.program(); err == nil {
+				prog = p
+				t.Warnings = append(t.Warnings, fmt.Sprintf("phases: every shear phase of the rheometer log starts and ends %.3f s (%+.1f frames) %s than the video shows: "+
+					"the log's clock is taken to be off by that much and its times are shifted by %+.3f s; give --log-offset to set the offset yourself",
+					math.Abs(sh), sh*t.Info.FPS, map[bool]string{true: "earlier", false: "later"}[sh > 0], sh))
+				cfg = &c
+			}
+		}
+	}
 	use, warn := phases.Reconcile(cfg.programPhases(prog, durS), det.Phases, t.Info.FPS)
 	t.Warnings = append(t.Warnings, warn...)
 	if len(prog) == 0 {
@@ -295,11 +319,56 @@ func (t *Tracked) PhasesFor(cfg Config) []phases.Phase {
 	if t.Phases != nil {
 		return t.Phases
 	}
+	cfg = t.logConfig(cfg)
 	prog, err := cfg.program()
 	if err != nil || !(t.Info.FPS > 0) {
 		return nil
 	}
 	return cfg.programPhases(prog, float64(t.Info.Frames)/t.Info.FPS)
+}
+
+// refineShift sharpens the clock shift sh between the logged phases and
+// the video (found to about a frame from the detected phases): each logged
+// shear phase's end, shifted, is placed where the tracks stop
+// (cessation.RefineStop, to a fraction of a frame) and the median of those
+// offsets is taken. A stop placed a frame late would otherwise show as a
+// displacement after cessation of the wall's travel in a frame. sh is
+// returned as it is when no stop can be refined.
+func (t *Tracked) refineShift(logged []phases.Phase, sh float64) float64 {
+	ts := velocity.Group(t.Points)
+	dt := 1 / t.Info.FPS
+	sigma, err := velocity.NoiseUM(ts)
+	if err != nil {
+		return sh
+	}
+	var offs []float64
+	for _, p := range logged {
+		if p.Kind != phases.Shear {
+			continue
+		}
+		if stop, err := cessation.RefineStop(ts, p.EndS+sh, dt, sigma); err == nil {
+			offs = append(offs, stop-p.EndS)
+		}
+	}
+	if len(offs) == 0 {
+		return sh
+	}
+	return robust.Median(offs)
+}
+
+// logConfig returns cfg with its rheometer log on the video's clock: its
+// times shifted by LogShiftS (cfg's own log is left as it is).
+func (t *Tracked) logConfig(cfg Config) Config {
+	if cfg.Log == nil || t.LogShiftS == 0 {
+		return cfg
+	}
+	l := *cfg.Log
+	l.TimeS = make([]float64, len(cfg.Log.TimeS))
+	for i, v := range cfg.Log.TimeS {
+		l.TimeS[i] = v + t.LogShiftS
+	}
+	cfg.Log = &l
+	return cfg
 }
 
 // WriteTracks writes the tracks as tracks.csv (package tracks).
