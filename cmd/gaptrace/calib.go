@@ -9,7 +9,6 @@ import (
 
 	"gaptrace/calib/atomicfile"
 	"gaptrace/profile/phases"
-	"gaptrace/profile/pipeline"
 )
 
 func init() {
@@ -34,25 +33,12 @@ func runCalib(ctx context.Context, args []string, stderr io.Writer) error {
 		return badInputf("calib needs one INPUT (video, folder or glob of frames), got %d", fs.NArg())
 	}
 	o.input = fs.Arg(0)
-	exp, err := loadExperiment(o.expPath)
+	sr, err := o.openStage(ctx, *outDir, stderr, calibrationName, calibrationPNGName)
 	if err != nil {
 		return err
 	}
-	if err := o.loadLog(exp); err != nil {
-		return err
-	}
-	cfg := o.config(exp, stderr)
-	od, err := holdOutDir(*outDir, false, false, stderr)
-	if err != nil {
-		return err
-	}
-	defer od.release()
-	removeStale(*outDir, calibrationName, calibrationPNGName)
-	rec, err := pipeline.Open(ctx, cfg)
-	if err != nil {
-		return stageErr(err)
-	}
-	defer rec.Close()
+	defer sr.close()
+	exp, rec := sr.exp, sr.rec
 	if o.rheoLog != nil {
 		fmt.Fprintf(stderr, "calib: log %s: %s\n", o.log.path, describeLog(o.rheoLog))
 	}

@@ -51,6 +51,44 @@ func (o stageOptions) config(exp *experiment.Experiment, stderr io.Writer) pipel
 		NoJitter: o.noJitter, Log: o.rheoLog, Progress: newStageProgress(stderr, o.progress)}
 }
 
+// openStage is the common start of the stages that read the recording:
+// the experiment file and the log, the output folder held (its lock) with
+// the stage's own earlier files names removed, and the recording opened.
+// The caller releases the folder and closes the recording.
+func (o *stageOptions) openStage(ctx context.Context, dir string, stderr io.Writer, names ...string) (*stageRun, error) {
+	exp, err := loadExperiment(o.expPath)
+	if err != nil {
+		return nil, err
+	}
+	if err := o.loadLog(exp); err != nil {
+		return nil, err
+	}
+	r := &stageRun{exp: exp, cfg: o.config(exp, stderr)}
+	if r.od, err = holdOutDir(dir, false, false, stderr); err != nil {
+		return nil, err
+	}
+	removeStale(dir, names...)
+	if r.rec, err = pipeline.Open(ctx, r.cfg); err != nil {
+		r.od.release()
+		return nil, stageErr(err)
+	}
+	return r, nil
+}
+
+// stageRun is what openStage opened.
+type stageRun struct {
+	exp *experiment.Experiment
+	cfg pipeline.Config
+	od  *outDir
+	rec *pipeline.Recording
+}
+
+// close closes the recording and releases the output folder.
+func (r *stageRun) close() {
+	r.rec.Close()
+	r.od.release()
+}
+
 // stageErr maps an error of the pipeline to the command's: an input error
 // is bad input (exit status 2); a cancellation stays one, for main to
 // report as an interruption.

@@ -7,7 +7,6 @@ import (
 	"path/filepath"
 
 	"gaptrace/calib/atomicfile"
-	"gaptrace/profile/pipeline"
 	"gaptrace/track/tracks"
 )
 
@@ -41,26 +40,13 @@ func runTrack(ctx context.Context, args []string, stderr io.Writer) error {
 		}
 		defer stop()
 	}
-	exp, err := loadExperiment(o.expPath)
+	sr, err := o.openStage(ctx, *outDir, stderr, tracksName, calibrationName)
 	if err != nil {
 		return err
 	}
-	if err := o.loadLog(exp); err != nil {
-		return err
-	}
-	cfg := o.config(exp, stderr)
-	od, err := holdOutDir(*outDir, false, false, stderr)
-	if err != nil {
-		return err
-	}
-	defer od.release()
-	removeStale(*outDir, tracksName, calibrationName)
-	rec, err := pipeline.Open(ctx, cfg)
-	if err != nil {
-		return stageErr(err)
-	}
-	defer rec.Close()
-	t, err := rec.Track(ctx)
+	defer sr.close()
+	cfg := sr.cfg
+	t, err := sr.rec.Track(ctx)
 	if err != nil {
 		return stageErr(err)
 	}
