@@ -99,7 +99,7 @@ func inTimeWindows(st experiment.Step, everyS float64, n int) []Window {
 
 // timeResolved decomposes the windows of everyS through the shear step st
 // (phase n), from the tracks' own samples inside each window.
-func (r *Result) timeResolved(ts []velocity.Track, st experiment.Step, g geometry.Geometry, everyS float64, o Options, sigma float64, n int) []InTime {
+func (r *Result) timeResolved(ts []velocity.Track, st experiment.Step, g geometry.Geometry, everyS float64, o Options, sigma float64, n int, shared rheometry.Shared) []InTime {
 	gap := g.Gap()
 	var out []InTime
 	var own []velocity.Sample
@@ -120,6 +120,14 @@ func (r *Result) timeResolved(ts []velocity.Track, st experiment.Step, g geometr
 		if err != nil {
 			r.Warnings = append(r.Warnings, fmt.Sprintf("shear phase %d: the window %.3f-%.3f s has no profile to fit (%v); it is left out", n, w.T0S, w.T1S, err))
 			continue
+		}
+		sw := shared
+		sw.CommonUMPerS = velocity.CommonOffsetErr(own, w.T0S, w.T1S, func(y float64) float64 { v, _ := d.FitAt(y); return v })
+		if math.IsNaN(sw.CommonUMPerS) {
+			sw.CommonUMPerS = 0
+		}
+		if b, err := d.Budget(bins, sw); err == nil {
+			d.ApplyBudget(b)
 		}
 		it.Decomposition = d
 		out = append(out, it)
@@ -224,14 +232,19 @@ func samplesPerSecond(p WindowProfile, durationS float64) []float64 {
 // inTime runs the time-resolved windows of shear phase n (sh, sp), whose
 // whole-phase profile is whole, and fills in the onset; the windows go to
 // the profile table and the summary only when asked for (o.EveryS).
-func (r *Result) inTime(sh *Shear, sp *summary.ShearPhase, ts []velocity.Track, whole WindowProfile, g geometry.Geometry, o Options, sigma float64, n int) {
+//
+// Each window's errors combine, like the steady window's, the statistical
+// scatter with the errors every track shares (shared: the calibration's;
+// the motion the tracks share is measured in each window).
+func (r *Result) inTime(sh *Shear, sp *summary.ShearPhase, ts []velocity.Track, whole WindowProfile, g geometry.Geometry, o Options, sigma float64, n int, shared rheometry.Shared) {
 	st := sh.Step
 	sh.EveryS = o.EveryS
 	if !(sh.EveryS > 0) {
 		sh.EveryS = DefaultEveryS(samplesPerSecond(whole, st.DurationS()), r.FrameIntervalS, st.DurationS())
 	}
 	sp.InTimeWindowS = summary.Num(sh.EveryS)
-	sh.InTime = r.timeResolved(ts, st, g, sh.EveryS, o, sigma, n)
+	shared.VelocityRel = o.VelocityRel
+	sh.InTime = r.timeResolved(ts, st, g, sh.EveryS, o, sigma, n, shared)
 	if sh.Onset = onsetOf(sh.InTime, st, r.FrameIntervalS); sh.Onset != nil {
 		sp.InhomogeneityOnsetS, sp.InhomogeneityOnsetErrS = summary.Num(sh.Onset.AfterStartS), summary.Num(sh.Onset.ErrS)
 		sp.InhomogeneityOnsetStrain = summary.Num(sh.Onset.Strain)

@@ -389,7 +389,7 @@ func Analyze(pts []tracks.Point, e *experiment.Experiment, c *calib.Calibration,
 			return nil, err
 		}
 		sh.LocalStrain = localStrain(whole.Bins, geom, st.DurationS())
-		r.inTime(&sh, &sp, ts, whole, geom, o, sigma, n)
+		r.inTime(&sh, &sp, ts, whole, geom, o, sigma, n, sharedErrors(c, gap))
 		sh.Summary = sp
 		r.Shear = append(r.Shear, sh)
 		r.ShearPhases = append(r.ShearPhases, sp)
