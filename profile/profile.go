@@ -170,6 +170,8 @@ type Result struct {
 	Profiles       []WindowProfile // every window: steady, user, map
 	Map            SpaceTime
 	Cessation      *cessation.Result
+
+	cal *calib.Calibration // the calibration analysed with, for the budgets
 }
 
 // Analyze analyses the tracks pts of experiment e with calibration c.
@@ -214,7 +216,7 @@ func Analyze(pts []tracks.Point, e *experiment.Experiment, c *calib.Calibration,
 	for _, p := range pts {
 		t0, t1 = math.Min(t0, p.TS), math.Max(t1, p.TS)
 	}
-	r := &Result{NoiseUM: sigma, FrameIntervalS: dt, Warnings: append([]string{}, warn...)}
+	r := &Result{cal: c, NoiseUM: sigma, FrameIntervalS: dt, Warnings: append([]string{}, warn...)}
 	prog := e.Program()
 	if o.Program != nil {
 		prog = o.Program
@@ -567,6 +569,13 @@ func (r *Result) refineStops(ts []velocity.Track, steps []experiment.Step, dt, s
 	}
 }
 
+// StopTimingFrames is the standard uncertainty, in frames, of a stop
+// that the experiment file gives: a Type B evaluation (GUM 4.3) from the
+// coverage sweep (profile/pipeline BenchmarkCoverage), where the recovered
+// strain of quiescent renders, which an error of the stop's time turns
+// into rate x error, lies within 0.03 frame of the truth.
+const StopTimingFrames = 0.05
+
 // stopNoteFrames is the least move of a stop, in frames, worth a warning:
 // less is within what a detection in the video promises.
 const stopNoteFrames = 0.25
@@ -676,23 +685,59 @@ func (r *Result) afterStop(ts []velocity.Track, steps []experiment.Step, o Optio
 	if len(r.Phases) > 0 && r.Phases[0].Kind == phases.Rest {
 		co.RestS = [2]float64{r.Phases[0].StartS, r.Phases[0].EndS}
 	}
+	// The shared errors of the after-stop analysis: the stationary wall
+	// (heights are measured from it), the scale, the tracker's bias and
+	// the stop's time: to StopTimingFrames of a frame when the experiment
+	// file gives it, else to a quarter frame as found in the tracks.
+	sh := sharedErrors(r.cal, gap)
+	co.WallUM, co.VelocityRel = sh.StationaryWallUM, o.VelocityRel
+	if sh.GapScale {
+		co.ScaleRel = math.Hypot(sh.StationaryWallUM, sh.MovingWallUM) / gap
+	} else {
+		co.ScaleRel = sh.ScaleRel
+	}
+	co.StopErrS = StopTimingFrames * dt
+	for _, ph := range r.Phases {
+		if ph.Kind == phases.Shear && ph.EndS == st.EndS && ph.Source != phases.SourceExperiment {
+			co.StopErrS = stopNoteFrames * dt
+		}
+	}
+	co.RatePerS = st.RatePerS
+	if len(r.Shear) > 0 && r.Shear[len(r.Shear)-1].Decomposition != nil {
+		co.RatePerS = r.Shear[len(r.Shear)-1].Decomposition.BulkRatePerS
+	}
+	if math.IsNaN(co.RatePerS) {
+		co.RatePerS = 0
+	}
 	c, err := cessation.Analyze(ts, co)
 	if err != nil {
 		r.Warnings = append(r.Warnings, fmt.Sprintf("after the stop at %g s: %v", st.EndS, err))
 		return nil
 	}
 	r.Cessation = c
-	a := &summary.AfterStop{StopS: c.StopS, ObservedS: c.ObservedS, NoiseFloorUM: summary.Num(c.NoiseFloorUM),
+	a := &summary.AfterStop{StopS: c.StopS, ObservedS: c.ObservedS, NoiseFloorUM: summary.Num(c.FloorUM),
 		MaxDisplacementUM: summary.Num(c.MaxDisplacementUM), RecoveredStrain: summary.Num(c.RecoveredStrain),
 		Verdict: c.Verdict(), PlaneUM: summary.Null, OnsetAfterStopS: summary.Null,
-		PlaneErrUM: summary.Null, OnsetAfterStopErrS: summary.Null, RecoveredStrainErr: summary.Num(c.RecoveredStrainErr)}
+		PlaneErrUM: summary.Null, OnsetAfterStopErrS: summary.Null, RecoveredStrainErr: summary.Num(c.RecoveredStrainErr),
+		Budget: summary.Budget{}}
+	for q, comp := range c.Budget {
+		m := map[string]summary.Num{}
+		for k, u := range comp {
+			m[k] = summary.Num(u)
+		}
+		a.Budget[q] = m
+	}
 	if c.Moving {
 		mode := c.Mode
 		a.Mode = &mode
-		a.OnsetAfterStopS = summary.Num(c.OnsetAfterStopS)
+		a.OnsetAfterStopS, a.OnsetAfterStopErrS = summary.Num(c.OnsetAfterStopS), summary.Num(c.OnsetAfterStopErrS)
 		if c.Mode == cessation.ModeBulk {
-			a.PlaneUM = summary.Num(c.Picture.PlaneUM)
+			a.PlaneUM, a.PlaneErrUM = summary.Num(c.Picture.PlaneUM), summary.Num(c.PlaneErrUM)
 		}
+	}
+	if !c.Moving && c.WallSigma > cessation.FloorSigma {
+		r.Warnings = append(r.Warnings, fmt.Sprintf("after the stop: the displacement at a wall reaches %.1f standard uncertainties, "+
+			"above the noise floor but short of the %d needed to call it motion: the data cannot decide; the verdict stays quiescent", c.WallSigma, cessation.MovingSigma))
 	}
 	r.AfterStop = a
 	return nil

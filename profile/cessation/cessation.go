@@ -33,6 +33,16 @@ type Options struct {
 	// RestS, when its end exceeds its start, is a quiet interval (the rest
 	// before the first shear) from which the noise floor is measured.
 	RestS [2]float64
+	// WallUM is the standard uncertainty of the stationary wall's height
+	// (um), ScaleRel the relative one of the scale and StopErrS that of
+	// the stop's time (s), for the uncertainties of the plane, the onset
+	// and the recovered strain; RatePerS is the stopped phase's bulk shear
+	// rate (1/s), which turns an error of the stop's time into one of the
+	// strain. Zero: exact or unknown.
+	WallUM, ScaleRel, StopErrS, RatePerS float64
+	// VelocityRel is the relative standard uncertainty of the tracks'
+	// displacements left by the tracker (a Type B evaluation).
+	VelocityRel float64
 	// Times is the number of log-spaced times of the profiles; 0 means
 	// DefaultTimes. Bins is the number of layers (0: layers.DefaultBins).
 	Times, Bins int
@@ -146,10 +156,34 @@ type Result struct {
 	// standard errors, the test of slip after cessation.
 	WallSigma float64
 	// RecoveredStrain is -Slope * ShearSense: positive when the layers
-	// move back against the earlier shear.
+	// move back against the earlier shear; RecoveredStrainErr its combined
+	// standard uncertainty.
 	RecoveredStrain, RecoveredStrainErr float64
 	OnsetAfterStopS                     float64 // NaN when quiescent
+	// OnsetAfterStopErrS and PlaneErrUM are the combined standard
+	// uncertainties of the onset and of the plane's height (NaN when
+	// there is none).
+	OnsetAfterStopErrS, PlaneErrUM float64
+	// SharedFrameUM is the standard deviation of the displacement every
+	// tracer of a frame shares (residual camera jitter, codec shifts),
+	// measured on the frames after the stop beyond the tracers' own
+	// scatter; SharedUM is what it leaves in the final displacements (the
+	// average over the final frames and the reference at the stop), um.
+	SharedFrameUM, SharedUM float64
+	// FloorUM is the displacement at a wall that noise alone reaches with
+	// FloorSigma combined standard uncertainties, shared errors included:
+	// the contract's noise_floor_um.
+	FloorUM float64
+	// Budget lists, per quantity (recovered_strain, onset_after_stop_s,
+	// plane_um, noise_floor_um), each component's standard uncertainty.
+	Budget map[string]map[string]float64
+
+	onsetIdx int // index in Amplitude of the onset's frame
 }
+
+// FloorSigma is how many combined standard uncertainties make the noise
+// floor: the contract's three.
+const FloorSigma = 3
 
 // After-stop verdicts, as summary.json writes them.
 const (
@@ -211,8 +245,10 @@ func Analyze(ts []velocity.Track, o Options) (*Result, error) {
 	}
 	r.Picture = pic
 	r.RecoveredStrain, r.RecoveredStrainErr = -pic.Slope*o.ShearSense, pic.SlopeErr
+	r.shared(placed, o)
 	r.verdict()
 	r.amplitude(placed, o)
+	r.budget(o)
 	return r, nil
 }
 
@@ -722,8 +758,14 @@ func (r *Result) verdict() {
 		atMov += p.JumpUM
 		atMovErr = math.Hypot(atMovErr, p.JumpErrUM)
 	}
+	// Every tracer shares the camera's residual motion: it moves the
+	// displacement at either wall alike (and cancels across a jump).
+	atStatErr, atMovErr = math.Hypot(atStatErr, r.SharedUM), math.Hypot(atMovErr, r.SharedUM)
+	r.FloorUM = FloorSigma * math.Max(atStatErr, atMovErr)
 	r.WallSigma = math.Max(math.Abs(atStat)/atStatErr, math.Abs(atMov)/atMovErr)
-	sig := func(d, e float64) bool { return math.Abs(d) > MovingSigma*e && math.Abs(d) > r.NoiseFloorUM }
+	sig := func(d, e float64) bool {
+		return math.Abs(d) > MovingSigma*e && math.Abs(d) > r.NoiseFloorUM && math.Abs(d) > r.FloorUM
+	}
 	switch {
 	case p.Interior:
 		r.Moving, r.Mode = true, ModeBulk
@@ -792,7 +834,13 @@ func (r *Result) amplitude(placed []placedTracer, o Options) {
 				a = swd / sw
 			}
 		}
-		e := r.NoiseFloorUM / math.Sqrt(sss)
+		var ss float64
+		for _, x := range b {
+			ss += x.s
+		}
+		// The shared displacement of the frame moves a by SharedFrameUM
+		// sum(s) / sum(s^2).
+		e := math.Hypot(r.NoiseFloorUM/math.Sqrt(sss), r.SharedFrameUM*math.Abs(ss)/sss)
 		r.Amplitude = append(r.Amplitude, AmplitudePoint{TAfterS: tOf[f] - o.StopS, A: a, AErr: e})
 		if !r.Moving || !math.IsNaN(r.OnsetAfterStopS) {
 			continue
@@ -800,7 +848,8 @@ func (r *Result) amplitude(placed []placedTracer, o Options) {
 		if a > MovingSigma*e {
 			run++
 			if run == confirmFrames {
-				r.OnsetAfterStopS = r.Amplitude[len(r.Amplitude)-confirmFrames].TAfterS
+				r.onsetIdx = len(r.Amplitude) - confirmFrames
+				r.OnsetAfterStopS = r.Amplitude[r.onsetIdx].TAfterS
 			}
 		} else {
 			run = 0
@@ -809,6 +858,146 @@ func (r *Result) amplitude(placed []placedTracer, o Options) {
 	if r.Moving && math.IsNaN(r.OnsetAfterStopS) && len(r.Amplitude) > 0 {
 		r.OnsetAfterStopS = r.Amplitude[0].TAfterS
 	}
+}
+
+// minSharedFrames is the fewest frames after the stop, each with
+// minSharedTracers tracers, for measuring the shared displacement.
+const (
+	minSharedFrames  = 5
+	minSharedTracers = 10
+)
+
+// shared measures the displacement the tracers of a frame share after the
+// stop (residual camera jitter, codec shifts): per frame, the median over
+// its tracers of their second differences in time, whose mean square is
+// 3/2 of the shared variance of a white sequence, less what the tracers'
+// localization noise gives such a median ((pi/2) s^2 / n; Kendall & Stuart
+// 1977, The Advanced Theory of Statistics vol. 1, 10.10; from memory). What
+// it leaves in a final displacement is the mean over the frames of the
+// final part and the reference at the stop, a line through RefFrames frames
+// extrapolated to its end (variance about 4/RefFrames of a frame's).
+func (r *Result) shared(placed []placedTracer, o Options) {
+	// Per frame, the second differences of the tracers seen in it and in
+	// the frames on either side: dx_k - (dx_{k-1} + dx_{k+1}) / 2, free of
+	// each tracer's own displacement profile and of a slow motion.
+	byFrame := map[int][]float64{}
+	for _, p := range placed {
+		a := p.after
+		for i := 1; i+1 < len(a); i++ {
+			if a[i].frame-a[i-1].frame == 1 && a[i+1].frame-a[i].frame == 1 {
+				byFrame[a[i].frame] = append(byFrame[a[i].frame], a[i].xUM-(a[i-1].xUM+a[i+1].xUM)/2)
+			}
+		}
+	}
+	var s2, own float64
+	n := 0
+	for _, d := range byFrame {
+		if len(d) < minSharedTracers {
+			continue
+		}
+		m := robust.Median(d)
+		s2 += m * m
+		// A tracer's second difference carries 3/2 of its localization
+		// variance; the median of n of them pi/2 of that over n.
+		own += math.Pi / 2 * 1.5 * o.SigmaUM * o.SigmaUM / float64(len(d))
+		n++
+	}
+	if n < minSharedFrames {
+		return
+	}
+	v := (s2 - own) / float64(n) / 1.5
+	if !(v > 0) {
+		return
+	}
+	r.SharedFrameUM = math.Sqrt(v)
+	final := math.Max(1, math.Round(FinalFraction*(o.EndS-o.StopS)/o.DtS))
+	r.SharedUM = r.SharedFrameUM * math.Sqrt(1/final+4.0/RefFrames)
+}
+
+// budget sets the combined uncertainties of the recovered strain, the
+// onset and the plane from their components.
+func (r *Result) budget(o Options) {
+	r.Budget = map[string]map[string]float64{}
+	// Recovered strain: the fit's slope; the tracker's bias of the
+	// displacements; an error of the stop's time, which puts every
+	// tracer's reference where the shear moved it meanwhile (rate times
+	// the error). A shift shared by all tracers leaves the slope alone, and
+	// so does the scale (a ratio of lengths).
+	rs := map[string]float64{"statistical": r.RecoveredStrainErr,
+		"tracking":  o.VelocityRel * math.Abs(r.RecoveredStrain),
+		"time_base": math.Abs(o.RatePerS) * o.StopErrS}
+	r.Budget["recovered_strain"] = rs
+	r.RecoveredStrainErr = rss(rs)
+	// The noise floor's own budget: the picture's error at the walls and
+	// the shared displacement, times FloorSigma.
+	r.Budget["noise_floor_um"] = map[string]float64{"statistical": FloorSigma * math.Sqrt(math.Max(0, r.FloorUM*r.FloorUM/(FloorSigma*FloorSigma)-r.SharedUM*r.SharedUM)),
+		"shared_motion": FloorSigma * r.SharedUM}
+	r.OnsetAfterStopErrS, r.PlaneErrUM = math.NaN(), math.NaN()
+	if !r.Moving {
+		return
+	}
+	if r.Picture.Interior {
+		// The plane: the profile likelihood's width, the stationary wall's
+		// height (heights are measured from it) and the scale.
+		pl := map[string]float64{"statistical": r.Picture.PlaneErrUM, "wall_position": o.WallUM, "scale": o.ScaleRel * r.Picture.PlaneUM}
+		r.Budget["plane_um"] = pl
+		r.PlaneErrUM = rss(pl)
+	}
+	// The onset: the frame it was seen in is where the amplitude first
+	// crossed MovingSigma standard errors, which it reaches some time
+	// after the motion began: the lag back to where a line through the
+	// first frames of the rise crosses zero. The onset is put half-way
+	// back, with the lag's half as a rectangular bound (GUM 4.3.7), beside
+	// the frame's own resolution (a rectangle of one frame, GUM 4.3.7) and
+	// the stop's time.
+	lag := r.onsetLag()
+	r.OnsetAfterStopS -= lag / 2
+	on := map[string]float64{"statistical": lag / 2 / math.Sqrt(3), "time_base": math.Hypot(o.DtS/math.Sqrt(12), o.StopErrS)}
+	r.Budget["onset_after_stop_s"] = on
+	r.OnsetAfterStopErrS = rss(on)
+}
+
+// onsetLag returns the time, s, from where a line through the amplitude
+// of the confirmFrames+2 frames from the onset crosses zero to the onset's
+// frame (0 when the line does not rise, at most the onset itself).
+func (r *Result) onsetLag() float64 {
+	i := r.onsetIdx
+	if math.IsNaN(r.OnsetAfterStopS) || i < 0 || i >= len(r.Amplitude) {
+		return 0
+	}
+	pts := r.Amplitude[i:min(len(r.Amplitude), i+confirmFrames+2)]
+	if len(pts) < 2 {
+		return 0
+	}
+	var n, st, sa, stt, sta float64
+	for _, p := range pts {
+		n++
+		st += p.TAfterS
+		sa += p.A
+		stt += p.TAfterS * p.TAfterS
+		sta += p.TAfterS * p.A
+	}
+	den := n*stt - st*st
+	if !(den > 0) {
+		return 0
+	}
+	slope := (n*sta - st*sa) / den
+	a0 := (sa - slope*st) / n
+	if !(slope > 0) {
+		return 0
+	}
+	ti := pts[0].TAfterS
+	lag := ti + a0/slope // ti minus the zero crossing -a0/slope
+	return math.Max(0, math.Min(lag, ti))
+}
+
+// rss returns the root sum of squares of the components.
+func rss(c map[string]float64) float64 {
+	var s float64
+	for _, u := range c {
+		s += u * u
+	}
+	return math.Sqrt(s)
 }
 
 // AmplitudeAt returns the amplitude of the final picture at tAfterS: the

@@ -56,9 +56,12 @@ func coverageSweep(n int) []coverageCase {
 	exp := []float64{0, 0.25, 0.5}
 	var cs []coverageCase
 	for i := range n {
-		c := coverageCase{scenario: scen[i%len(scen)], seed: int64(1000 + i), tiltDeg: tilts[i%len(tilts)],
-			jitterPx: jit[i%len(jit)], out: outs[(i/2)%len(outs)], exposure: exp[(i/3)%len(exp)],
-			faint: 0.3 * float64(i%2), colour: i%5 == 2, gapScale: i%7 == 3}
+		// Each fault on a cycle of its own, so that none goes with one
+		// scenario only.
+		k := i / len(scen)
+		c := coverageCase{scenario: scen[i%len(scen)], seed: int64(1000 + i), tiltDeg: tilts[(i/3)%len(tilts)],
+			jitterPx: jit[(i+k)%len(jit)], out: outs[(i/2)%len(outs)], exposure: exp[(i/3+k)%len(exp)],
+			faint: 0.3 * float64((i+k)%2), colour: i%5 == 2, gapScale: i%7 == 3}
 		c.name = fmt.Sprintf("%02d-%s-%s%d-j%.1f-e%.2f", i, c.scenario, c.out.Format, c.out.CRF, c.jitterPx, c.exposure)
 		cs = append(cs, c)
 	}
