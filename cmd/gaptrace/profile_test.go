@@ -145,12 +145,8 @@ func TestProfileTestdata(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	var truth struct{ Summary *summary.Summary }
-	b, err := os.ReadFile(filepath.Join(dir, "truth.json"))
+	truth, err := synth.ReadTruth(filepath.Join(dir, synth.TruthFile))
 	if err != nil {
-		t.Fatal(err)
-	}
-	if err := json.Unmarshal(b, &truth); err != nil {
 		t.Fatal(err)
 	}
 	if len(got.ShearPhases) != 1 || len(truth.Summary.ShearPhases) != 1 {
