@@ -24,7 +24,10 @@
 //     candidate.
 //  5. Amplitude and local offset by least squares, then shape: size (radius
 //     of gyration), eccentricity and integrated brightness; blobs too large,
-//     too elongated or overlapping a strong neighbour are rejected.
+//     too elongated are rejected. Crowded spots are deblended: each is
+//     refined with the fitted spots of its neighbours subtracted, twice
+//     over, so that overlapping tracers are found and located each on its
+//     own. Spots cut by the frame's edge are fitted on their visible part.
 //
 // # Signal-to-noise ratio
 //
@@ -172,8 +175,10 @@ type Options struct {
 	Polarity string
 	// MinSNR is the smallest SNR kept (default DefaultMinSNR).
 	MinSNR float64
-	// MinSeparationPx is the smallest distance between two maxima; the
-	// weaker of two closer maxima is dropped (default DiameterPx).
+	// MinSeparationPx is the smallest distance between two spots: the
+	// weaker of two closer maxima is taken for a ripple of the stronger
+	// and dropped (default half DiameterPx, two spot sds, within which two
+	// spots do not make two maxima); farther maxima are deblended.
 	MinSeparationPx float64
 	// MaxSizePx rejects spots whose radius of gyration is larger (default
 	// DefaultMaxSizeRatio times that of a pixel-integrated spot of the
@@ -182,12 +187,6 @@ type Options struct {
 	// MaxEccentricity rejects more elongated spots with an SNR of 10 or
 	// more (default DefaultMaxEccentricity).
 	MaxEccentricity float64
-	// OverlapRatio rejects a spot when a dropped maximum within
-	// MinSeparationPx of it, and more than 2 sds away (a distinct spot, not
-	// a ripple of the same one), is stronger than this fraction of its own
-	// band-passed peak: the two overlap and neither position can be trusted
-	// (default DefaultOverlapRatio).
-	OverlapRatio float64
 	// Estimator is the sub-pixel estimator (default Centroid).
 	Estimator Estimator
 	// Workers is the number of frames Run processes at once (default
@@ -221,13 +220,9 @@ const (
 	// DefaultMaxEccentricity allows an axis ratio down to 0.6
 	// (sqrt(1-0.6^2) = 0.8): round tracers, noisy at low SNR, stay; streaks
 	// of tracers that moved several diameters within the exposure go. Two
-	// touching tracers are caught by the size and overlap rules instead:
-	// the Gaussian-weighted moments see little of their elongation.
+	// touching tracers are deblended instead (see the package
+	// documentation).
 	DefaultMaxEccentricity = 0.8
-	// DefaultOverlapRatio rejects a spot with a neighbour at least 30% as
-	// strong inside the separation: such a neighbour shifts a centroid by a
-	// sizeable fraction of a pixel.
-	DefaultOverlapRatio = 0.3
 	// minDiameterPx is the smallest diameter the band-pass can match: below
 	// 2 px (sd 0.5 px) a spot is a single pixel and sub-pixel estimators
 	// lock to the grid.
@@ -261,10 +256,9 @@ func (o Options) withDefaults() (Options, error) {
 	}
 	if err := errors.Join(
 		def(&o.MinSNR, DefaultMinSNR, "minimum SNR"),
-		def(&o.MinSeparationPx, o.DiameterPx, "minimum separation (px)"),
+		def(&o.MinSeparationPx, o.DiameterPx/2, "minimum separation (px)"),
 		def(&o.MaxSizePx, DefaultMaxSizeRatio*math.Sqrt(2*(sigma*sigma+1.0/12)), "largest size (px)"),
 		def(&o.MaxEccentricity, DefaultMaxEccentricity, "largest eccentricity"),
-		def(&o.OverlapRatio, DefaultOverlapRatio, "overlap ratio"),
 	); err != nil {
 		return o, err
 	}

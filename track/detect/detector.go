@@ -127,6 +127,16 @@ type Detector struct {
 	sgx     []float64
 	sgy     []float64
 
+	// kept are the indices of the candidates not dropped, in raster
+	// order; nbStart and nbList their neighbours' (kept[k]'s are
+	// nbList[nbStart[k]:nbStart[k+1]]); models the neighbours' spots of
+	// the candidate being refined; valid marks the window's pixels inside
+	// the frame.
+	kept, nbStart, nbList []int32
+	models                []spotModel
+	valid                 []bool
+	mdx, mdy              []float64
+
 	// bands are the rows next to the walls processed with the walls'
 	// profile subtracted, for frames of bandsW x bandsH.
 	bands          []wallBand
@@ -137,7 +147,11 @@ type candidate struct {
 	x, y    int
 	v       int // band-passed value, grey levels
 	dropped bool
-	overlap bool
+	// The spot as its neighbours see it, for deblending: the centre, px,
+	// and the amplitude of its template (see spotModel).
+	mx, my, ma float64
+	det        Detection // the refined spot, when ok
+	ok         bool
 }
 
 // NewDetector checks opt and returns a Detector without a background image
@@ -166,6 +180,8 @@ func NewDetector(opt Options) (*Detector, error) {
 	d.sgx, d.sgy = make([]float64, m*m), make([]float64, m*m)
 	d.gain1, d.gainBox = d.filterGain(false), d.filterGain(true)
 	d.ring = make([]float64, 0, 8*(d.wr+windowSlack))
+	d.valid = make([]bool, R*R)
+	d.mdx, d.mdy = make([]float64, R), make([]float64, R)
 	return d, nil
 }
 
@@ -356,15 +372,13 @@ func (d *Detector) Frame(img gocv.Mat, frame int, out []Detection) ([]Detection,
 	if n := d.noise(&px, true); n > 0 {
 		noise = n
 	}
+	d.refineAll(&px, gain)
 	for i := range d.cands {
 		c := &d.cands[i]
-		if c.dropped || c.overlap {
+		if c.dropped || !c.ok {
 			continue
 		}
-		det, ok := d.refine(&px, c.x, c.y)
-		if !ok {
-			continue
-		}
+		det := c.det
 		det.Frame = frame
 		det.SNR /= noise
 		if det.SNR < d.opt.MinSNR || det.SizePx > d.opt.MaxSizePx ||
@@ -372,6 +386,11 @@ func (d *Detector) Frame(img gocv.Mat, frame int, out []Detection) ([]Detection,
 			continue
 		}
 		if d.opt.Mask != nil && !d.opt.Mask.Contains(det.XPx, det.YPx) {
+			continue
+		}
+		// A centre beyond the frame's outer side is the fit of a spot
+		// seen too little to place.
+		if det.XPx < -0.5 || det.XPx > float64(w)-0.5 || det.YPx < -0.5 || det.YPx > float64(h)-0.5 {
 			continue
 		}
 		out = append(out, det)
@@ -466,6 +485,41 @@ func (p *pixels) window(dst []float64, x0, y0, R int, wall bool) {
 			loadRow(row, p.u16[i0:i0+n], p.refF[i0:i0+n], p.sign)
 		default:
 			loadRow(row, p.u16[i0:i0+n], nil, p.sign)
+		}
+	}
+}
+
+// windowClipped loads into dst what window would on the (2R+1)^2 square
+// centred at (x0, y0), which the frame's edge cuts, and marks in valid the
+// pixels inside the frame; the others are set to zero. Inside a wall band
+// (wall) it loads the residual (see at).
+func (p *pixels) windowClipped(dst []float64, valid []bool, x0, y0, R int, wall bool) {
+	n := 2*R + 1
+	for j := range n {
+		y := y0 - R + j
+		for i := range n {
+			x := x0 - R + i
+			k := j*n + i
+			if x < 0 || x >= p.w || y < 0 || y >= p.h {
+				dst[k], valid[k] = 0, false
+				continue
+			}
+			valid[k] = true
+			idx := y*p.w + x
+			var v float64
+			if p.u8 != nil {
+				v = float64(p.u8[idx])
+			} else {
+				v = float64(p.u16[idx])
+			}
+			switch {
+			case wall:
+				dst[k] = p.at(idx)
+			case p.refF != nil:
+				dst[k] = p.sign * (v - float64(p.refF[idx]))
+			default:
+				dst[k] = p.sign * v
+			}
 		}
 	}
 }
@@ -638,10 +692,11 @@ func (d *Detector) findCandidates(c gocv.Mat, y0, h, thr int) error {
 	d.cands = d.cands[:0]
 	w := c.Cols()
 	d.frameW, d.frameH = w, h
-	m := d.wr + windowSlack + 1
-	// Rows of c to scan: inside the frame's margin and one row from c's
-	// edges (the maximum test looks at the rows around).
-	r0, r1 := max(1, m-y0), min(c.Rows()-1, h-m-y0)
+	// Rows of c to scan: one row from c's edges (the maximum test looks at
+	// the rows around); columns likewise. Near the frame's edges the
+	// refinement fits the visible part of the spot.
+	m := 1
+	r0, r1 := 1, c.Rows()-1
 	if mk := d.opt.Mask; mk != nil {
 		lo, hi := mk.rows(w)
 		r0, r1 = max(r0, lo-y0), min(r1, hi-y0)
@@ -707,8 +762,9 @@ func lineY(l [2][2]float64, x float64) float64 {
 }
 
 // scanMaxima appends to d.cands the local maxima of b (w wide) at least thr
-// in rows r0 to r1-1, columns m to w-m-1; row r of b is row r+y0 of the
-// frame.
+// in rows r0 to r1-1, columns m to w-m-1 and, with m = 1, the frame's first
+// and last columns, whose maxima are tested against the neighbours they
+// have; row r of b is row r+y0 of the frame.
 func scanMaxima[T uint8 | uint16](d *Detector, b []T, w, r0, r1, y0, m int, thr T) {
 	var zero T
 	size := int(unsafe.Sizeof(zero))
@@ -718,6 +774,14 @@ func scanMaxima[T uint8 | uint16](d *Detector, b []T, w, r0, r1, y0, m int, thr 
 		row := b[y*w : y*w+w]
 		up := b[(y-1)*w : y*w]
 		dn := b[(y+1)*w : (y+2)*w]
+		add := func(x int, v T) {
+			if mk := d.opt.Mask; mk == nil || mk.nearInside(float64(x), float64(y+y0)) {
+				d.cands = append(d.cands, candidate{x: x, y: y + y0, v: int(v)})
+			}
+		}
+		if v := row[0]; m == 1 && v >= thr && v >= row[1] && v > up[0] && v >= dn[0] && v >= up[1] && v >= dn[1] {
+			add(0, v)
+		}
 		x := m
 		for x < w-m {
 			// Skip a word at a time while every value is below thr.
@@ -734,11 +798,12 @@ func scanMaxima[T uint8 | uint16](d *Detector, b []T, w, r0, r1, y0, m int, thr 
 				// diagonal ones: the rounding of the filtered image makes
 				// ties, and a peak must not vanish in a diagonal tie. The
 				// separation merges what this leaves twice.
-				if mk := d.opt.Mask; mk == nil || mk.nearInside(float64(x), float64(y+y0)) {
-					d.cands = append(d.cands, candidate{x: x, y: y + y0, v: int(v)})
-				}
+				add(x, v)
 			}
 			x++
+		}
+		if v := row[w-1]; m == 1 && v >= thr && v > row[w-2] && v > up[w-1] && v >= dn[w-1] && v >= up[w-2] && v >= dn[w-2] {
+			add(w-1, v)
 		}
 	}
 }
@@ -781,16 +846,12 @@ func (m *Mask) nearInside(x, y float64) bool {
 }
 
 // separate drops, of two candidates closer than MinSeparationPx, the
-// weaker, and marks the stronger as overlapping when the weaker reaches
-// OverlapRatio of it and is a distinct spot (more than 2 sd away). Kept candidates are filed in a grid of cells one
-// separation wide, so that only the 3x3 cells around a candidate are
-// searched.
+// weaker: a ripple of the same spot. Kept candidates are filed in a grid of
+// cells one separation wide, so that only the 3x3 cells around a candidate
+// are searched.
 func (d *Detector) separate() {
 	sep := d.opt.MinSeparationPx
 	sep2 := sep * sep
-	// Two Gaussian spots of sd s have separate maxima when more than 2 s
-	// apart; closer maxima are the same spot's.
-	overlap2 := 4 * d.sigma * d.sigma
 	w, h := d.frameW, d.frameH
 	gw, gh := int(float64(w)/sep)+1, int(float64(h)/sep)+1
 	if cap(d.head) < gw*gh {
@@ -824,11 +885,8 @@ func (d *Detector) separate() {
 				for j := d.head[gy*gw+gx]; j >= 0; j = d.next[j] {
 					o := &d.cands[j]
 					dx, dy := float64(o.x-c.x), float64(o.y-c.y)
-					if r2 := dx*dx + dy*dy; r2 < sep2 {
+					if dx*dx+dy*dy < sep2 {
 						c.dropped = true
-						if r2 >= overlap2 && float64(c.v) >= d.opt.OverlapRatio*float64(o.v) {
-							o.overlap = true
-						}
 						break search
 					}
 				}

@@ -7,13 +7,27 @@ import (
 )
 
 // refine locates, sizes and weighs the spot whose integer maximum is
-// (x0, y0). It returns the detection with SNR holding the amplitude in
-// grey levels, still to be divided by the frame's noise.
-func (d *Detector) refine(p *pixels, x0, y0 int) (Detection, bool) {
+// (x0, y0), with the spots of models (its neighbours) subtracted. It
+// returns the detection with SNR holding the amplitude in grey levels,
+// still to be divided by the frame's noise. A window that the frame's edge
+// cuts is completed by a fit of the spot to its visible pixels.
+func (d *Detector) refine(p *pixels, x0, y0 int, models []spotModel) (Detection, bool) {
 	wr := d.wr
 	R := wr + windowSlack
 	n := 2*R + 1
-	p.window(d.win, x0, y0, R, p.bands != nil && d.nearWall(x0, y0))
+	inside := x0-R >= 0 && x0+R < p.w && y0-R >= 0 && y0+R < p.h
+	wall := p.bands != nil && d.nearWall(x0, y0)
+	if inside {
+		p.window(d.win, x0, y0, R, wall)
+	} else {
+		p.windowClipped(d.win, d.valid, x0, y0, R, wall)
+	}
+	if len(models) > 0 {
+		d.subtractModels(x0, y0, R, models)
+	}
+	if !inside && !d.fitMasked(R) {
+		return Detection{}, false
+	}
 	// The window's border, more than 4 sd from the candidate, holds no
 	// light of the spot: its median is the local background left.
 	// Every other border pixel is plenty for a median.
@@ -30,13 +44,20 @@ func (d *Detector) refine(p *pixels, x0, y0 int) (Detection, bool) {
 	}
 	var dx, dy float64 // position relative to (x0, y0)
 	ok := false
+	// The band-pass mirrors the frame at its edges, which moves the maximum
+	// of a spot the edge cuts towards the edge: its refinement may move
+	// as far as the window allows.
+	limit := maxShiftPx
+	if !inside {
+		limit = windowSlack
+	}
 	switch d.opt.Estimator {
 	case Centroid:
-		dx, dy, ok = d.centroid(R)
+		dx, dy, ok = d.centroid(R, limit)
 	case RadialSymmetry:
 		dx, dy, ok = d.radialCentre(R)
 	}
-	if !ok || math.Abs(dx) > maxShiftPx || math.Abs(dy) > maxShiftPx {
+	if !ok || math.Abs(dx) > limit || math.Abs(dy) > limit {
 		return Detection{}, false
 	}
 	// Window of radius wr around the pixel nearest the estimate.
@@ -124,8 +145,9 @@ const maxWindowHalf = (kernelSigmas*maxDiameterPx)/diameterSigmas + 1
 // (sw2+s2)/sw2, the factor by which a Gaussian mask of variance sw2 pulls
 // the centroid of a Gaussian spot of variance s2 towards itself: a Newton
 // step, which converges in a few iterations for a spot of about the nominal
-// size. It returns the position relative to the window's centre.
-func (d *Detector) centroid(R int) (cx, cy float64, ok bool) {
+// size. It returns the position relative to the window's centre, or false
+// when the estimate leaves the square of half-width limit px.
+func (d *Detector) centroid(R int, limit float64) (cx, cy float64, ok bool) {
 	wr := d.wr
 	n := 2*R + 1
 	sw2 := maskVar(d.sigma)
@@ -157,7 +179,7 @@ func (d *Detector) centroid(R int) (cx, cy float64, ok bool) {
 		ey := sy/sw + float64(iy) - cy
 		cx += gainStep * ex
 		cy += gainStep * ey
-		if math.Abs(cx) > maxShiftPx || math.Abs(cy) > maxShiftPx {
+		if math.Abs(cx) > limit || math.Abs(cy) > limit {
 			return 0, 0, false
 		}
 		ix, iy = int(math.Round(cx)), int(math.Round(cy))

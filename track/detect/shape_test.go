@@ -61,8 +61,8 @@ func TestShapeNoise(t *testing.T) {
 
 // TestRejection shows each rejection rule at work, with the rule on and
 // off: a blob three times too wide, a streak (a tracer blurred by 10 px of
-// motion within the exposure) and two spots 4.5 px apart, each beside a
-// normal spot that always stays.
+// motion within the exposure), each beside a normal spot that always
+// stays.
 func TestRejection(t *testing.T) {
 	const sigmaPx = 1.25
 	sc := scene{w: 120, h: 60, bgPhotons: 20, readNoise: 2, bitDepth: 8, gain: 1}
@@ -72,7 +72,7 @@ func TestRejection(t *testing.T) {
 	for i := 0; i <= 40; i++ {
 		streak = append(streak, spot{55 + 0.25*float64(i), 30.3, sigmaPx, 3 * ph / 41})
 	}
-	noLimits := Options{MaxSizePx: 100, MaxEccentricity: 1, OverlapRatio: 1e9}
+	noLimits := Options{MaxSizePx: 100, MaxEccentricity: 1}
 	for _, tc := range []struct {
 		name     string
 		spots    []spot
@@ -81,8 +81,7 @@ func TestRejection(t *testing.T) {
 		onLeaves bool
 	}{
 		{"size", []spot{{60, 30, 3 * sigmaPx, 9 * ph}}, spot{x: 60, y: 30}, Options{}, noLimits, false},
-		{"eccentricity", streak, spot{x: 60, y: 30.3}, Options{MaxSizePx: 100, OverlapRatio: 1e9}, noLimits, false},
-		{"overlap", []spot{{60, 28, sigmaPx, ph}, {63.2, 31.2, sigmaPx, ph * 0.8}}, spot{x: 60, y: 28}, Options{}, noLimits, false},
+		{"eccentricity", streak, spot{x: 60, y: 30.3}, Options{MaxSizePx: 100}, noLimits, false},
 	} {
 		rng := rand.New(rand.NewPCG(3, 3))
 		img := sc.render(t, append([]spot{normal}, tc.spots...), rng)

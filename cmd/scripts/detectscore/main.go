@@ -148,7 +148,9 @@ func score(dir, name string, seed int64, nFrames int) error {
 	cal := s.Calibration() // the true walls
 	var all, wall, edge, oof, crowd, prec frac
 	var wallBins [20]frac
-	var falseAt [12]int // false detections by px from the nearer wall, from -1
+	var falseAt [12]int   // false detections by px from the nearer wall, from -1
+	var falseEdge [10]int // by px from the nearer side edge
+	var falseNear [20]int // by px from the nearest tracer, +10 when it is out of focus
 	var se, bias float64
 	var nse, nbias int
 	diam := s.DiameterPx
@@ -193,6 +195,18 @@ func score(dir, name string, seed int64, nFrames int) error {
 				_, y := cal.ToGap(p.XPx, p.YPx)
 				dpx := math.Min(y, cal.GapUM-y) / cal.UMPerPx
 				falseAt[min(len(falseAt)-1, max(0, int(dpx+1)))]++
+				best, bt := math.Inf(1), -1
+				for _, t := range ti {
+					if dd := math.Hypot(p.XPx-rows[t].Point.XPx, p.YPx-rows[t].Point.YPx); dd < best {
+						best, bt = dd, t
+					}
+				}
+				k := min(9, int(best))
+				if bt >= 0 && !rows[bt].InFocus {
+					k += 10
+				}
+				falseNear[k]++
+				falseEdge[max(0, min(9, int(math.Min(p.XPx+0.5, float64(s.WidthPx)-0.5-p.XPx))))]++
 			}
 		}
 		for _, t := range ti {
@@ -264,6 +278,8 @@ func score(dir, name string, seed int64, nFrames int) error {
 	}
 	if debug {
 		fmt.Println("false detections by px from the nearer wall (from -1 px):", falseAt)
+		fmt.Println("false detections by px from the side edge:", falseEdge)
+		fmt.Println("false detections by px from the nearest tracer (in focus 0-9, out of focus 10-19):", falseNear)
 	}
 	rms := math.NaN()
 	if nse > 0 {
