@@ -3,6 +3,7 @@ package walls
 import (
 	"math"
 	"math/rand"
+	randv2 "math/rand/v2"
 	"strings"
 	"testing"
 
@@ -211,5 +212,65 @@ func TestCheckInside(t *testing.T) {
 	}
 	if err := CheckInside("moving wall", Line{Y0: 40, Slope: 0.001}, 640, 480); err != nil {
 		t.Fatal(err)
+	}
+}
+
+// brentMin on functions whose minima are known in closed form: a parabola
+// (x = 0.3), cos on [2, 5] (x = pi) and x^4 - 3x on [0, 2] (x = (3/4)^(1/3)),
+// each to within its tolerance (Brent 1973, Algorithms for Minimization
+// without Derivatives, ch. 5: localmin meets |x - x*| <= about 2 tol).
+func TestBrentMin(t *testing.T) {
+	cases := []struct {
+		name     string
+		f        func(float64) float64
+		a, b, x0 float64
+		want     float64
+	}{
+		{"parabola", func(x float64) float64 { return (x - 0.3) * (x - 0.3) }, -1, 2, 1.5, 0.3},
+		{"cosine", math.Cos, 2, 5, 2.5, math.Pi},
+		{"quartic", func(x float64) float64 { return x*x*x*x - 3*x }, 0, 2, 1.8, math.Cbrt(0.75)},
+	}
+	const tol = 1e-6
+	for _, c := range cases {
+		x, fx := brentMin(c.a, c.b, c.x0, c.f(c.x0), tol, c.f)
+		if math.Abs(x-c.want) > 3*tol || math.Abs(fx-c.f(c.want)) > 1e-9 {
+			t.Errorf("%s: minimum at %.9g (f %.9g), want %.9g (f %.9g)", c.name, x, fx, c.want, c.f(c.want))
+		}
+	}
+}
+
+// HeightErrPx against the scatter of the fitted height over repeated
+// noisy lines: the standard error of a straight-line fit's value at x is
+// s sqrt(1/n + (x - xbar)^2 / Sxx) (Draper & Smith 1998, Applied
+// Regression Analysis, eq. 1.4.7; from memory), here for 40 strips with
+// 0.2 px of Gaussian noise, at the middle and at an end of the frame.
+func TestHeightErrPx(t *testing.T) {
+	rng := randv2.New(randv2.NewPCG(5, 6))
+	const n, sigma, trials = 40, 0.2, 400
+	x := make([]float64, n)
+	for i := range x {
+		x[i] = 8 + 16*float64(i)
+	}
+	for _, xc := range []float64{319.5, 0} {
+		var s, s2, rep float64
+		for range trials {
+			y := make([]float64, n)
+			for i := range y {
+				y[i] = 100 + 0.02*x[i] + sigma*rng.NormFloat64()
+			}
+			l, res, wt := robustLine(x, y)
+			w := Wall{Line: l, ResidualPx: res, fit: momentsOf(x, wt)}
+			h := l.YAt(xc) - (100 + 0.02*xc)
+			s += h
+			s2 += h * h
+			rep += w.HeightErrPx(xc) / trials
+		}
+		sd := math.Sqrt(s2/trials - (s/trials)*(s/trials))
+		// 400 trials give the scatter to 1/sqrt(800) = 3.5 %; the robust
+		// scale (MAD of 40 points) and the biweight add about 10 %.
+		const agreement = 0.2
+		if math.Abs(rep/sd-1) > agreement {
+			t.Errorf("at x = %g px: reported %.4f px, scatter %.4f px", xc, rep, sd)
+		}
 	}
 }

@@ -41,6 +41,7 @@ type coverageCase struct {
 	faint    float64 // fraction of faint tracers
 	colour   bool
 	gapScale bool // the scale from the gap over the wall distance
+	observeS float64 // when positive, the time observed after the stop, s
 }
 
 // coverageSweep returns n cases that cycle through the scenarios with
@@ -81,6 +82,10 @@ func (c coverageCase) build() (*synth.Scenario, error) {
 		s.Colour = synth.Colour{Tint: [3]float64{0.55, 1, 0.75}, Bayer: true}
 	}
 	s.OmitScale = c.gapScale
+	if c.observeS > 0 {
+		prog := s.Program()
+		s.Frames = int(math.Round((prog[len(prog)-1].EndS + c.observeS) * s.FPS))
+	}
 	return s, s.Validate()
 }
 
@@ -314,5 +319,70 @@ func BenchmarkCoverage(b *testing.B) {
 		for _, w := range worst {
 			b.Log(w)
 		}
+	}
+}
+
+// quiescentCase is a recording after a step strain in which nothing moves
+// after the stop, filmed as badly as issue 12 asks: H.264 at CRF 28, 0.5 px
+// of camera jitter, a colour sensor, and obsS seconds after the stop.
+func quiescentCase(seed int64, obsS float64) coverageCase {
+	return coverageCase{name: fmt.Sprintf("quiet-%d-%.1fs", seed, obsS), scenario: "step-quiescent", seed: seed, tiltDeg: 1.2,
+		jitterPx: 0.5, out: synth.Output{Format: synth.FormatH264, CRF: 28, NoBFrames: true}, colour: true, observeS: obsS}
+}
+
+// quietObservations are the observation times after the stop of the
+// false-alarm check, s: down to the issue's 0.4 s.
+var quietObservations = []float64{0.4, 0.6, 0.8, 1.0, 1.5}
+
+// falseAlarms analyses the quiescent cases and returns how many were
+// declared moving, with their descriptions.
+func falseAlarms(tb testing.TB, cs []coverageCase) (int, []string) {
+	n := 0
+	var what []string
+	for _, c := range cs {
+		tc := trackCase(tb, c)
+		a, err := Analyze(context.Background(), Config{Experiment: tc.Exp, Seed: uint64(c.seed)}, tc.Tracked)
+		if err != nil {
+			tb.Fatalf("%s: %v", c.name, err)
+		}
+		as := a.Summary.AfterStop
+		if as == nil {
+			tb.Fatalf("%s: no after-stop analysis", c.name)
+		}
+		line := fmt.Sprintf("%s: %s, max displacement %.3g um, noise floor %.3g um", c.name, as.Verdict, float64(as.MaxDisplacementUM), float64(as.NoiseFloorUM))
+		what = append(what, line)
+		if as.Verdict != cessation.Quiescent {
+			n++
+		}
+	}
+	return n, what
+}
+
+// TestNoFalseAlarmAfterStop checks two of the quiescent recordings, the
+// shortest observation among them; BenchmarkFalseAlarms runs twenty.
+func TestNoFalseAlarmAfterStop(t *testing.T) {
+	n, what := falseAlarms(t, []coverageCase{quiescentCase(1, 0.4), quiescentCase(2, 1.0)})
+	for _, w := range what {
+		t.Log(w)
+	}
+	if n != 0 {
+		t.Errorf("%d of 2 quiescent recordings declared moving", n)
+	}
+}
+
+// BenchmarkFalseAlarms counts the quiescent recordings after a stop, of
+// twenty (four seeds at each of five observation times), that are declared
+// moving: issue 12 asks for none.
+func BenchmarkFalseAlarms(b *testing.B) {
+	var cs []coverageCase
+	for i := range 20 {
+		cs = append(cs, quiescentCase(int64(500+i), quietObservations[i%len(quietObservations)]))
+	}
+	for range b.N {
+		n, what := falseAlarms(b, cs)
+		for _, w := range what {
+			b.Log(w)
+		}
+		b.Logf("moving declared on %d of %d quiescent recordings", n, len(cs))
 	}
 }
