@@ -40,7 +40,7 @@ type coverageCase struct {
 	exposure float64 // exposure over the frame interval (motion blur)
 	faint    float64 // fraction of faint tracers
 	colour   bool
-	gapScale bool // the scale from the gap over the wall distance
+	gapScale bool    // the scale from the gap over the wall distance
 	observeS float64 // when positive, the time observed after the stop, s
 }
 
