@@ -7,6 +7,8 @@ import (
 	"strings"
 	"testing"
 	"time"
+
+	"gaptrace/profile/summary"
 )
 
 // TestHostileInputs feeds the profile command the odd inputs of issue 18
@@ -70,4 +72,51 @@ func TestHostileInputs(t *testing.T) {
 			}
 		})
 	}
+}
+
+// TestProgramPastRecording gives the profile command a motion program that
+// begins after the 3 s recording ends (5 to 9 s). Before, the shear phase
+// of 5 to 9 s was analysed on no data, its verdict was empty, and the
+// warning said the program was empty. Now the step is left out with a
+// warning naming it, the phases come from the video (tracks.csv's own
+// motion), and no shear phase is left with an empty verdict.
+func TestProgramPastRecording(t *testing.T) {
+	dir := t.TempDir()
+	in, exp := writeProfileInput(t, dir, "homogeneous")
+	b, err := os.ReadFile(exp)
+	if err != nil {
+		t.Fatal(err)
+	}
+	late := strings.Replace(strings.Replace(string(b), "start_s: 0.5", "start_s: 5", 1), "end_s: 2\n", "end_s: 9\n", 1)
+	if late == string(b) {
+		t.Fatalf("no motion step to move in\n%s", b)
+	}
+	if err := os.WriteFile(exp, []byte(late), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	out := filepath.Join(dir, "out")
+	var stderr bytes.Buffer
+	if code := mainArgs([]string{"profile", "-e", exp, "-o", out, in}, &stderr); code != 0 {
+		t.Fatalf("exit %d: %s", code, stderr.String())
+	}
+	s, err := summary.Read(filepath.Join(out, "summary.json"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	warned := false
+	for _, w := range s.Warnings {
+		warned = warned || strings.Contains(w, "begins after the recording ends")
+		if strings.Contains(w, "motion program is empty") {
+			t.Errorf("misleading warning %q", w)
+		}
+	}
+	if !warned {
+		t.Errorf("no warning of the step past the recording among %q", s.Warnings)
+	}
+	for i, sp := range s.ShearPhases {
+		if sp.Verdict == "" {
+			t.Errorf("shear phase %d (%g to %g s) has an empty verdict", i+1, sp.StartS, sp.EndS)
+		}
+	}
+	t.Logf("%d shear phases from the video; warnings %q", len(s.ShearPhases), s.Warnings)
 }

@@ -45,10 +45,22 @@ func Analyze(ctx context.Context, cfg Config, t *Tracked) (*Analysis, error) {
 	cfg.report(StageProfile, 0, 1)
 	opt := profile.Options{Bins: cfg.Bins, Windows: cfg.Windows, EveryS: cfg.EveryS, Seed: cfg.Seed, Phases: t.Phases, Log: cfg.Log,
 		VelocityRel: TrackingVelocityRel}
+	// Steps outside the recording are left out, with a warning.
+	if prog, err := cfg.program(); err != nil {
+		return nil, err
+	} else if kept, w, changed := trimProgram(prog, t.durationS()); changed {
+		t.Warnings = append(t.Warnings, w...)
+		opt.Program = kept
+	} else {
+		t.Warnings = append(t.Warnings, w...)
+	}
 	if cfg.Log != nil {
 		prog, err := cfg.program()
 		if err != nil {
 			return nil, err
+		}
+		if kept, _, changed := trimProgram(prog, t.durationS()); changed {
+			prog = kept
 		}
 		opt.Program = prog
 		if opt.Phases == nil && t.Info.FPS > 0 {
@@ -127,6 +139,7 @@ func FromTracks(cfg Config, input string, pts []tracks.Point, cal *calib.Calibra
 	if err != nil {
 		return nil, err
 	}
+	prog, _, _ = trimProgram(prog, t.durationS()) // Analyze warns
 	if (len(prog) == 0 || cfg.Log != nil) && fps > 0 {
 		t.findPhases(&cfg, prog)
 	}

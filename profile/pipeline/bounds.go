@@ -3,6 +3,8 @@ package pipeline
 import (
 	"fmt"
 	"math"
+
+	"gaptrace/calib/experiment"
 )
 
 // Bounds of what a user asks of the profile stage (the README's table).
@@ -61,4 +63,31 @@ func (t *Tracked) durationS() float64 {
 		return t.FrameTimesS[n-1] + float64(t.Info.Frames-n+1)/t.Info.FPS
 	}
 	return float64(t.Info.Frames) / t.Info.FPS
+}
+
+// trimProgram returns the steps of the motion program p that begin inside
+// a recording of durS seconds, and a warning for each step left out and
+// for one that ends after the recording (analysed up to its end). Without
+// a known duration p is returned as it is. changed reports whether a step
+// was left out.
+func trimProgram(p experiment.Program, durS float64) (kept experiment.Program, warn []string, changed bool) {
+	if !(durS > 0) {
+		return p, nil, false
+	}
+	kept = make(experiment.Program, 0, len(p))
+	for i, s := range p {
+		switch {
+		case s.StartS >= durS:
+			warn = append(warn, fmt.Sprintf("motion step %d (%g to %g s) begins after the recording ends (%.4g s): it is left out", i+1, s.StartS, s.EndS, durS))
+			changed = true
+			continue
+		case s.EndS > durS:
+			warn = append(warn, fmt.Sprintf("motion step %d (%g to %g s) ends after the recording (%.4g s): it is analysed up to the end of the recording", i+1, s.StartS, s.EndS, durS))
+		}
+		kept = append(kept, s)
+	}
+	if changed && len(kept) == 0 {
+		warn = append(warn, "no step of the motion program lies inside the recording: the phases are taken from the video")
+	}
+	return kept, warn, changed
 }

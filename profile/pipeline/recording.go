@@ -99,9 +99,16 @@ func openInput(cfg Config, rg frames.Range) (frames.Source, error) {
 	if err != nil {
 		return nil, inputErr(err)
 	}
-	if info := src.Info(); !(info.FPS > 0) {
+	info := src.Info()
+	if !(info.FPS > 0) {
 		src.Close()
 		return nil, inputErrf("input %s: no frame rate in the file; give camera.fps in the experiment file", cfg.Input)
+	}
+	// The experiment file checks its steps against camera.fps; a rate
+	// from the video is checked here (a step shorter than a frame).
+	if err := cfg.Experiment.CheckAgainstRate(info.FPS); err != nil {
+		src.Close()
+		return nil, inputErrf("experiment file: %v (the video's rate)", err)
 	}
 	return src, nil
 }

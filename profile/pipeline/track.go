@@ -101,6 +101,7 @@ func (r *Recording) Track(ctx context.Context) (*Tracked, error) {
 	if err != nil {
 		return nil, err
 	}
+	prog, _, _ = trimProgram(prog, t.durationS()) // Analyze warns
 	t.findPhases(&r.cfg, prog)
 	return t, nil
 }
@@ -297,7 +298,7 @@ func (t *Tracked) findPhases(cfg *Config, prog experiment.Program) {
 			t.LogShiftS = sh
 			c := t.logConfig(*cfg)
 			if p, err := c.program(); err == nil {
-				prog = p
+				prog, _, _ = trimProgram(p, durS) // Analyze warns
 				t.Warnings = append(t.Warnings, fmt.Sprintf("phases: every shear phase of the rheometer log starts and ends %.3f s (%+.1f frames) %s than the video shows: "+
 					"the log's clock is taken to be off by that much and its times are shifted by %+.3f s; give --log-offset to set the offset yourself",
 					math.Abs(sh), sh*t.Info.FPS, map[bool]string{true: "earlier", false: "later"}[sh > 0], sh))
@@ -305,7 +306,11 @@ func (t *Tracked) findPhases(cfg *Config, prog experiment.Program) {
 			}
 		}
 	}
-	use, warn := phases.Reconcile(cfg.programPhases(prog, durS), det.Phases, t.Info.FPS)
+	var progPhases []phases.Phase
+	if len(prog) > 0 {
+		progPhases = cfg.programPhases(prog, durS)
+	}
+	use, warn := phases.Reconcile(progPhases, det.Phases, t.Info.FPS)
 	t.Warnings = append(t.Warnings, warn...)
 	if len(prog) == 0 {
 		t.Phases = use

@@ -193,7 +193,14 @@ func tempName(path string) (string, error) {
 		return "", err
 	}
 	name := f.Name()
+	// The writers reopen the file and keep its mode: make it the mode of
+	// every other result (os.CreateTemp gives 0600).
+	err = f.Chmod(0o644)
 	f.Close()
+	if err != nil {
+		os.Remove(name)
+		return "", err
+	}
 	return name, nil
 }
 
