@@ -81,7 +81,7 @@ footer { border-top: 1px solid var(--rule); margin-top: 30px; padding: 14px 0 30
 <ul>{{range .Lines}}<li>{{.}}</li>{{end}}</ul>
 </div>
 {{else}}<p class="none">The run holds no shear phase and no time after a stop: there is nothing to report on the flow.</p>
-{{end}}<p class="none">Uncertainties are one standard uncertainty, rounded to two significant digits, with the value to the same digit. A wall without detected slip gets an upper limit instead.</p>
+{{end}}<p class="none">Uncertainties are one combined standard uncertainty in the sense of the GUM (JCGM 100:2008), rounded to two significant digits, with the value to the same digit: the root sum of squares of the scatter between tracks (a bootstrap over whole tracks), the wall positions (from the wall fit's residuals and the wall model), the scale and the gap, the time base, the motion all tracers share (measured on the recording) and the tracking's own bias, each propagated by the law of propagation of uncertainty (GUM eq. 10) through the same fit that gives the value; summary.json lists each component as the budget of each quantity. A wall without detected slip gets an upper limit instead.</p>
 </section>
 
 <section id="warnings">

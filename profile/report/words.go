@@ -175,17 +175,24 @@ func afterStopFindings(a *summary.AfterStop) (string, []string) {
 	maxDx, floor := num(a.MaxDisplacementUM), num(a.NoiseFloorUM)
 	var lines []string
 	if a.Verdict == cessation.Quiescent && known(floor) {
-		lines = append(lines, "No motion detected: the largest displacement since the stop, "+formatValue(maxDx, unitLen)+
-			", stays within the noise floor of "+formatValue(floor, unitLen)+
-			" (the displacement noise alone reaches with 3 standard uncertainties).")
+		lines = append(lines, "No motion detected: the displacement of the sample at the walls stays within the noise floor of "+
+			formatValue(floor, unitLen)+" (what noise alone reaches with 3 combined standard uncertainties, the camera's shared "+
+			"motion included); the largest displacement of a single layer since the stop is "+formatValue(maxDx, unitLen)+".")
 	} else {
 		lines = append(lines, "Largest displacement since the stop: "+formatValue(maxDx, unitLen)+
 			" against a noise floor of "+formatValue(floor, unitLen)+".")
 	}
-	lines = append(lines, "Strain recovered by elastic recoil: "+formatValue(num(a.RecoveredStrain), "")+".")
+	lines = append(lines, "Strain recovered by elastic recoil: "+formatPM(num(a.RecoveredStrain), num(a.RecoveredStrainErr), "")+".")
 	if a.Verdict == cessation.Moving {
+		if pl := num(a.PlaneUM); known(pl) {
+			lines = append(lines, "Failure plane at "+formatPM(pl, num(a.PlaneErrUM), unitLen)+" above the stationary wall.")
+		}
 		if on := num(a.OnsetAfterStopS); known(on) {
-			lines = append(lines, "Motion above the noise floor began "+formatTime(on)+" after the stop.")
+			line := "Motion above the noise floor began " + formatTime(on) + " after the stop"
+			if e := num(a.OnsetAfterStopErrS); known(e) {
+				line += " (± " + formatTime(e) + ")"
+			}
+			lines = append(lines, line+".")
 		} else {
 			lines = append(lines, "The onset of the motion was "+Unknown+".")
 		}
