@@ -386,3 +386,32 @@ func BenchmarkFalseAlarms(b *testing.B) {
 		b.Logf("moving declared on %d of %d quiescent recordings", n, len(cs))
 	}
 }
+
+// TestCoverage runs three renders of the sweep (linear shear by MJPEG,
+// slip at both walls with 0.2 px of jitter, a failure plane after the stop
+// by FFV1 with motion blur over a quarter of the frame interval)
+// through the chain and checks every value with a true value against its
+// uncertainty: none beyond maxAbsZ, and none without one. The onset after
+// the stop is left out: its detection lag is not yet covered (issue 12).
+// BenchmarkCoverage runs the full sweep of 42.
+func TestCoverage(t *testing.T) {
+	sweep := coverageSweep(42)
+	tab := zTable{}
+	for _, c := range []coverageCase{sweep[0], sweep[1], sweep[3]} {
+		tc := trackCase(t, c)
+		a, err := Analyze(context.Background(), Config{Experiment: tc.Exp, Seed: uint64(c.seed)}, tc.Tracked)
+		if err != nil {
+			t.Fatalf("%s: %v", c.name, err)
+		}
+		for _, z := range zValues(a.Summary, tc.Truth.Summary) {
+			if z.quantity == "onset_after_stop_s" {
+				continue
+			}
+			tab.add([]zValue{z})
+			if !(math.Abs(z.z()) <= maxAbsZ) {
+				t.Errorf("%s %s: %.5g ± %.3g, truth %.5g: z = %.2f", c.name, z.quantity, z.got, z.err, z.truth, z.z())
+			}
+		}
+	}
+	t.Logf("coverage over 3 renders:\n%s", tab)
+}
