@@ -25,6 +25,12 @@ const (
 	maxRateMismatch = 2.0
 )
 
+// slowDriftWarnPx: a slow common motion of the whole image along the flow
+// above a fifth of a pixel RMS is worth a warning: four times the jitter
+// the linker removes at all (link.JitterMinRMSPx), well above the
+// localization noise of a tracer.
+const slowDriftWarnPx = 0.2
+
 // frameClock reads the frame times of src after n frames were read. It
 // returns them when the camera's frame rate varies (else nil: frame/FPS
 // holds, with the experiment's camera.fps when given), the nominal rate to

@@ -253,6 +253,11 @@ func (r *Recording) linkAll(ctx context.Context, t *Tracked, dets [][]link.Detec
 	}
 	markNearWall(pts, cal, r.diameterPx())
 	t.Points, t.Link = pts, st
+	if st.SlowDriftPx > slowDriftWarnPx {
+		t.Warnings = append(t.Warnings, fmt.Sprintf("the whole image sways along the flow (%.2f px RMS beyond what the tracks' own motion absorbs), slower than the camera-shake correction follows (%d frames): "+
+			"the tracers alone cannot tell a swaying camera from a uniform motion of the sample, so motion uniform across the gap at rest or after the stop may be the camera's, not slip",
+			st.SlowDriftPx, link.JitterWindowFrames))
+	}
 	r.cfg.report(StageLink, 1, 1)
 	return ctx.Err()
 }

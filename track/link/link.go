@@ -133,6 +133,12 @@ type Stats struct {
 	// CommonMode is the per-frame image offset removed, px (Link's final
 	// pass; nil when none).
 	CommonMode []flowprior.Shift
+	// SlowDriftPx is the RMS of the common-mode motion along the flow that
+	// Link measured but left in, px: the part slower than
+	// JitterWindowFrames, which tracks alone cannot tell from a uniform
+	// motion of the sample (a camera's sway, or slip). Zero when not
+	// measured (MeasureCommonMode off, or a steady camera).
+	SlowDriftPx float64
 }
 
 // track is an active trajectory.

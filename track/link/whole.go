@@ -72,6 +72,7 @@ func LinkContext(ctx context.Context, frames [][]Detection, cal *calib.Calibrati
 	if _, err := NewLinker(cal, opt); err != nil {
 		return nil, Stats{}, err
 	}
+	slowDrift := 0.0 // Stats.SlowDriftPx
 	if opt.Prior == nil || opt.MeasureCommonMode {
 		built := opt.Prior == nil
 		window := priorWindow(frames)
@@ -132,7 +133,15 @@ func LinkContext(ctx context.Context, frames [][]Detection, cal *calib.Calibrati
 			return nil, Stats{}, cmErr
 		}
 		if cm != nil {
+			full := cm
 			cm = jitterOnly(cm, JitterWindowFrames)
+			// What jitterOnly leaves in along the flow: the slow part.
+			var ss float64
+			for f := range full {
+				d := full[f].DXPx - cm[f].DXPx
+				ss += d * d
+			}
+			slowDrift = math.Sqrt(ss / float64(len(full)))
 			if rx, ry := rmsShift(cm); math.Max(rx, ry) > JitterMinRMSPx {
 				for f := range cm {
 					if f < len(opt.CommonMode) {
@@ -145,7 +154,7 @@ func LinkContext(ctx context.Context, frames [][]Detection, cal *calib.Calibrati
 			}
 		}
 		if same {
-			firstSt.CommonMode = opt.CommonMode
+			firstSt.CommonMode, firstSt.SlowDriftPx = opt.CommonMode, slowDrift
 			return first, firstSt, nil
 		}
 	}
@@ -154,6 +163,7 @@ func LinkContext(ctx context.Context, frames [][]Detection, cal *calib.Calibrati
 	}
 	pts, st, err := linkAll(ctx, frames, cal, opt)
 	st.CommonMode = opt.CommonMode
+	st.SlowDriftPx = slowDrift
 	return pts, st, err
 }
 
