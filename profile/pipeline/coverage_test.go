@@ -210,7 +210,8 @@ func zValues(got *summary.Summary, truth *synth.SummaryTruth) []zValue {
 		add("slip_stationary_um_per_s", sp.SlipStationaryUMPerS, sp.SlipStationaryErrUMPerS, tp.SlipStationaryUMPerS)
 		add("slip_moving_um_per_s", sp.SlipMovingUMPerS, sp.SlipMovingErrUMPerS, tp.SlipMovingUMPerS)
 		add("slip_fraction", sp.SlipFraction, sp.SlipFractionErr, tp.SlipFraction)
-		if len(tp.Bands) == 1 {
+		// Both take the slip over the shear rate of the band at the wall.
+		if len(sp.Bands) == len(tp.Bands) {
 			add("slip_length_stationary_um", sp.SlipLengthStationaryUM, sp.SlipLengthStationaryErrUM, tp.SlipLengthStationaryUM)
 			add("slip_length_moving_um", sp.SlipLengthMovingUM, sp.SlipLengthMovingErrUM, tp.SlipLengthMovingUM)
 		}
