@@ -26,13 +26,17 @@ import (
 const DefaultDiameterPx = 5
 
 // maskMarginFactor keeps detections this many tracer radii away from each
-// wall line. The walls' profiles are subtracted next to them
-// (detect.Options.Walls), but the texture of a moving plate, which the
-// median image does not hold, still makes spots on the plate's edge.
-const maskMarginFactor = 1.0
+// wall line: none, since the walls' profiles are subtracted next to them
+// (detect.Options.Walls, which also leaves out a plate the profile does not
+// model, such as a textured plate that moves) and a tracer touching a wall
+// is where slip is read; those closer than tracks.NearWallRadii are
+// flagged instead.
+const maskMarginFactor = 0.0
 
-// maskSlackPx admits centres this far beyond the margin.
-const maskSlackPx = 0.0
+// maskSlackPx admits centres this far beyond a wall line: a tracer touching
+// the wall, put there by localization noise of about 0.1 px RMS, five
+// times that.
+const maskSlackPx = 0.5
 
 // fastestTracerFraction: without a motion program the linker allows a
 // wall speed that moves a tracer across this fraction of the image width

@@ -141,6 +141,10 @@ type Detector struct {
 	// profile subtracted, for frames of bandsW x bandsH.
 	bands          []wallBand
 	bandsW, bandsH int
+	// cutPlate marks, in this frame, the walls whose plate is left out
+	// (unmodelledPlates); plateS and gapS are its samples.
+	cutPlate     []bool
+	plateS, gapS []float32
 }
 
 type candidate struct {
@@ -342,9 +346,10 @@ func (d *Detector) Frame(img gocv.Mat, frame int, out []Detection) ([]Detection,
 		if err := d.applyWalls(img, y0, d.polarity == PolarityDark); err != nil {
 			return out, err
 		}
+		px.cutPlate = d.cutPlate
 		for i := range d.bands {
 			b := &d.bands[i]
-			px.bands = append(px.bands, bandRef{ia: b.ia, ib: b.ib, ref: b.refPx})
+			px.bands = append(px.bands, bandRef{ia: b.ia, ib: b.ib, ref: b.refPx, ra: b.ra, rb: b.rb, side: b.side})
 		}
 	}
 	var err error
@@ -410,14 +415,19 @@ type pixels struct {
 	refOff int      // index in the frame of refU8[0] or refU16[0]
 	w, h   int
 	sign   float64
-	// bands replace ref on the rows next to the walls.
-	bands []bandRef
+	// bands replace ref on the rows next to the walls; cutPlate marks the
+	// walls whose plate is left out.
+	bands    []bandRef
+	cutPlate []bool
 }
 
-// bandRef is the reference of rows [ia, ib) of the frame, row-major.
+// bandRef is the reference of rows [ia, ib) of the frame, row-major, and
+// the plate side of rows [ra, rb) (wallBand.side).
 type bandRef struct {
 	ia, ib int
 	ref    []float32
+	ra, rb int
+	side   []int8
 }
 
 // bandRow returns the reference row of frame row y in a wall band, or nil.

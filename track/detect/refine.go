@@ -2,6 +2,7 @@ package detect
 
 import (
 	"math"
+	"slices"
 
 	"gaptrace/calib/robust"
 )
@@ -22,10 +23,26 @@ func (d *Detector) refine(p *pixels, x0, y0 int, models []spotModel) (Detection,
 	} else {
 		p.windowClipped(d.win, d.valid, x0, y0, R, wall)
 	}
+	complete := inside
+	if wall && slices.Contains(p.cutPlate, true) {
+		// Leave out the pixels of a plate the profile does not model.
+		if inside {
+			for k := range d.valid[:n*n] {
+				d.valid[k] = true
+			}
+		}
+		for j := range n {
+			for i := range n {
+				if x, y := x0-R+i, y0-R+j; d.valid[j*n+i] && p.cut(x, y) {
+					d.valid[j*n+i], complete = false, false
+				}
+			}
+		}
+	}
 	if len(models) > 0 {
 		d.subtractModels(x0, y0, R, models)
 	}
-	if !inside && !d.fitMasked(R) {
+	if !complete && !d.fitMasked(R) {
 		return Detection{}, false
 	}
 	// The window's border, more than 4 sd from the candidate, holds no

@@ -4,6 +4,9 @@ import (
 	"fmt"
 	"image"
 	"math"
+	"slices"
+
+	"gaptrace/calib/robust"
 
 	"gocv.io/x/gocv"
 )
@@ -13,6 +16,20 @@ import (
 // modelled band reaches into the gap, px (common practice: 3 line-spread
 // sds of 1 px).
 const wallInnerSlackPx = 3
+
+const (
+	// plateCutPx is how far into the gap from a wall line the pixels of an
+	// unmodelled plate are left out: the plate's light reaches a line
+	// spread (about half a pixel, common practice) into the gap.
+	plateCutPx = 0.5
+	// plateNoiseRatio decides that a plate is not modelled by its profile:
+	// the frame minus the profile varies this many times more on the
+	// plate than in the gap beside it (a textured plate that moves, so
+	// that the median image does not hold its texture).
+	plateNoiseRatio = 2
+	// plateSampleStep samples every few pixels of a band for that test.
+	plateSampleStep = 3
+)
 
 // wallInnerPx returns the reach, on either side of a wall line, of the rows
 // whose band-pass and refinement see the frame with the wall's profile
@@ -50,6 +67,12 @@ type wallBand struct {
 	// reference of the refinement (model plus box mean) on the inner rows.
 	f, gs, bx, bp, bpT, ref gocv.Mat
 	refPx                   []float32
+	// side[k] is, for pixel k of the filtered rows, the index of the wall
+	// on whose plate it lies beyond plateCutPx, +1, or 0 in the gap;
+	// dist[k] its distance from that wall's line into the gap (negative on
+	// the plate), px.
+	side []int8
+	dist []float32
 }
 
 func (b *wallBand) mats() []*gocv.Mat {
@@ -108,18 +131,24 @@ func (d *Detector) buildBands(w, h, y0, y1 int) error {
 		}
 		rows := b.rb - b.ra
 		model := make([]float32, rows*w)
+		b.side, b.dist = make([]int8, rows*w), make([]float32, rows*w)
 		for r := range rows {
 			y := float64(b.ra + r)
 			for x := range w {
 				// The profile of the nearer wall.
-				best, bd := 0.0, math.Inf(1)
-				for _, p := range d.opt.Walls {
+				best, bd, bi := 0.0, math.Inf(1), 0
+				for i, p := range d.opt.Walls {
 					dist := math.Abs(y - p.Line.YAt(float64(x)))
 					if dist < bd {
-						best, bd = p.At(float64(x), y), dist
+						best, bd, bi = p.At(float64(x), y), dist, i
 					}
 				}
 				model[r*w+x] = float32(best)
+				into := d.intoGap(bi, float64(x), y)
+				b.dist[r*w+x] = float32(into)
+				if into < plateCutPx {
+					b.side[r*w+x] = int8(bi + 1)
+				}
 			}
 		}
 		m, err := gocv.NewMatFromBytes(rows, w, gocv.MatTypeCV32F, float32Bytes(model))
@@ -135,6 +164,78 @@ func (d *Detector) buildBands(w, h, y0, y1 int) error {
 	return nil
 }
 
+// intoGap returns the distance of (x, y) from wall i's line towards the
+// gap (the side of the other walls; with one wall, the side of the frame's
+// middle row), px, perpendicular.
+func (d *Detector) intoGap(i int, x, y float64) float64 {
+	l := d.opt.Walls[i].Line
+	toward := float64(d.bandsH) / 2
+	for j, o := range d.opt.Walls {
+		if j != i {
+			toward = o.Line.YAt(x)
+		}
+	}
+	dv := (y - l.YAt(x)) / math.Hypot(1, l.Slope)
+	if toward < l.YAt(x) {
+		dv = -dv
+	}
+	return dv
+}
+
+// unmodelledPlates sets d.cutPlate[i] when wall i's plate varies, in the
+// frame minus the profile, plateNoiseRatio times more than the gap beside
+// it: its pixels are then left out next to the wall.
+func (d *Detector) unmodelledPlates() {
+	n := len(d.opt.Walls)
+	if cap(d.cutPlate) < n {
+		d.cutPlate = make([]bool, n)
+	}
+	d.cutPlate = d.cutPlate[:n]
+	inner := d.wallInnerPx()
+	for i := range n {
+		d.plateS, d.gapS = d.plateS[:0], d.gapS[:0]
+		for bi := range d.bands {
+			b := &d.bands[bi]
+			f, err := b.f.DataPtrFloat32()
+			if err != nil {
+				continue
+			}
+			for k := 0; k < len(f); k += plateSampleStep {
+				dv := float64(b.dist[k])
+				if int(b.side[k]) == i+1 && dv < -2 && dv > -inner {
+					d.plateS = append(d.plateS, f[k])
+				} else if b.side[k] == 0 && dv > wallInnerSlackPx && dv < inner {
+					d.gapS = append(d.gapS, f[k])
+				}
+			}
+		}
+		d.cutPlate[i] = len(d.plateS) >= minNoiseSamples && len(d.gapS) >= minNoiseSamples &&
+			madOf(d.plateS) > plateNoiseRatio*madOf(d.gapS)
+	}
+}
+
+// madOf returns the median absolute deviation of v, reordering it.
+func madOf(v []float32) float64 {
+	med := robust.SelectKth(v, len(v)/2)
+	for i, x := range v {
+		v[i] = abs32(x - med)
+	}
+	return float64(robust.SelectKth(v, len(v)/2))
+}
+
+// cut reports whether frame pixel (x, y), in a wall band, lies on a plate
+// left out.
+func (p *pixels) cut(x, y int) bool {
+	for i := range p.bands {
+		b := &p.bands[i]
+		if y >= b.ra && y < b.rb {
+			s := b.side[(y-b.ra)*p.w+x]
+			return s > 0 && p.cutPlate[s-1]
+		}
+	}
+	return false
+}
+
 // applyWalls replaces the band-pass of d.cand (rows y0 on) on the wall
 // bands by that of the frame minus the walls' profile, and sets each band's
 // refinement reference.
@@ -146,6 +247,21 @@ func (d *Detector) applyWalls(img gocv.Mat, y0 int, dark bool) error {
 		src.ConvertTo(&b.f, gocv.MatTypeCV32F)
 		src.Close()
 		gocv.Subtract(b.f, b.model, &b.f)
+	}
+	d.unmodelledPlates()
+	for i := range d.bands {
+		b := &d.bands[i]
+		if slices.Contains(d.cutPlate, true) {
+			f, err := b.f.DataPtrFloat32()
+			if err != nil {
+				return err
+			}
+			for k, s := range b.side {
+				if s > 0 && d.cutPlate[s-1] {
+					f[k] = 0
+				}
+			}
+		}
 		gocv.GaussianBlur(b.f, &b.gs, image.Pt(d.ksize, d.ksize), d.sigma, d.sigma, gocv.BorderReflect101)
 		gocv.Blur(b.f, &b.bx, image.Pt(d.boxPx, d.boxPx))
 		if dark {
