@@ -902,16 +902,33 @@ func (r *Result) shared(placed []placedTracer, o Options) {
 		own += math.Pi / 2 * 1.5 * o.SigmaUM * o.SigmaUM / float64(len(d))
 		n++
 	}
-	if n < minSharedFrames {
-		return
+	if v := (s2 - own) / math.Max(1, float64(n)) / 1.5; n >= minSharedFrames && v > 0 {
+		r.SharedFrameUM = math.Sqrt(v)
 	}
-	v := (s2 - own) / float64(n) / 1.5
-	if !(v > 0) {
-		return
-	}
-	r.SharedFrameUM = math.Sqrt(v)
 	final := math.Max(1, math.Round(FinalFraction*(o.EndS-o.StopS)/o.DtS))
 	r.SharedUM = r.SharedFrameUM * math.Sqrt(1/final+4.0/RefFrames)
+	// A continuous motion starts from zero at the stop: what the tracers
+	// share at the first frame after it is an error of their references
+	// (the camera's motion removed across the stop, a codec's shift of
+	// moving tracers), which every later displacement carries too.
+	if ref := r.firstFrameShift(placed, o); !math.IsNaN(ref) {
+		r.SharedUM = math.Hypot(r.SharedUM, ref)
+	}
+}
+
+// firstFrameShift returns the median displacement of the tracers at the
+// first frame after the stop, um (NaN with too few tracers there).
+func (r *Result) firstFrameShift(placed []placedTracer, o Options) float64 {
+	var d []float64
+	for _, p := range placed {
+		if len(p.after) > 0 && p.after[0].tS <= o.StopS+1.5*o.DtS {
+			d = append(d, p.after[0].xUM-p.xRef)
+		}
+	}
+	if len(d) < minSharedTracers {
+		return math.NaN()
+	}
+	return math.Abs(robust.Median(d))
 }
 
 // budget sets the combined uncertainties of the recovered strain, the
