@@ -33,6 +33,15 @@ type Options struct {
 // (common practice).
 const ScaleMismatchFrac = 0.02
 
+// MaxScaleMismatchFrac: beyond this relative difference between the walls'
+// distance at the stated scale and the geometry's gap, the lines found are
+// not the tool's walls (an edge of the frame, a reflection, a pattern in
+// the image) or the scale or gap is wrong: a tilt of the camera, the
+// spread of a focus or a lens shortens the distance by a few per cent, not
+// by a quarter. The recording is refused rather than analysed with walls
+// that cannot be right.
+const MaxScaleMismatchFrac = 0.25
+
 // Calibrate builds the calibration of a recording from its median image
 // (see frames.Median) and the experiment file: the walls (from
 // walls.stationary_px and walls.moving_px when given, else detected), the
@@ -187,6 +196,11 @@ func FromWalls(top, bottom walls.Line, w, h int, e *experiment.Experiment, lens 
 		c.UMPerPx, c.ScaleSource = targetUMPerPx, ScaleTarget
 	default:
 		c.UMPerPx, c.ScaleSource = fromGap, ScaleGap
+	}
+	if d := c.UMPerPx/fromGap - 1; math.Abs(d) > MaxScaleMismatchFrac && len(e.Walls.MovingPx) == 0 {
+		return nil, fmt.Errorf("calibration: the walls found are %.1f px apart, %.0f um at the %s scale of %.4g um/px, but the geometry's gap is %.0f um (%+.0f%%, more than %.0f%%): "+
+			"they are not the tool's walls, or camera.um_per_px or the geometry is wrong; check them, or give the wall lines in the experiment file",
+			gapPx, gapPx*c.UMPerPx, c.ScaleSource, c.UMPerPx, gapUM, 100*d, 100*MaxScaleMismatchFrac)
 	}
 	if d := c.UMPerPx/fromGap - 1; math.Abs(d) > ScaleMismatchFrac {
 		c.Warnings = append(c.Warnings, fmt.Sprintf(

@@ -173,6 +173,9 @@ func TestCalibrateErrors(t *testing.T) {
 			e.Walls.StationaryPx = [][2]float64{{0, 100}, {639, 100}}
 			e.Walls.MovingPx = [][2]float64{{0, 400}, {639, 400}}
 		}, "walls.moving is \"top\""},
+		{"walls 74 % off the gap at the stated scale", med, func(e *experiment.Experiment) {
+			e.Camera.UMPerPx *= 1.74
+		}, "more than 25%"},
 		{"checkerboard that cannot be found", med, func(e *experiment.Experiment) {
 			e.Camera.UMPerPx = 0
 			e.Camera.Target = &experiment.Target{Image: "blank.png", Kind: experiment.Checkerboard, PitchUM: 100, Corners: [2]int{9, 6}}
