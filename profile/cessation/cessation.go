@@ -178,7 +178,8 @@ type Result struct {
 	// plane_um, noise_floor_um), each component's standard uncertainty.
 	Budget map[string]map[string]float64
 
-	onsetIdx int // index in Amplitude of the onset's frame
+	onsetIdx     int     // index in Amplitude of the onset's frame
+	restSharedUM float64 // the shared displacement at rest (restFloor)
 }
 
 // FloorSigma is how many combined standard uncertainties make the noise
@@ -232,8 +233,8 @@ func Analyze(ts []velocity.Track, o Options) (*Result, error) {
 	}
 	refNoise := o.SigmaUM * 2 / math.Sqrt(RefFrames)
 	r.NoiseFloorUM, r.NoiseSource = math.Hypot(o.SigmaUM, refNoise), FromLocalization
-	if nf, ok := restFloor(ts, o); ok {
-		r.NoiseFloorUM, r.NoiseSource = nf, FromRest
+	if nf, rs, ok := restFloor(ts, o); ok {
+		r.NoiseFloorUM, r.NoiseSource, r.restSharedUM = nf, FromRest, rs
 	}
 	if err := r.profiles(placed, o); err != nil {
 		return nil, err
@@ -421,11 +422,17 @@ const minRestSamples = 200
 // displacements after the stop are measured: a reference from a line
 // through a track's first RefFrames points there, then the robust spread of
 // its displacements from that reference at its later points.
-func restFloor(ts []velocity.Track, o Options) (float64, bool) {
+//
+// It also returns the displacement the tracers share at rest, um: the rms
+// over the frames of the median of the frame's displacements, the slow
+// common motion (residual camera drift, codec shifts) that the same
+// measurement after the stop would carry too.
+func restFloor(ts []velocity.Track, o Options) (float64, float64, bool) {
 	if !(o.RestS[1] > o.RestS[0]) {
-		return 0, false
+		return 0, 0, false
 	}
 	var d []float64
+	byFrame := map[int][]float64{}
 	for _, t := range ts {
 		var in []float64
 		var tt []float64
@@ -456,13 +463,28 @@ func restFloor(ts []velocity.Track, o Options) (float64, bool) {
 		ref := (sx*stt - st*stx) / den
 		for k := RefFrames; k < len(in); k++ {
 			d = append(d, in[k]-ref)
+			f := int(math.Round(tt[k] / o.DtS))
+			byFrame[f] = append(byFrame[f], in[k]-ref)
 		}
 	}
 	if len(d) < minRestSamples {
-		return 0, false
+		return 0, 0, false
 	}
 	_, mad := robust.MAD(d)
-	return robust.MADToSigma * mad, true
+	var s2 float64
+	n := 0
+	for _, v := range byFrame {
+		if len(v) >= minSharedTracers {
+			m := robust.Median(v)
+			s2 += m * m
+			n++
+		}
+	}
+	shared := 0.0
+	if n >= minSharedFrames {
+		shared = math.Sqrt(s2 / float64(n))
+	}
+	return robust.MADToSigma * mad, shared, true
 }
 
 // LogTimes returns n times after the stop, log-spaced from one frame dtS to
@@ -914,6 +936,8 @@ func (r *Result) shared(placed []placedTracer, o Options) {
 	if ref := r.firstFrameShift(placed, o); !math.IsNaN(ref) {
 		r.SharedUM = math.Hypot(r.SharedUM, ref)
 	}
+	// The slow common motion measured at rest before the shear.
+	r.SharedUM = math.Hypot(r.SharedUM, r.restSharedUM)
 }
 
 // firstFrameShift returns the median displacement of the tracers at the
