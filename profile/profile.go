@@ -16,6 +16,7 @@ import (
 	"fmt"
 	"math"
 	"slices"
+	"strings"
 
 	"gaptrace/calib"
 	"gaptrace/calib/experiment"
@@ -42,8 +43,10 @@ type Options struct {
 	// Bins is the number of layers across the gap (layers.DefaultBins).
 	Bins int
 	// Windows, when given, replace the default steady window (the second
-	// half) of each shear phase they overlap: the first overlapping one is
-	// decomposed. All are written to the profile table.
+	// half) of the shear phase each overlaps most: each is decomposed into
+	// its own entry of ShearPhases (several for a phase with several
+	// windows, in the order given). A window that overlaps no shear phase
+	// is an error. All are written to the profile table.
 	Windows []Window
 	// MapWindows is the number of windows of the space-time map over the
 	// whole recording (DefaultMapWindows).
@@ -315,28 +318,21 @@ func Analyze(pts []tracks.Point, e *experiment.Experiment, c *calib.Calibration,
 		userProfiles = append(userProfiles, p)
 	}
 
+	byStep, err := assignWindows(userProfiles, steps)
+	if err != nil {
+		return nil, err
+	}
+	for i, u := range userProfiles {
+		if k := byStep.step[i]; byStep.straddles[i] {
+			r.Warnings = append(r.Warnings, fmt.Sprintf("window %q (%.4g-%.4g s) straddles more than one phase; it is analysed with shear phase %d (%.4g-%.4g s), which it overlaps most",
+				u.Name, u.T0S, u.T1S, k+1, steps[k].StartS, steps[k].EndS))
+		}
+	}
 	n := 0
-	for _, st := range steps {
+	for k, st := range steps {
 		n++
-		sh := Shear{Step: st, NominalStrain: st.Strain}
-		win := Window{Name: fmt.Sprintf("shear%d", n), T0S: st.EndS - SteadyFraction*st.DurationS(), T1S: st.EndS}
-		var steady *WindowProfile
-		for i, u := range userProfiles {
-			if u.T0S < st.EndS && u.T1S > st.StartS {
-				steady = &userProfiles[i]
-				break
-			}
-		}
-		if steady == nil {
-			p, err := prof(win, o.Replicates, o.Seed+uint64(n))
-			if err != nil {
-				return nil, err
-			}
-			r.Profiles = append(r.Profiles, p)
-			steady = &p
-		}
-		sh.Steady = *steady
-		sp := summary.ShearPhase{StartS: st.StartS, EndS: st.EndS, WindowS: [2]float64{steady.T0S, steady.T1S},
+		base := Shear{Step: st, NominalStrain: st.Strain}
+		bsp := summary.ShearPhase{StartS: st.StartS, EndS: st.EndS,
 			WallSpeedUMPerS: summary.Num(st.WallSpeedUMPerS), NominalRatePerS: summary.Num(st.RatePerS),
 			BulkRatePerS: summary.Null, BulkRateErrPerS: summary.Null, SlipStationaryUMPerS: summary.Null,
 			SlipStationaryErrUMPerS: summary.Null, SlipMovingUMPerS: summary.Null, SlipMovingErrUMPerS: summary.Null,
@@ -345,34 +341,6 @@ func Analyze(pts []tracks.Point, e *experiment.Experiment, c *calib.Calibration,
 			SlipFractionErr: summary.Null, Bands: []summary.Band{}, InTimeWindowS: summary.Null,
 			InhomogeneityOnsetS: summary.Null, InhomogeneityOnsetErrS: summary.Null, InhomogeneityOnsetStrain: summary.Null,
 			PhaseStress: summary.NoStress, Budget: summary.Budget{}}
-		d, err := rheometry.Decompose(steady.Bins, geom, st.WallSpeedUMPerS, rheometry.Options{})
-		if err != nil {
-			r.Warnings = append(r.Warnings, fmt.Sprintf("shear phase %d (%g-%g s): %v", n, st.StartS, st.EndS, err))
-		} else {
-			sh.Decomposition = d
-			shared := sharedErrors(c, gap)
-			shared.VelocityRel = o.VelocityRel
-			shared.CommonUMPerS = velocity.CommonOffsetErr(all, steady.T0S, steady.T1S, func(y float64) float64 { v, _ := d.FitAt(y); return v })
-			if math.IsNaN(shared.CommonUMPerS) {
-				shared.CommonUMPerS = 0
-				r.Warnings = append(r.Warnings, fmt.Sprintf("shear phase %d (%g-%g s): too few tracers to measure the motion they share; the budget leaves it out", n, st.StartS, st.EndS))
-			}
-			if b, err := d.Budget(steady.Bins, shared); err != nil {
-				r.Warnings = append(r.Warnings, fmt.Sprintf("shear phase %d (%g-%g s): %v; the errors are the statistical ones alone", n, st.StartS, st.EndS, err))
-			} else {
-				d.ApplyBudget(b)
-				sp.Budget = budgetOf(b)
-			}
-			fillShear(&sp, d)
-			if math.IsNaN(st.WallSpeedUMPerS) {
-				r.Warnings = append(r.Warnings, wallFromFluid(&sp, &sh, d, geom, n))
-			}
-			for k := 0; k <= curvePoints; k++ {
-				y := gap * float64(k) / curvePoints
-				v, ve := d.FitAt(y)
-				sh.Fit = append(sh.Fit, CurvePoint{YUM: y, VUMPerS: v, ErrUMPerS: ve})
-			}
-		}
 		for _, mp := range mapProfiles {
 			if mp.T0S < st.StartS || mp.T1S > st.EndS {
 				continue
@@ -381,7 +349,7 @@ func Analyze(pts []tracks.Point, e *experiment.Experiment, c *calib.Calibration,
 			if err != nil {
 				continue
 			}
-			sh.Series = append(sh.Series, SeriesPoint{TS: (mp.T0S + mp.T1S) / 2,
+			base.Series = append(base.Series, SeriesPoint{TS: (mp.T0S + mp.T1S) / 2,
 				BulkRatePerS: md.BulkRatePerS, BulkRateErrPerS: md.BulkRateErrPerS,
 				SlipStationaryUMPerS: md.SlipStationaryUMPerS, SlipStationaryErrUMPerS: md.SlipStationaryErrUMPerS,
 				SlipMovingUMPerS: md.SlipMovingUMPerS, SlipMovingErrUMPerS: md.SlipMovingErrUMPerS})
@@ -390,11 +358,67 @@ func Analyze(pts []tracks.Point, e *experiment.Experiment, c *calib.Calibration,
 		if err != nil {
 			return nil, err
 		}
-		sh.LocalStrain = localStrain(whole.Bins, geom, st.DurationS())
-		r.inTime(&sh, &sp, ts, whole, geom, o, sigma, n, sharedErrors(c, gap))
-		sh.Summary = sp
-		r.Shear = append(r.Shear, sh)
-		r.ShearPhases = append(r.ShearPhases, sp)
+		base.LocalStrain = localStrain(whole.Bins, geom, st.DurationS())
+		r.inTime(&base, &bsp, ts, whole, geom, o, sigma, n, sharedErrors(c, gap))
+
+		// The phase's windows: the user's that fall in it, each its own
+		// entry, else the default steady window.
+		var wins []*WindowProfile
+		for i := range userProfiles {
+			if byStep.step[i] == k {
+				wins = append(wins, &userProfiles[i])
+			}
+		}
+		if len(wins) == 0 {
+			win := Window{Name: fmt.Sprintf("shear%d", n), T0S: st.EndS - SteadyFraction*st.DurationS(), T1S: st.EndS}
+			p, err := prof(win, o.Replicates, o.Seed+uint64(n))
+			if err != nil {
+				return nil, err
+			}
+			r.Profiles = append(r.Profiles, p)
+			wins = append(wins, &p)
+		}
+		for _, steady := range wins {
+			sh, sp := base, bsp
+			sp.Bands = []summary.Band{}
+			sh.Steady = *steady
+			sp.WindowS = [2]float64{steady.T0S, steady.T1S}
+			label := fmt.Sprintf("shear phase %d (%g-%g s)", n, st.StartS, st.EndS)
+			if len(wins) > 1 {
+				label += fmt.Sprintf(", window %q (%g-%g s)", steady.Name, steady.T0S, steady.T1S)
+			}
+			d, err := rheometry.Decompose(steady.Bins, geom, st.WallSpeedUMPerS, rheometry.Options{})
+			if err != nil {
+				r.Warnings = append(r.Warnings, fmt.Sprintf("%s: %v", label, err))
+			} else {
+				sh.Decomposition = d
+				shared := sharedErrors(c, gap)
+				shared.VelocityRel = o.VelocityRel
+				shared.CommonUMPerS = velocity.CommonOffsetErr(all, steady.T0S, steady.T1S, func(y float64) float64 { v, _ := d.FitAt(y); return v })
+				if math.IsNaN(shared.CommonUMPerS) {
+					shared.CommonUMPerS = 0
+					r.Warnings = append(r.Warnings, fmt.Sprintf("%s: too few tracers to measure the motion they share; the budget leaves it out", label))
+				}
+				if b, err := d.Budget(steady.Bins, shared); err != nil {
+					r.Warnings = append(r.Warnings, fmt.Sprintf("%s: %v; the errors are the statistical ones alone", label, err))
+				} else {
+					d.ApplyBudget(b)
+					sp.Budget = budgetOf(b)
+				}
+				fillShear(&sp, d)
+				if math.IsNaN(st.WallSpeedUMPerS) {
+					r.Warnings = append(r.Warnings, wallFromFluid(&sp, &sh, d, geom, n))
+				}
+				for k := 0; k <= curvePoints; k++ {
+					y := gap * float64(k) / curvePoints
+					v, ve := d.FitAt(y)
+					sh.Fit = append(sh.Fit, CurvePoint{YUM: y, VUMPerS: v, ErrUMPerS: ve})
+				}
+			}
+			sh.Summary = sp
+			r.Shear = append(r.Shear, sh)
+			r.ShearPhases = append(r.ShearPhases, sp)
+		}
 	}
 	r.Profiles = append(r.Profiles, userProfiles...)
 	r.Profiles = append(r.Profiles, mapProfiles...)
@@ -742,3 +766,43 @@ func (r *Result) afterStop(ts []velocity.Track, steps []experiment.Step, o Optio
 	r.AfterStop = a
 	return nil
 }
+
+// windowSteps says which step each user window belongs to.
+type windowSteps struct {
+	step      []int  // the step each window overlaps most
+	straddles []bool // the window overlaps more than one phase
+}
+
+// assignWindows gives each user window the shear step it overlaps most;
+// a window that overlaps none is an error naming it.
+func assignWindows(ws []WindowProfile, steps []experiment.Step) (windowSteps, error) {
+	out := windowSteps{step: make([]int, len(ws)), straddles: make([]bool, len(ws))}
+	for i, w := range ws {
+		best, bestOv := -1, 0.0
+		for k, st := range steps {
+			ov := math.Min(w.T1S, st.EndS) - math.Max(w.T0S, st.StartS)
+			if ov > bestOv {
+				best, bestOv = k, ov
+			}
+		}
+		if best < 0 {
+			var ph []string
+			for _, st := range steps {
+				ph = append(ph, fmt.Sprintf("%.4g-%.4g s", st.StartS, st.EndS))
+			}
+			if len(ph) == 0 {
+				ph = append(ph, "none")
+			}
+			return out, fmt.Errorf("window %q (%g-%g s) overlaps no shear phase (shear phases: %s); every window is analysed as part of one",
+				w.Name, w.T0S, w.T1S, strings.Join(ph, ", "))
+		}
+		out.step[i] = best
+		out.straddles[i] = bestOv < (w.T1S-w.T0S)*(1-windowStraddleFrac)
+	}
+	return out, nil
+}
+
+// windowStraddleFrac: a window of which more than this fraction lies
+// outside its shear phase straddles phases (a frame's rounding at its
+// ends does not count).
+const windowStraddleFrac = 0.02
