@@ -78,8 +78,16 @@ type Options struct {
 	// Log, when not nil, is the rheometer log: its torque or stress gives
 	// each shear phase's wall stress and stress maximum (package
 	// wallstress).
-	Log  *rheolog.Log
-	Seed uint64
+	Log *rheolog.Log
+	// LinkMaxStepUM is the largest displacement per frame the linker
+	// followed, um (0: unknown): a moving wall faster than that makes the
+	// verdict inconclusive.
+	LinkMaxStepUM float64
+	// PhaseDisagreements are shear phases whose times in the video
+	// disagree with the program's or the log's: their verdict is
+	// inconclusive.
+	PhaseDisagreements []PhaseDisagreement
+	Seed               uint64
 }
 
 // EveryAuto, as Options.EveryS, asks for the time-resolved windows at the
@@ -423,6 +431,7 @@ func Analyze(pts []tracks.Point, e *experiment.Experiment, c *calib.Calibration,
 	r.Profiles = append(r.Profiles, userProfiles...)
 	r.Profiles = append(r.Profiles, mapProfiles...)
 	r.wallStress(o, geom)
+	r.plausibility(e, o)
 
 	if err := r.afterStop(ts, steps, o, gap, dt, sigma, t1); err != nil {
 		return nil, err

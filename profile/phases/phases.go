@@ -167,3 +167,54 @@ func ClockShift(logged, detected []Phase, fps float64) (shiftS float64, ok bool)
 	}
 	return m, math.Abs(m) > tol
 }
+
+// DisagreeFrames is the disagreement between the program's (or log's)
+// times of a shear phase and the video's, in frames, beyond which the
+// phase's results are inconclusive: the limit of one frame, the
+// resolution of the video's own timing.
+const DisagreeFrames = 1
+
+// Disagreement is a shear phase whose start or end in the video differs
+// from the program's by more than DisagreeFrames frames.
+type Disagreement struct {
+	Shear      int    // index among the shear phases, from 0
+	What       string // "starts" or "ends"
+	ProgramS   float64
+	DetectedS  float64
+	Source     string // the program's source: experiment or log
+	DiffFrames float64
+}
+
+// Disagreements pairs the shear phases of the program and of the video
+// (when they count the same) and returns those whose start or end differ
+// by more than DisagreeFrames frames.
+func Disagreements(program, detected []Phase, fps float64) []Disagreement {
+	ps, ds := shears(program), shears(detected)
+	if len(ps) == 0 || len(ps) != len(ds) || !(fps > 0) {
+		return nil
+	}
+	var out []Disagreement
+	for i := range ps {
+		for _, c := range []struct {
+			what string
+			p, d float64
+		}{{"starts", ps[i].StartS, ds[i].StartS}, {"ends", ps[i].EndS, ds[i].EndS}} {
+			if diff := (c.d - c.p) * fps; math.Abs(diff) > DisagreeFrames {
+				out = append(out, Disagreement{Shear: i, What: c.what, ProgramS: c.p, DetectedS: c.d, Source: ps[i].Source, DiffFrames: diff})
+			}
+		}
+	}
+	return out
+}
+
+// Advice says which of the two times to trust, and why.
+func (d Disagreement) Advice() string {
+	if d.Source == SourceLog {
+		return fmt.Sprintf("the phase %s at %.4g s in the rheometer log but at %.4g s in the video (%+.1f frames): the log's time is used, which is right only when its clock is put on the video's; "+
+			"the video sees the moving wall itself, so trust it and shift the log by --log-offset %+.3g s if every phase is off by the same, else check the log",
+			d.What, d.ProgramS, d.DetectedS, d.DiffFrames, d.DetectedS-d.ProgramS)
+	}
+	return fmt.Sprintf("the phase %s at %.4g s in the experiment file's motion program but at %.4g s in the video (%+.1f frames): the program's time is used, but a program gives the planned times and the video the measured ones; "+
+		"trust the video, and correct the motion's start_s and end_s (or give the rheometer's log with --log)",
+		d.What, d.ProgramS, d.DetectedS, d.DiffFrames)
+}

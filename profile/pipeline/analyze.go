@@ -44,7 +44,10 @@ func Analyze(ctx context.Context, cfg Config, t *Tracked) (*Analysis, error) {
 	cfg = t.logConfig(cfg)
 	cfg.report(StageProfile, 0, 1)
 	opt := profile.Options{Bins: cfg.Bins, Windows: cfg.Windows, EveryS: cfg.EveryS, Seed: cfg.Seed, Phases: t.Phases, Log: cfg.Log,
-		VelocityRel: TrackingVelocityRel}
+		VelocityRel: TrackingVelocityRel, LinkMaxStepUM: t.MaxStepUM}
+	for _, d := range t.Disagreements {
+		opt.PhaseDisagreements = append(opt.PhaseDisagreements, profile.PhaseDisagreement{Shear: d.Shear, Message: d.Advice()})
+	}
 	// Steps outside the recording are left out, with a warning.
 	if prog, err := cfg.program(); err != nil {
 		return nil, err

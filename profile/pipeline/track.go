@@ -77,6 +77,12 @@ type Tracked struct {
 	LogShiftS float64
 	// Warnings are doubts raised on the way, for the summary.
 	Warnings []string
+	// MaxStepUM is the largest displacement per frame the linker
+	// followed, um (0 for tracks read from a file).
+	MaxStepUM float64
+	// Disagreements are the shear phases whose times in the video differ
+	// from the program's or the log's by more than a frame.
+	Disagreements []phases.Disagreement
 }
 
 // Diagnostics describes the detections: each one's signal-to-noise ratio
@@ -262,6 +268,7 @@ func (r *Recording) linkAll(ctx context.Context, t *Tracked, dets [][]link.Detec
 			"the tracers alone cannot tell a swaying camera from a uniform motion of the sample, so motion uniform across the gap at rest or after the stop may be the camera's, not slip",
 			st.SlowDriftPx, link.JitterWindowFrames))
 	}
+	t.MaxStepUM = opt.MaxStepPx * cal.UMPerPx
 	r.cfg.report(StageLink, 1, 1)
 	return ctx.Err()
 }
@@ -321,6 +328,7 @@ func (t *Tracked) findPhases(cfg *Config, prog experiment.Program) {
 	}
 	use, warn := phases.Reconcile(progPhases, det.Phases, t.Info.FPS)
 	t.Warnings = append(t.Warnings, warn...)
+	t.Disagreements = phases.Disagreements(progPhases, det.Phases, t.Info.FPS)
 	if len(prog) == 0 {
 		t.Phases = use
 	}

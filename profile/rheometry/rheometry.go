@@ -42,6 +42,9 @@ const (
 	WallSlip       = "wall_slip"
 	Banded         = "banded"
 	WallSlipBanded = "wall_slip+banded"
+	// Inconclusive is the verdict of results that contradict themselves or
+	// the physics (the plausibility checks of package profile).
+	Inconclusive = "inconclusive"
 )
 
 // VerdictOf returns the verdict of a shear phase with or without
