@@ -94,14 +94,19 @@ type Walls struct {
 
 // Segment is one step of the imposed wall program: between StartS and EndS
 // the moving wall travels at a constant speed, given by exactly one of
-// RatePerS (the nominal rate), WallSpeedUMPerS, or Strain (the nominal
-// strain, rate = strain / duration).
+// RatePerS (the nominal rate), WallSpeedUMPerS, Strain (the nominal
+// strain, rate = strain / duration), or in a rotational instrument's units
+// (instrument.go): AngularVelocityRadPerS or RPM of the rotating tool, or
+// AngleRad, the tool's deflection over the step.
 type Segment struct {
-	StartS          float64  `yaml:"start_s"`
-	EndS            float64  `yaml:"end_s"`
-	RatePerS        *float64 `yaml:"rate_per_s,omitempty"`
-	WallSpeedUMPerS *float64 `yaml:"wall_speed_um_per_s,omitempty"`
-	Strain          *float64 `yaml:"strain,omitempty"`
+	StartS                 float64  `yaml:"start_s"`
+	EndS                   float64  `yaml:"end_s"`
+	RatePerS               *float64 `yaml:"rate_per_s,omitempty"`
+	WallSpeedUMPerS        *float64 `yaml:"wall_speed_um_per_s,omitempty"`
+	Strain                 *float64 `yaml:"strain,omitempty"`
+	AngularVelocityRadPerS *float64 `yaml:"angular_velocity_rad_per_s,omitempty"`
+	RPM                    *float64 `yaml:"rpm,omitempty"`
+	AngleRad               *float64 `yaml:"angle_rad,omitempty"`
 }
 
 // Polarities of the tracers.
@@ -299,7 +304,7 @@ func (e *Experiment) Validate() error {
 			return fmt.Errorf("%s.end_s: %g does not come after start_s %g", key, s.EndS, s.StartS)
 		}
 		n := 0
-		for _, p := range []*float64{s.RatePerS, s.WallSpeedUMPerS, s.Strain} {
+		for _, p := range s.speeds() {
 			if p != nil {
 				n++
 				if math.IsNaN(*p) || math.IsInf(*p, 0) {
@@ -309,9 +314,12 @@ func (e *Experiment) Validate() error {
 		}
 		switch {
 		case n == 0:
-			return fmt.Errorf("%s: give one of rate_per_s, wall_speed_um_per_s or strain", key)
+			return fmt.Errorf("%s: give one of %s", key, speedKeys)
 		case n > 1:
-			return fmt.Errorf("%s: give only one of rate_per_s, wall_speed_um_per_s and strain (%s)", key, s.given())
+			return fmt.Errorf("%s: give only one of %s (%s)", key, speedKeys, s.given())
+		}
+		if err := s.checkRotation(key, e.Geometry); err != nil {
+			return err
 		}
 		if i > 0 && s.StartS < e.Motion[i-1].EndS {
 			return fmt.Errorf("%s.start_s: %g overlaps motion[%d], which ends at %g", key, s.StartS, i-1, e.Motion[i-1].EndS)
@@ -340,6 +348,7 @@ func (s Segment) given() string {
 	if s.Strain != nil {
 		k = append(k, fmt.Sprintf("strain=%g", *s.Strain))
 	}
+	k = append(k, s.givenRotation()...)
 	return strings.Join(k, ", ")
 }
 

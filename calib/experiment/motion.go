@@ -31,7 +31,9 @@ func (e *Experiment) Program() Program {
 		case s.WallSpeedUMPerS != nil:
 			st.RatePerS = g.NominalRate(*s.WallSpeedUMPerS)
 		}
-		if s.WallSpeedUMPerS != nil {
+		if v, ok := s.rotationSpeed(g); ok {
+			st.WallSpeedUMPerS, st.RatePerS = v, g.NominalRate(v)
+		} else if s.WallSpeedUMPerS != nil {
 			st.WallSpeedUMPerS = *s.WallSpeedUMPerS
 		} else {
 			st.WallSpeedUMPerS = g.WallSpeed(st.RatePerS)

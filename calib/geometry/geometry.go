@@ -38,10 +38,16 @@ type Geometry struct {
 	GapUM         float64 `yaml:"gap_um,omitempty" json:"gap_um,omitempty"`
 	RadiusMM      float64 `yaml:"radius_mm,omitempty" json:"radius_mm,omitempty"`
 	ConeAngleDeg  float64 `yaml:"cone_angle_deg,omitempty" json:"cone_angle_deg,omitempty"`
+	// ConeAngleRad is the cone angle in radians, instead of ConeAngleDeg.
+	ConeAngleRad float64 `yaml:"cone_angle_rad,omitempty" json:"cone_angle_rad,omitempty"`
 	InnerRadiusMM float64 `yaml:"inner_radius_mm,omitempty" json:"inner_radius_mm,omitempty"`
 	OuterRadiusMM float64 `yaml:"outer_radius_mm,omitempty" json:"outer_radius_mm,omitempty"`
 	// Rotating is "inner" (the default) or "outer" for a Couette cell.
 	Rotating string `yaml:"rotating,omitempty" json:"rotating,omitempty"`
+	// RateAt chooses a Couette cell's nominal rate (rates.go): "inner" or
+	// "outer", the Newtonian rate at that cylinder, or "representative"
+	// (the default), that of DIN 53019-1 / ISO 3219.
+	RateAt string `yaml:"rate_at,omitempty" json:"rate_at,omitempty"`
 	// LengthMM is a Couette cell's immersed length, mm: with the torque
 	// it gives the wall stress (optional).
 	LengthMM float64 `yaml:"length_mm,omitempty" json:"length_mm,omitempty"`
@@ -81,12 +87,15 @@ func (g Geometry) Validate() error {
 	for _, c := range []struct {
 		key string
 		v   float64
-	}{{"gap_um", g.GapUM}, {"radius_mm", g.RadiusMM}, {"cone_angle_deg", g.ConeAngleDeg},
+	}{{"gap_um", g.GapUM}, {"radius_mm", g.RadiusMM}, {"cone_angle_deg", g.ConeAngleDeg}, {"cone_angle_rad", g.ConeAngleRad},
 		{"inner_radius_mm", g.InnerRadiusMM}, {"outer_radius_mm", g.OuterRadiusMM},
 		{"length_mm", g.LengthMM}, {"area_mm2", g.AreaMM2}} {
 		if err := nonneg(c.key, c.v); err != nil {
 			return err
 		}
+	}
+	if err := g.checkRateAt(); err != nil {
+		return err
 	}
 	switch g.Kind {
 	case Plates:
@@ -100,11 +109,14 @@ func (g Geometry) Validate() error {
 		if err := pos("radius_mm", g.RadiusMM); err != nil {
 			return err
 		}
-		if err := pos("cone_angle_deg", g.ConeAngleDeg); err != nil {
+		if err := g.checkConeAngle(); err != nil {
 			return err
 		}
-		if g.ConeAngleDeg >= maxConeAngleDeg {
-			return fmt.Errorf("geometry.cone_angle_deg: %g is not a rheometer cone (must be below %d)", g.ConeAngleDeg, maxConeAngleDeg)
+		if err := pos("cone_angle_deg", g.coneAngleDeg()); err != nil {
+			return err
+		}
+		if g.coneAngleDeg() >= maxConeAngleDeg {
+			return fmt.Errorf("geometry.cone_angle_deg: %g is not a rheometer cone (must be below %d)", g.coneAngleDeg(), maxConeAngleDeg)
 		}
 		if g.GapUM > 0 {
 			return fmt.Errorf("geometry.gap_um: %g given for a cone-plate, whose gap is radius_mm x tan(cone_angle_deg); remove it", g.GapUM)
@@ -140,7 +152,7 @@ func (g Geometry) Validate() error {
 func (g Geometry) Gap() float64 {
 	switch g.Kind {
 	case ConePlate:
-		return g.RadiusMM * umPerMM * math.Tan(g.ConeAngleDeg*math.Pi/180)
+		return g.RadiusMM * umPerMM * math.Tan(g.coneAngleDeg()*math.Pi/180)
 	case Couette:
 		return (g.OuterRadiusMM - g.InnerRadiusMM) * umPerMM
 	default:
@@ -155,14 +167,6 @@ func (g Geometry) radii() (rotUM, statUM float64) {
 		return ro, ri
 	}
 	return ri, ro
-}
-
-// couetteRateFactor returns the representative shear rate of a Couette cell
-// per unit angular speed, (1 + delta^2) / (delta^2 - 1) with delta = Ro/Ri:
-// the representative shear rate of ISO 3219 / DIN 53019 (from memory).
-func (g Geometry) couetteRateFactor() float64 {
-	d := g.OuterRadiusMM / g.InnerRadiusMM
-	return (1 + d*d) / (d*d - 1)
 }
 
 // NominalRate returns the nominal shear rate in 1/s that the instrument

@@ -2,6 +2,7 @@ package report
 
 import (
 	"fmt"
+	"math"
 	"strconv"
 
 	"gaptrace/calib/geometry"
@@ -85,7 +86,7 @@ func newView(d *Data, figs []shownFigure, notShown []string) *view {
 		switch g.Kind {
 		case geometry.ConePlate:
 			v.Geometry = append(v.Geometry, [2]string{"rim radius", formatValue(g.RadiusMM, "mm")},
-				[2]string{"cone angle", formatValue(g.ConeAngleDeg, "°")})
+				[2]string{"cone angle", formatValue(g.ConeAngleRadians()*180/math.Pi, "°")})
 		case geometry.ParallelPlate:
 			v.Geometry = append(v.Geometry, [2]string{"rim radius", formatValue(g.RadiusMM, "mm")})
 		case geometry.Couette:
