@@ -34,12 +34,12 @@ const umPerMM = 1000.0
 // Geometry is the tool as written in the experiment file's geometry section.
 // Which fields are needed depends on Kind; see Validate.
 type Geometry struct {
-	Kind          Kind    `yaml:"kind" json:"kind"`
-	GapUM         float64 `yaml:"gap_um,omitempty" json:"gap_um,omitempty"`
-	RadiusMM      float64 `yaml:"radius_mm,omitempty" json:"radius_mm,omitempty"`
-	ConeAngleDeg  float64 `yaml:"cone_angle_deg,omitempty" json:"cone_angle_deg,omitempty"`
+	Kind         Kind    `yaml:"kind" json:"kind"`
+	GapUM        float64 `yaml:"gap_um,omitempty" json:"gap_um,omitempty"`
+	RadiusMM     float64 `yaml:"radius_mm,omitempty" json:"radius_mm,omitempty"`
+	ConeAngleDeg float64 `yaml:"cone_angle_deg,omitempty" json:"cone_angle_deg,omitempty"`
 	// ConeAngleRad is the cone angle in radians, instead of ConeAngleDeg.
-	ConeAngleRad float64 `yaml:"cone_angle_rad,omitempty" json:"cone_angle_rad,omitempty"`
+	ConeAngleRad  float64 `yaml:"cone_angle_rad,omitempty" json:"cone_angle_rad,omitempty"`
 	InnerRadiusMM float64 `yaml:"inner_radius_mm,omitempty" json:"inner_radius_mm,omitempty"`
 	OuterRadiusMM float64 `yaml:"outer_radius_mm,omitempty" json:"outer_radius_mm,omitempty"`
 	// Rotating is "inner" (the default) or "outer" for a Couette cell.
