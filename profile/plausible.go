@@ -17,10 +17,14 @@ const (
 	// beyond a physical limit to count as beyond it (the verdict rules'
 	// threshold, rheometry.SlipSigma).
 	implausibleSigma = rheometry.SlipSigma
-	// minKnownLayerFrac: with fewer than half of the layers holding
-	// enough tracers for a value, the profile is too sparse for slip and
-	// bands.
-	minKnownLayerFrac = 0.5
+	// minKnownLayers: a profile of fewer layers with a value than this
+	// cannot show slip at both walls and a bulk rate at once (a line
+	// through two points leaves nothing to test it); with fewer than
+	// sparseLayerFrac of the layers known, a warning says the profile is
+	// sparse (the verdict stands: sparse layers that reach both walls
+	// still measure slip and rate).
+	minKnownLayers  = 3
+	sparseLayerFrac = 0.5
 	// wallLayerFrac: the layers within this fraction of the gap of a wall
 	// carry the extrapolation to it; a wall without any of them known has
 	// no measured slip.
@@ -51,7 +55,8 @@ func (r *Result) plausibility(e *experiment.Experiment, o Options) {
 		}
 		var why []string
 		why = append(why, implausibleSlip(sh, e)...)
-		why = append(why, sparseLayers(sh.Steady.Bins)...)
+		sparse, note := sparseLayers(sh.Steady.Bins)
+		why = append(why, sparse...)
 		if o.LinkMaxStepUM > 0 && r.FrameIntervalS > 0 {
 			fastest := 0.0
 			for _, b := range sh.Steady.Bins {
@@ -73,12 +78,15 @@ func (r *Result) plausibility(e *experiment.Experiment, o Options) {
 				why = append(why, pd.Message)
 			}
 		}
+		label := fmt.Sprintf("shear phase %d (%.4g-%.4g s, window %.4g-%.4g s)", step+1, sh.Step.StartS, sh.Step.EndS, sh.Steady.T0S, sh.Steady.T1S)
+		if note != "" {
+			r.Warnings = append(r.Warnings, fmt.Sprintf("%s: %s", label, note))
+		}
 		if len(why) == 0 {
 			continue
 		}
 		sh.Summary.Verdict = rheometry.Inconclusive
 		r.ShearPhases[i].Verdict = rheometry.Inconclusive
-		label := fmt.Sprintf("shear phase %d (%.4g-%.4g s, window %.4g-%.4g s)", step+1, sh.Step.StartS, sh.Step.EndS, sh.Steady.T0S, sh.Steady.T1S)
 		for _, w := range why {
 			r.Warnings = append(r.Warnings, fmt.Sprintf("%s: inconclusive: %s", label, w))
 		}
@@ -153,10 +161,11 @@ func orZeroErr(e float64) float64 {
 }
 
 // sparseLayers says when too few layers hold a value, or none next to a
-// wall.
-func sparseLayers(bins []layers.Bin) []string {
+// wall (reasons for inconclusive), and when the profile is merely sparse
+// (a note).
+func sparseLayers(bins []layers.Bin) (why []string, note string) {
 	if len(bins) == 0 {
-		return nil
+		return nil, ""
 	}
 	known := 0
 	for _, b := range bins {
@@ -164,11 +173,13 @@ func sparseLayers(bins []layers.Bin) []string {
 			known++
 		}
 	}
-	var why []string
-	if float64(known) < minKnownLayerFrac*float64(len(bins)) {
-		why = append(why, fmt.Sprintf("only %d of %d layers across the gap hold enough tracers for a value (at least %d samples from %d tracks): too sparse for slip and bands (seed more tracers or analyse a longer window)",
+	if known < minKnownLayers {
+		why = append(why, fmt.Sprintf("only %d of %d layers across the gap hold enough tracers for a value (at least %d samples from %d tracks): too few for slip at both walls and a bulk rate (seed more tracers or analyse a longer window)",
 			known, len(bins), layers.DefaultMinSamples, layers.DefaultMinGroups))
-		return why
+		return why, ""
+	}
+	if float64(known) < sparseLayerFrac*float64(len(bins)) {
+		note = fmt.Sprintf("only %d of %d layers across the gap hold enough tracers for a value: a sparse profile, whose bands are coarse (seed more tracers or analyse a longer window)", known, len(bins))
 	}
 	edge := max(1, int(math.Round(wallLayerFrac*float64(len(bins)))))
 	var empty []string
@@ -188,5 +199,5 @@ func sparseLayers(bins []layers.Bin) []string {
 		why = append(why, fmt.Sprintf("no layer within %.0f %% of the gap of the %s wall holds enough tracers for a value: the slip there is an extrapolation over too far",
 			100*wallLayerFrac, strings.Join(empty, " and the ")))
 	}
-	return why
+	return why, note
 }

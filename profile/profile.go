@@ -713,7 +713,7 @@ func (r *Result) afterStop(ts []velocity.Track, steps []experiment.Step, o Optio
 	if math.IsNaN(st.WallSpeedUMPerS) && len(r.Shear) > 0 && r.Shear[len(r.Shear)-1].Decomposition != nil {
 		sense = math.Copysign(1, r.Shear[len(r.Shear)-1].Decomposition.BulkRatePerS)
 	}
-	co := cessation.Options{StopS: st.EndS, EndS: t1, ShearSense: sense,
+	co := cessation.Options{StopS: st.EndS, ShearStartS: st.StartS, EndS: t1, ShearSense: sense,
 		GapUM: gap, DtS: dt, SigmaUM: sigma, Bins: o.Bins, Seed: o.Seed + 3000}
 	if len(r.Phases) > 0 && r.Phases[0].Kind == phases.Rest {
 		co.RestS = [2]float64{r.Phases[0].StartS, r.Phases[0].EndS}

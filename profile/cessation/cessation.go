@@ -25,6 +25,12 @@ import (
 // Options describes the stop and the data around it.
 type Options struct {
 	StopS, EndS float64 // cessation time and end of the observation, s
+	// ShearStartS, when below StopS, is the start of the stopped shear
+	// phase: the line that places each tracer at the stop is fitted to its
+	// points after it only (at a low frame rate RefFrames frames reach
+	// back into the rest before the shear, and a line through the rest and
+	// the shear misplaces every moving tracer).
+	ShearStartS float64
 	// ShearSense is the sign of the stopped phase's wall speed along +x.
 	ShearSense float64
 	GapUM      float64
@@ -293,7 +299,8 @@ func place(ts []velocity.Track, o Options) []placedTracer {
 			continue
 		}
 		lo := i - 1
-		for lo > 0 && i-lo < RefFrames && p[lo-1].TS >= o.StopS-float64(RefFrames)*o.DtS {
+		for lo > 0 && i-lo < RefFrames && p[lo-1].TS >= o.StopS-float64(RefFrames)*o.DtS &&
+			(o.ShearStartS >= o.StopS || p[lo-1].TS >= o.ShearStartS-half) {
 			lo--
 		}
 		pre := p[lo:i]

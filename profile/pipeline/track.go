@@ -225,6 +225,16 @@ func (r *Recording) wallProfiles(diameterPx float64) ([]*walls.Profile, error) {
 	return out, nil
 }
 
+// flowChanges returns the times at which the program's wall speed changes,
+// s: the starts and ends of its steps.
+func flowChanges(p experiment.Program) []float64 {
+	var out []float64
+	for _, s := range p {
+		out = append(out, s.StartS, s.EndS)
+	}
+	return out
+}
+
 // maxWallSpeed returns the largest moving-wall speed of the program, um/s.
 func maxWallSpeed(p experiment.Program) float64 {
 	v := 0.0
@@ -253,7 +263,8 @@ func (r *Recording) linkAll(ctx context.Context, t *Tracked, dets [][]link.Detec
 	// pass and removed in its final pass (link.Options.MeasureCommonMode,
 	// which keeps only the fast part along the flow).
 	opt := link.Options{FPS: t.Info.FPS, MaxStepPx: link.MaxStepFor(v, t.Info.FPS, cal.UMPerPx),
-		GapFrames: link.DefaultGapFrames, MeasureCommonMode: !r.cfg.NoJitter, FrameTimesS: t.FrameTimesS}
+		GapFrames: link.DefaultGapFrames, MeasureCommonMode: !r.cfg.NoJitter, FrameTimesS: t.FrameTimesS,
+		FlowChangesS: flowChanges(prog)}
 	pts, st, err := link.LinkContext(ctx, dets, cal, opt)
 	if err != nil {
 		return err

@@ -5,6 +5,7 @@ import (
 	"gaptrace/track/internal/grid"
 	"math"
 	"runtime"
+	"slices"
 	"sort"
 	"sync"
 
@@ -428,7 +429,30 @@ func eachStep(pts []tracks.Point, fn func(a, b *tracks.Point)) {
 // abruptly (the start or stop of shear) the pieces are not uniform and the
 // offsets of those few frames are less certain.
 func CommonModeFromTracks(pts []tracks.Point, cal *calib.Calibration, frames int) ([]Shift, error) {
-	return commonMode(pts, cal, frames, nil)
+	return commonMode(pts, cal, frames, nil, nil)
+}
+
+// CommonModeFromTracksCut is CommonModeFromTracks (or, with clock not nil,
+// CommonModeFromTracksAt) whose pieces of track do not span the cuts:
+// times, in the clock's units (frames at a steady rate), at which the
+// imposed flow changes (a start or stop of shear). A piece across such a
+// change is not uniform motion; when the phases are short against
+// segmentFrames (a low frame rate) most pieces would cross one, the
+// rejection of bad pieces would fail, and the change of flow would enter
+// the offsets as camera motion. A point at a cut ends its piece; the next
+// piece starts after it.
+func CommonModeFromTracksCut(pts []tracks.Point, cal *calib.Calibration, frames int, clock, cuts []float64) ([]Shift, error) {
+	if clock != nil {
+		if len(clock) != frames {
+			return nil, fmt.Errorf("flowprior: %d frame times for %d frames", len(clock), frames)
+		}
+		for f := range clock {
+			if math.IsNaN(clock[f]) || math.IsInf(clock[f], 0) || (f > 0 && !(clock[f] > clock[f-1])) {
+				return nil, fmt.Errorf("flowprior: frame %d's time %g (nominal intervals) does not follow the previous frame's", f, clock[f])
+			}
+		}
+	}
+	return commonMode(pts, cal, frames, clock, slices.Sorted(slices.Values(cuts)))
 }
 
 // CommonModeFromTracksAt is CommonModeFromTracks for a camera whose frame
@@ -445,12 +469,12 @@ func CommonModeFromTracksAt(pts []tracks.Point, cal *calib.Calibration, clock []
 	if len(clock) == 0 {
 		return nil, fmt.Errorf("flowprior: need at least one frame, got 0")
 	}
-	return commonMode(pts, cal, len(clock), clock)
+	return commonMode(pts, cal, len(clock), clock, nil)
 }
 
 // commonMode is CommonModeFromTracks with the frames' clock (nil: the
-// frame index).
-func commonMode(pts []tracks.Point, cal *calib.Calibration, frames int, clock []float64) ([]Shift, error) {
+// frame index) and the sorted cuts of CommonModeFromTracksCut.
+func commonMode(pts []tracks.Point, cal *calib.Calibration, frames int, clock, cuts []float64) ([]Shift, error) {
 	if err := cal.Check(); err != nil {
 		return nil, fmt.Errorf("flowprior: %w", err)
 	}
@@ -485,13 +509,26 @@ func commonMode(pts []tracks.Point, cal *calib.Calibration, frames int, clock []
 			if first < minPiecePoints {
 				first = segmentFrames
 			}
-			for k := i; k < j; k += first {
+			for k := i; k < j; {
 				if k > i {
 					first = segmentFrames
 				}
 				end := min(k+first, j)
+				if c, ok := cutIn(cuts, clock, pts[k].Frame, pts[end-1].Frame); ok {
+					// End the piece at the last point not after the cut.
+					e := k
+					for e < end && (pts[e].Frame < 0 || pts[e].Frame >= frames || clock[pts[e].Frame] <= c) {
+						e++
+					}
+					if e == k {
+						e = k + 1
+					}
+					end = e
+				}
+				next := end
 				if end-k < minPiecePoints {
-					break
+					k = next
+					continue
 				}
 				for q := k; q < end; q++ {
 					p := pts[q]
@@ -502,6 +539,7 @@ func commonMode(pts []tracks.Point, cal *calib.Calibration, frames int, clock []
 					os = append(os, obs{p.Frame, x, y, nPieces})
 				}
 				nPieces++
+				k = next
 			}
 		}
 		i = j
@@ -571,6 +609,21 @@ func commonMode(pts []tracks.Point, cal *calib.Calibration, frames int, clock []
 		out[f] = Shift{jx[f] - jx[0], jy[f] - jy[0]}
 	}
 	return out, nil
+}
+
+// cutIn returns the first cut c with clock[f0] <= c < clock[f1], the
+// frames f0 and f1 clamped to the clock.
+func cutIn(cuts, clock []float64, f0, f1 int) (float64, bool) {
+	if len(cuts) == 0 {
+		return 0, false
+	}
+	f0, f1 = min(max(f0, 0), len(clock)-1), min(max(f1, 0), len(clock)-1)
+	for _, c := range cuts {
+		if c >= clock[f0] && c < clock[f1] {
+			return c, true
+		}
+	}
+	return 0, false
 }
 
 // Settings of CommonModeFromTracks.

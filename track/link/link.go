@@ -80,6 +80,11 @@ type Options struct {
 	// JitterWindowFrames, and add it to CommonMode for the final pass when
 	// its RMS exceeds JitterMinRMSPx. The Linker ignores it.
 	MeasureCommonMode bool
+	// FlowChangesS are the times, s from the first frame, at which the
+	// imposed flow changes (the starts and stops of shear, from the
+	// motion program or the rheometer log): the common-mode fit's pieces
+	// of track do not span them (flowprior.CommonModeFromTracksCut).
+	FlowChangesS []float64
 }
 
 // Tunings of the linker.

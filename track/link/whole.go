@@ -118,9 +118,21 @@ func LinkContext(ctx context.Context, frames [][]Detection, cal *calib.Calibrati
 		var cm []flowprior.Shift
 		var cmErr error
 		if opt.MeasureCommonMode && len(frames) > 0 && !steadyCamera(first, opt, len(frames)) {
-			if opt.FrameTimesS != nil {
+			switch {
+			case len(opt.FlowChangesS) > 0:
+				// The cuts in the clock's units: frames at the nominal rate.
+				cuts := make([]float64, len(opt.FlowChangesS))
+				for i, t := range opt.FlowChangesS {
+					cuts[i] = t * opt.FPS
+				}
+				var clock []float64
+				if opt.FrameTimesS != nil {
+					clock = clocks(opt, len(frames))
+				}
+				cm, cmErr = flowprior.CommonModeFromTracksCut(first, cal, len(frames), clock, cuts)
+			case opt.FrameTimesS != nil:
 				cm, cmErr = flowprior.CommonModeFromTracksAt(first, cal, clocks(opt, len(frames)))
-			} else {
+			default:
 				cm, cmErr = flowprior.CommonModeFromTracks(first, cal, len(frames))
 			}
 		}
