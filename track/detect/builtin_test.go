@@ -19,7 +19,8 @@ func TestBuiltinScenarios(t *testing.T) {
 		isolationDiameters = 2.5 // no other tracer within this many diameters
 		minRecall          = 0.99
 		// maxBoundRatio bounds the RMS error of the tracers of SNR 10 or
-		// more over the RMS of their Thompson, Larson & Webb (2002) bounds,
+		// more over the RMS of their Thompson, Larson & Webb (2002) least-squares
+		// precisions (tlwPrecision, an approximation, not a bound),
 		// as in TestLocalizationPrecision.
 		maxBoundRatio = 1.3
 		// maxOutOfFocus is the largest fraction of out-of-focus tracers
@@ -98,7 +99,7 @@ func TestBuiltinScenarios(t *testing.T) {
 						if snr >= 10 {
 							nHi++
 							seHi += bd * bd
-							b := thompsonBound(tr.SigmaPx, tr.Photons, math.Sqrt(s.BackgroundPhotons+s.ReadNoise*s.ReadNoise))
+							b := tlwPrecision(tr.SigmaPx, tr.Photons, math.Sqrt(s.BackgroundPhotons+s.ReadNoise*s.ReadNoise))
 							boundHi += b * b
 						}
 					}
@@ -113,7 +114,7 @@ func TestBuiltinScenarios(t *testing.T) {
 				t.Errorf("%s: recall %.4f of %d, want >= %g of at least 100", name, rec, total, minRecall)
 			}
 			if nHi < 50 || rmsHi > maxBoundRatio*bHi {
-				t.Errorf("%s: SNR >= 10: RMS %.4f px over %d tracers is %.2fx the TLW bound %.4f px, want <= %g", name, rmsHi, nHi, rmsHi/bHi, bHi, maxBoundRatio)
+				t.Errorf("%s: SNR >= 10: RMS %.4f px over %d tracers is %.2fx the TLW precision %.4f px, want <= %g", name, rmsHi, nHi, rmsHi/bHi, bHi, maxBoundRatio)
 			}
 			if oof > 0 && float64(oofKept) > maxOutOfFocus*float64(oof) {
 				t.Errorf("%s: %d of %d out-of-focus tracers kept, want at most %g", name, oofKept, oof, maxOutOfFocus)

@@ -16,7 +16,9 @@ import (
 
 // Test scenarios come from package synth (made-up samples). locNoisePx is
 // the localization noise added to true positions (a conservative figure for
-// 5 px tracers at an SNR of about 25; Thompson, Larson and Webb, 2002).
+// 5 px tracers at an SNR of about 25: about three times the least-squares
+// precision of Thompson, Larson and Webb, 2002, an approximation, not a
+// bound).
 const locNoisePx = 0.15
 
 // shear returns the named built-in scenario with the moving wall travelling

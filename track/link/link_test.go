@@ -20,8 +20,10 @@ import (
 const (
 	// locNoisePx is the localization noise added to the true positions: a
 	// conservative figure for tracers of 5 px at an SNR of about 25, about
-	// three times the Cramér–Rao bound of a Gaussian spot (Thompson, Larson
-	// and Webb, 2002, eq. 14, for such a spot at that noise).
+	// three times the least-squares precision of a Gaussian spot at that
+	// noise (Thompson, Larson and Webb, 2002, their eq. 17, the number from
+	// memory; an approximation for least-squares fitting, not a Cramér–Rao
+	// bound).
 	locNoisePx = 0.15
 	// tableDrop is the fraction of detections dropped in the linking table:
 	// a few blinks, so that gap closing is exercised everywhere.
