@@ -7,6 +7,7 @@ import (
 
 	"gaptrace/calib/experiment"
 	"gaptrace/calib/geometry"
+	"gaptrace/profile/bands"
 	"gaptrace/profile/layers"
 	"gaptrace/profile/rheometry"
 	"gaptrace/profile/summary"
@@ -155,15 +156,11 @@ func departs(it InTime) (slip, banded bool, slipMargin, bandMargin float64) {
 			diff := math.Abs(float64(a.RatePerS - b.RatePerS))
 			e := math.Hypot(float64(a.RateErrPerS), float64(b.RateErrPerS))
 			big := math.Max(math.Abs(float64(a.RatePerS)), math.Abs(float64(b.RatePerS)))
-			bandMargin = math.Max(bandMargin, math.Min(diff/(rheometry.SlipSigma*e), diff/(bandRateFraction*big)))
+			bandMargin = math.Max(bandMargin, math.Min(diff/(bands.DefaultMinSigma*e), diff/(bands.DefaultMinContrast*big)))
 		}
 	}
 	return d.WallSlip, d.Banded, slipMargin, bandMargin
 }
-
-// bandRateFraction is the contract's practical threshold of banding: rates
-// that differ by at least 20 % of the larger.
-const bandRateFraction = 0.2
 
 // onsetOf finds the first window that departs and whose successor (if
 // any) departs too, so that one window's false alarm does not set the

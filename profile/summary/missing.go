@@ -26,12 +26,18 @@ func nullNums(v reflect.Value) {
 	}
 }
 
+// decodeNulled decodes b into the struct *q with its Num fields null
+// beforehand.
+func decodeNulled[T any](b []byte, q *T) error {
+	nullNums(reflect.ValueOf(q).Elem())
+	return json.Unmarshal(b, q)
+}
+
 // UnmarshalJSON decodes a shear phase, missing numbers null.
 func (p *ShearPhase) UnmarshalJSON(b []byte) error {
 	type plain ShearPhase
 	var q plain
-	nullNums(reflect.ValueOf(&q).Elem())
-	err := json.Unmarshal(b, &q)
+	err := decodeNulled(b, &q)
 	*p = ShearPhase(q)
 	return err
 }
@@ -40,8 +46,7 @@ func (p *ShearPhase) UnmarshalJSON(b []byte) error {
 func (p *Band) UnmarshalJSON(b []byte) error {
 	type plain Band
 	var q plain
-	nullNums(reflect.ValueOf(&q).Elem())
-	err := json.Unmarshal(b, &q)
+	err := decodeNulled(b, &q)
 	*p = Band(q)
 	return err
 }
@@ -50,8 +55,7 @@ func (p *Band) UnmarshalJSON(b []byte) error {
 func (p *InTime) UnmarshalJSON(b []byte) error {
 	type plain InTime
 	var q plain
-	nullNums(reflect.ValueOf(&q).Elem())
-	err := json.Unmarshal(b, &q)
+	err := decodeNulled(b, &q)
 	*p = InTime(q)
 	return err
 }
@@ -60,8 +64,7 @@ func (p *InTime) UnmarshalJSON(b []byte) error {
 func (p *AfterStop) UnmarshalJSON(b []byte) error {
 	type plain AfterStop
 	var q plain
-	nullNums(reflect.ValueOf(&q).Elem())
-	err := json.Unmarshal(b, &q)
+	err := decodeNulled(b, &q)
 	*p = AfterStop(q)
 	return err
 }
