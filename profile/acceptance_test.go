@@ -1,7 +1,9 @@
 package profile
 
 import (
+	"context"
 	"fmt"
+	"gaptrace/track/tracks"
 	"math"
 	"math/rand/v2"
 	"slices"
@@ -419,7 +421,7 @@ func TestDetectedPhasesWithoutProgram(t *testing.T) {
 					ph[i-1].EndS = ph[i].StartS
 				}
 			}
-			r, err := Analyze(s.Observe(noisePx, breakPerFrame, 910), e, s.Calibration(), Options{Phases: ph, Seed: 910})
+			r, err := Analyze(context.Background(), tracks.Slice(s.Observe(noisePx, breakPerFrame, 910)), e, s.Calibration(), Options{Phases: ph, Seed: 910})
 			if err != nil {
 				t.Fatal(err)
 			}
@@ -493,7 +495,7 @@ func TestMislinks(t *testing.T) {
 			pts[i].XUM += math.Copysign(30+30*rng.Float64(), rng.Float64()-0.5)
 		}
 	}
-	r, err := Analyze(pts, s.Experiment(), s.Calibration(), Options{Seed: 920})
+	r, err := Analyze(context.Background(), tracks.Slice(pts), s.Experiment(), s.Calibration(), Options{Seed: 920})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -523,7 +525,7 @@ func TestMislinksAfterStop(t *testing.T) {
 				pts[i].XUM += math.Copysign(30+30*rng.Float64(), rng.Float64()-0.5)
 			}
 		}
-		r, err := Analyze(pts, s.Experiment(), s.Calibration(), Options{Seed: 930})
+		r, err := Analyze(context.Background(), tracks.Slice(pts), s.Experiment(), s.Calibration(), Options{Seed: 930})
 		if err != nil {
 			t.Fatal(err)
 		}

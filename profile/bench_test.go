@@ -1,6 +1,8 @@
 package profile
 
 import (
+	"context"
+	"gaptrace/track/tracks"
 	"testing"
 
 	"gaptrace/track/synth"
@@ -17,7 +19,7 @@ func BenchmarkAnalyze(b *testing.B) {
 	e, c := s.Experiment(), s.Calibration()
 	b.ResetTimer()
 	for range b.N {
-		if _, err := Analyze(pts, e, c, Options{Seed: 1}); err != nil {
+		if _, err := Analyze(context.Background(), tracks.Slice(pts), e, c, Options{Seed: 1}); err != nil {
 			b.Fatal(err)
 		}
 	}
@@ -35,7 +37,7 @@ func BenchmarkAnalyzeLarge(b *testing.B) {
 	e, c := s.Experiment(), s.Calibration()
 	b.ResetTimer()
 	for range b.N {
-		if _, err := Analyze(pts, e, c, Options{Seed: 1}); err != nil {
+		if _, err := Analyze(context.Background(), tracks.Slice(pts), e, c, Options{Seed: 1}); err != nil {
 			b.Fatal(err)
 		}
 	}

@@ -1,10 +1,12 @@
 package profile_test
 
 import (
+	"context"
 	"fmt"
 
 	"gaptrace/profile"
 	"gaptrace/track/synth"
+	"gaptrace/track/tracks"
 )
 
 // Analyze on synth's made-up demo sample (slip at both walls and two bands
@@ -18,7 +20,7 @@ func ExampleAnalyze() {
 	// True positions; a tracer that wraps around the field is cut by Analyze.
 	// The plane lies at 0.45 x 900 = 405 um; the estimate falls between the
 	// two tracers that straddle it.
-	r, err := profile.Analyze(s.TrackPoints(), s.Experiment(), s.Calibration(), profile.Options{Seed: 1})
+	r, err := profile.Analyze(context.Background(), tracks.Slice(s.TrackPoints()), s.Experiment(), s.Calibration(), profile.Options{Seed: 1})
 	if err != nil {
 		fmt.Println(err)
 		return

@@ -1,6 +1,8 @@
 package profile
 
 import (
+	"context"
+	"gaptrace/track/tracks"
 	"math"
 	"slices"
 	"testing"
@@ -41,7 +43,7 @@ func startUp(t *testing.T, name string, seed int64) (*synth.Scenario, *Result) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	r, err := Analyze(s.Observe(noisePx, breakPerFrame, uint64(seed)), s.Experiment(), s.Calibration(),
+	r, err := Analyze(context.Background(), tracks.Slice(s.Observe(noisePx, breakPerFrame, uint64(seed))), s.Experiment(), s.Calibration(),
 		Options{Seed: uint64(seed), EveryS: startUpEveryS})
 	if err != nil {
 		t.Fatal(err)
@@ -128,7 +130,7 @@ func TestInhomogeneityOnsetNullWhenAffine(t *testing.T) {
 			t.Fatal(err)
 		}
 		// Default window length, no in_time: the onset is still looked for.
-		r, err := Analyze(s.Observe(noisePx, breakPerFrame, uint64(seed)), s.Experiment(), s.Calibration(), Options{Seed: uint64(seed)})
+		r, err := Analyze(context.Background(), tracks.Slice(s.Observe(noisePx, breakPerFrame, uint64(seed))), s.Experiment(), s.Calibration(), Options{Seed: uint64(seed)})
 		if err != nil {
 			t.Fatal(err)
 		}

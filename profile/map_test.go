@@ -1,6 +1,8 @@
 package profile
 
 import (
+	"context"
+	"gaptrace/track/tracks"
 	"math"
 	"slices"
 	"testing"
@@ -17,7 +19,7 @@ import (
 func TestMapComplete(t *testing.T) {
 	s := plates(1100, 0.5, 1.5, 1.0)
 	pts := s.Observe(noisePx, breakPerFrame, 1100)
-	r, err := Analyze(pts, s.Experiment(), s.Calibration(), Options{Seed: 1100})
+	r, err := Analyze(context.Background(), tracks.Slice(pts), s.Experiment(), s.Calibration(), Options{Seed: 1100})
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -1,6 +1,7 @@
 package profile
 
 import (
+	"context"
 	"strings"
 	"testing"
 
@@ -55,7 +56,7 @@ func TestInconclusive(t *testing.T) {
 		t.Run(c.name, func(t *testing.T) {
 			o := c.o
 			o.Seed = 41
-			r, err := Analyze(c.pts, c.e, cal, o)
+			r, err := Analyze(context.Background(), tracks.Slice(c.pts), c.e, cal, o)
 			if err != nil {
 				t.Fatal(err)
 			}

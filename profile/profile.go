@@ -12,6 +12,7 @@ package profile
 
 import (
 	"cmp"
+	"context"
 	"errors"
 	"fmt"
 	"math"
@@ -185,8 +186,16 @@ type Result struct {
 	cal *calib.Calibration // the calibration analysed with, for the budgets
 }
 
-// Analyze analyses the tracks pts of experiment e with calibration c.
-func Analyze(pts []tracks.Point, e *experiment.Experiment, c *calib.Calibration, o Options) (*Result, error) {
+// Analyze analyses the tracks of src, of experiment e with calibration
+// c. It stops with ctx's error when ctx is done.
+func Analyze(ctx context.Context, src tracks.Source, e *experiment.Experiment, c *calib.Calibration, o Options) (*Result, error) {
+	if err := ctx.Err(); err != nil {
+		return nil, err
+	}
+	pts, err := tracks.Collect(src)
+	if err != nil {
+		return nil, err
+	}
 	if o.Bins <= 0 {
 		o.Bins = layers.DefaultBins
 	}

@@ -1,6 +1,8 @@
 package profile
 
 import (
+	"context"
+	"gaptrace/track/tracks"
 	"math"
 	"testing"
 
@@ -37,7 +39,7 @@ func plates(seed int64, restS, shearS, afterS float64) *synth.Scenario {
 
 func analyze(t testing.TB, s *synth.Scenario, seed uint64) *Result {
 	t.Helper()
-	r, err := Analyze(s.Observe(noisePx, breakPerFrame, seed), s.Experiment(), s.Calibration(), Options{Seed: seed})
+	r, err := Analyze(context.Background(), tracks.Slice(s.Observe(noisePx, breakPerFrame, seed)), s.Experiment(), s.Calibration(), Options{Seed: seed})
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -70,7 +70,7 @@ func Analyze(ctx context.Context, cfg Config, t *Tracked) (*Analysis, error) {
 			opt.Phases = cfg.programPhases(prog, float64(t.Info.Frames)/t.Info.FPS)
 		}
 	}
-	r, err := profile.Analyze(t.Points, cfg.Experiment, t.Calibration, opt)
+	r, err := profile.Analyze(ctx, tracks.Slice(t.Points), cfg.Experiment, t.Calibration, opt)
 	if err != nil {
 		return nil, inputErr(err)
 	}

@@ -1,6 +1,8 @@
 package report_test
 
 import (
+	"context"
+	"gaptrace/track/tracks"
 	"os"
 	"path/filepath"
 	"strings"
@@ -23,7 +25,7 @@ func analysed(t *testing.T, name string, seed int64) (*report.Data, *experiment.
 		t.Fatal(err)
 	}
 	e, c := s.Experiment(), s.Calibration()
-	r, err := profile.Analyze(s.Observe(0.1, 0.02, 3), e, c, profile.Options{Seed: 3})
+	r, err := profile.Analyze(context.Background(), tracks.Slice(s.Observe(0.1, 0.02, 3)), e, c, profile.Options{Seed: 3})
 	if err != nil {
 		t.Fatal(err)
 	}
