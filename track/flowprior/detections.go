@@ -865,6 +865,14 @@ func QuickCommonMode(pts []tracks.Point, field Field, frames int) []Shift {
 		}()
 	}
 	wg.Wait()
+	return quickShifts(mx, my)
+}
+
+// quickShifts turns QuickCommonMode's per-frame medians of the steps'
+// residuals into its offsets: cumulated, less a line over each stretch of
+// quickStretchFrames.
+func quickShifts(mx, my []float64) []Shift {
+	frames := len(mx)
 	cx, cy := make([]float64, frames), make([]float64, frames)
 	for f := 1; f < frames; f++ {
 		cx[f], cy[f] = cx[f-1]+mx[f], cy[f-1]+my[f]

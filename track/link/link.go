@@ -629,6 +629,18 @@ func (l *Linker) Close() ([]tracks.Point, Stats) {
 	return l.Flush(), l.stats
 }
 
+// steps calls fn for every link the last Add made between consecutive
+// frames: the track's point in the frame before and its new point (whose
+// Track is still Unlinked: ids are given as tracks finish).
+func (l *Linker) steps(fn func(a, b *tracks.Point)) {
+	for _, t := range l.active {
+		n := len(t.pts)
+		if t.last == l.lastF && n >= 2 && t.pts[n-2].Frame == l.lastF-1 {
+			fn(&t.pts[n-2], &t.pts[n-1])
+		}
+	}
+}
+
 // posAt returns the i-th position of the frame being linked, px.
 func (l *Linker) posAt(i int) (xPx, yPx float64) { return l.p[i].XPx, l.p[i].YPx }
 

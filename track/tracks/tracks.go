@@ -7,6 +7,7 @@ package tracks
 import (
 	"bufio"
 	"encoding/csv"
+	"errors"
 	"fmt"
 	"io"
 	"math"
@@ -87,6 +88,80 @@ func WriteCSV(w io.Writer, pts []Point) error {
 	return bw.Flush()
 }
 
+// WriteCSVFrom writes the tracks of src as tracks.csv, in src's order,
+// holding only a few chunks of rows at a time: src is read on one
+// goroutine, the rows are formatted in chunks on all cores and written in
+// order.
+func WriteCSVFrom(w io.Writer, src Source) error {
+	bw := bufio.NewWriterSize(w, 1<<16)
+	bw.WriteString(strings.Join(append(slices.Clip(Header), Extra...), ",") + "\n")
+	workers := runtime.GOMAXPROCS(0)
+	// Each chunk carries the channel its rows come back on; the writer
+	// takes the chunks in order, and at most 2*workers are in flight.
+	type chunk struct {
+		pts []Point
+		out chan []byte
+	}
+	jobs := make(chan chunk)
+	order := make(chan chan []byte, 2*workers)
+	for range workers {
+		go func() {
+			for c := range jobs {
+				c.out <- appendRows(nil, c.pts)
+			}
+		}()
+	}
+	readErr := make(chan error, 1)
+	stop := make(chan struct{})
+	go func() {
+		defer close(order)
+		defer close(jobs)
+		buf := make([]Point, 0, csvChunk)
+		send := func() bool {
+			c := chunk{pts: buf, out: make(chan []byte, 1)}
+			select {
+			case order <- c.out:
+			case <-stop:
+				return false
+			}
+			jobs <- c
+			buf = make([]Point, 0, csvChunk)
+			return true
+		}
+		errStopped := errors.New("stopped")
+		err := src.Each(func(tr []Point) error {
+			buf = append(buf, tr...)
+			if len(buf) >= csvChunk && !send() {
+				return errStopped
+			}
+			return nil
+		})
+		if err == nil && len(buf) > 0 {
+			send()
+		}
+		if err == errStopped {
+			err = nil
+		}
+		readErr <- err
+	}()
+	var werr error
+	for out := range order {
+		b := <-out
+		if werr == nil {
+			if _, werr = bw.Write(b); werr != nil {
+				close(stop)
+			}
+		}
+	}
+	if err := <-readErr; err != nil {
+		return err
+	}
+	if werr != nil {
+		return werr
+	}
+	return bw.Flush()
+}
+
 // appendRows appends the CSV rows of pts to b.
 func appendRows(b []byte, pts []Point) []byte {
 	for _, p := range pts {
@@ -113,11 +188,26 @@ func appendRows(b []byte, pts []Point) []byte {
 // allowed; every column of Header must be present, near_wall may be
 // missing (then every NearWall is false).
 func ReadCSV(r io.Reader) ([]Point, error) {
+	var pts []Point
+	err := ReadCSVEach(r, func(p Point) error {
+		pts = append(pts, p)
+		return nil
+	})
+	if err != nil {
+		return nil, err
+	}
+	return pts, nil
+}
+
+// ReadCSVEach reads tracks.csv as ReadCSV does, calling fn with each row
+// in the file's order instead of keeping them; it stops at the first error
+// fn returns and returns it.
+func ReadCSVEach(r io.Reader, fn func(p Point) error) error {
 	cr := csv.NewReader(bufio.NewReader(r))
 	cr.ReuseRecord = true
 	head, err := cr.Read()
 	if err != nil {
-		return nil, fmt.Errorf("tracks.csv: reading header: %w", err)
+		return fmt.Errorf("tracks.csv: reading header: %w", err)
 	}
 	col := make([]int, len(Header))
 	for i, name := range Header {
@@ -128,28 +218,27 @@ func ReadCSV(r io.Reader) ([]Point, error) {
 			}
 		}
 		if col[i] < 0 {
-			return nil, fmt.Errorf("tracks.csv: no column %q in header %q", name, head)
+			return fmt.Errorf("tracks.csv: no column %q in header %q", name, head)
 		}
 	}
 	nearCol := slices.Index(head, Extra[0])
-	var pts []Point
 	for line := 2; ; line++ {
 		rec, err := cr.Read()
 		if err == io.EOF {
 			break
 		}
 		if err != nil {
-			return nil, fmt.Errorf("tracks.csv: %w", err)
+			return fmt.Errorf("tracks.csv: %w", err)
 		}
 		var v [9]float64
 		for i, c := range col {
 			v[i], err = strconv.ParseFloat(rec[c], 64)
 			if err != nil {
-				return nil, fmt.Errorf("tracks.csv line %d: column %s: %q is not a number", line, Header[i], rec[c])
+				return fmt.Errorf("tracks.csv line %d: column %s: %q is not a number", line, Header[i], rec[c])
 			}
 		}
 		if err := checkRow(v); err != nil {
-			return nil, fmt.Errorf("tracks.csv line %d: %w", line, err)
+			return fmt.Errorf("tracks.csv line %d: %w", line, err)
 		}
 		p := Point{Track: int(v[0]), Frame: int(v[1]), TS: v[2], XPx: v[3], YPx: v[4],
 			XUM: v[5], YUM: v[6], Brightness: v[7], SizePx: v[8]}
@@ -159,12 +248,14 @@ func ReadCSV(r io.Reader) ([]Point, error) {
 			case "1":
 				p.NearWall = true
 			default:
-				return nil, fmt.Errorf("tracks.csv line %d: column %s: %q is not 0 or 1", line, Extra[0], rec[nearCol])
+				return fmt.Errorf("tracks.csv line %d: column %s: %q is not 0 or 1", line, Extra[0], rec[nearCol])
 			}
 		}
-		pts = append(pts, p)
+		if err := fn(p); err != nil {
+			return err
+		}
 	}
-	return pts, nil
+	return nil
 }
 
 // MaxFrame is the largest frame index ReadCSV accepts: ten million frames,
