@@ -244,6 +244,9 @@ func openStills(path string, names []string, fps float64, r Range) (Source, erro
 		return nil, fmt.Errorf("frames: %s: %w (no .png, .tif or .tiff files)", path, errEmpty)
 	}
 	sort.Slice(kept, func(i, j int) bool { return naturalLess(filepath.Base(kept[i]), filepath.Base(kept[j])) })
+	if err := checkStill(kept[0]); err != nil {
+		return nil, fmt.Errorf("frames: %s: cannot read frame 0 (%s): %v", path, kept[0], err)
+	}
 	first := gocv.IMRead(kept[0], gocv.IMReadAnyDepth|gocv.IMReadGrayScale)
 	defer first.Close()
 	if first.Empty() {
@@ -278,6 +281,9 @@ func (s *stills) Next(dst *gocv.Mat) (int, error) {
 		return 0, io.EOF
 	}
 	s.next += s.r.step()
+	if err := checkStill(s.names[i]); err != nil {
+		return 0, fmt.Errorf("frames: %s: cannot read frame %d (%s): %v", s.info.Path, i, s.names[i], err)
+	}
 	img := gocv.IMRead(s.names[i], gocv.IMReadAnyDepth|gocv.IMReadGrayScale)
 	defer img.Close()
 	if img.Empty() {
@@ -444,6 +450,10 @@ func openCapture(path string, jpeg bool) (*video, error) {
 	}
 	if f := c.Get(gocv.VideoCaptureFPS); f > 0 && !math.IsInf(f, 0) && !math.IsNaN(f) {
 		v.info.FPS = f
+	}
+	if err := checkFrameSize(v.info.WidthPx, v.info.HeightPx); err != nil {
+		v.Close()
+		return nil, fmt.Errorf("frames: %s: %v", path, err)
 	}
 	if jpeg {
 		c.Set(gocv.VideoCaptureFormat, -1)
