@@ -57,6 +57,27 @@ type Camera struct {
 	UMPerPxErr float64 `yaml:"um_per_px_err,omitempty"`
 	// Target, when given, is a calibration image of a known pattern.
 	Target *Target `yaml:"target,omitempty"`
+	// Fields, for an interlaced camera, is the field exposed first:
+	// FieldsTopFirst or FieldsBottomFirst. Each frame is then analysed as
+	// its two fields, frames of their own at twice FPS; "" analyses whole
+	// frames.
+	Fields string `yaml:"fields,omitempty"`
+}
+
+// Field orders of an interlaced camera (Camera.Fields): the even image
+// rows (0, 2, ...) exposed first, or the odd ones.
+const (
+	FieldsTopFirst    = "top-first"
+	FieldsBottomFirst = "bottom-first"
+)
+
+// FieldRate returns the rate of the images analysed, frames or fields
+// per second, for a recording at fps frames per second.
+func (c Camera) FieldRate(fps float64) float64 {
+	if c.Fields != "" {
+		return 2 * fps
+	}
+	return fps
 }
 
 // Target kinds.
@@ -267,6 +288,11 @@ func (e *Experiment) Validate() error {
 		if !(t.PitchUM > 0) {
 			return fmt.Errorf("camera.target.pitch_um: must be positive, got %g", t.PitchUM)
 		}
+	}
+	switch c.Fields {
+	case "", FieldsTopFirst, FieldsBottomFirst:
+	default:
+		return fmt.Errorf("camera.fields: %q is not %s or %s", c.Fields, FieldsTopFirst, FieldsBottomFirst)
 	}
 	switch e.Walls.Moving {
 	case "", Top, Bottom:

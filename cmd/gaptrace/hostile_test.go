@@ -53,6 +53,7 @@ func TestHostileInputs(t *testing.T) {
 		{"step of 1 us", []string{"-e", edited("short", "end_s: 2", "end_s: 0.500001")}, "shorter than one frame"},
 		{"bins 1000000", []string{"-e", exp, "--bins", "1000000"}, "--bins 1000000"},
 		{"window outside", []string{"-e", exp, "--window", "100:200"}, "outside the recording"},
+		{"field order", []string{"-e", edited("fields", "fps: 100", "fps: 100\n  fields: sideways")}, "camera.fields"},
 		{"seq as file", []string{"-e", edited("seq", string(orig), "- 1\n- 2\n")}, "a list where a mapping"},
 	}
 	for _, c := range cases {

@@ -132,7 +132,7 @@ func FromTracks(cfg Config, input string, pts []tracks.Point, cal *calib.Calibra
 	for _, p := range pts {
 		maxFrame = max(maxFrame, p.Frame)
 	}
-	fps := cfg.Experiment.Camera.FPS
+	fps := cfg.Experiment.Camera.FieldRate(cfg.Experiment.Camera.FPS)
 	if !(fps > 0) {
 		fps = fpsOf(pts)
 	}

@@ -38,6 +38,7 @@ type Recording struct {
 	// the walls were found on; Close closes it.
 	Median gocv.Mat
 	head   *frames.Head
+	fields *frames.FieldSource // the input's comb measurement
 }
 
 // Open opens cfg.Input, finds the walls and the scale on the median of its
@@ -49,11 +50,11 @@ func Open(ctx context.Context, cfg Config) (*Recording, error) {
 	if err := ctx.Err(); err != nil {
 		return nil, err
 	}
-	src, err := openInput(cfg, frames.All)
+	src, fields, err := openInput(cfg, frames.All)
 	if err != nil {
 		return nil, err
 	}
-	r := &Recording{cfg: cfg, Info: src.Info()}
+	r := &Recording{cfg: cfg, Info: src.Info(), fields: fields}
 	cfg.report(StageCalibrate, 0, MedianFrames)
 	head, err := frames.ReadHead(src, MedianFrames)
 	if err != nil {
@@ -90,27 +91,27 @@ func (r *Recording) Close() {
 }
 
 // openInput opens the frames of cfg.Input in range rg at the experiment's
-// frame rate.
-func openInput(cfg Config, rg frames.Range) (frames.Source, error) {
+// frame rate, split into fields when the experiment says so (watchFields).
+func openInput(cfg Config, rg frames.Range) (frames.Source, *frames.FieldSource, error) {
 	if _, err := os.Stat(cfg.Input); err != nil && !hasGlob(cfg.Input) {
-		return nil, inputErrf("input %s: %v", cfg.Input, errors.Unwrap(err))
+		return nil, nil, inputErrf("input %s: %v", cfg.Input, errors.Unwrap(err))
 	}
 	src, err := frames.Open(cfg.Input, cfg.Experiment.Camera.FPS, rg)
 	if err != nil {
-		return nil, inputErr(err)
+		return nil, nil, inputErr(err)
 	}
 	info := src.Info()
 	if !(info.FPS > 0) {
 		src.Close()
-		return nil, inputErrf("input %s: no frame rate in the file; give camera.fps in the experiment file", cfg.Input)
+		return nil, nil, inputErrf("input %s: no frame rate in the file; give camera.fps in the experiment file", cfg.Input)
 	}
 	// The experiment file checks its steps against camera.fps; a rate
 	// from the video is checked here (a step shorter than a frame).
 	if err := cfg.Experiment.CheckAgainstRate(info.FPS); err != nil {
 		src.Close()
-		return nil, inputErrf("experiment file: %v (the video's rate)", err)
+		return nil, nil, inputErrf("experiment file: %v (the video's rate)", err)
 	}
-	return src, nil
+	return watchFields(cfg, src)
 }
 
 func hasGlob(p string) bool { return strings.ContainsAny(p, "*?[") }
@@ -123,7 +124,9 @@ func (r *Recording) takeInput() (frames.Source, error) {
 		r.head = nil
 		return h, nil
 	}
-	return openInput(r.cfg, frames.All)
+	src, fields, err := openInput(r.cfg, frames.All)
+	r.fields = fields
+	return src, err
 }
 
 // MotionPhases is what WallMotion found: the phases of the moving wall's

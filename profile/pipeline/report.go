@@ -62,6 +62,9 @@ func readFrame8(cfg Config, info frames.Info, tS float64) (gocv.Mat, error) {
 	if info.Frames > 0 {
 		f = min(max(f, 0), info.Frames-1)
 	}
+	if cfg.Experiment.Camera.Fields != "" {
+		f /= 2 // the frame the field is of
+	}
 	src, err := frames.Open(cfg.Input, cfg.Experiment.Camera.FPS, frames.Range{First: f, Last: f, Step: 1})
 	if err != nil {
 		return gocv.Mat{}, err

@@ -181,6 +181,7 @@ func (r *Recording) detectAll(ctx context.Context, t *Tracked) ([][]link.Detecti
 	t.FrameTimesS, t.Info.FPS, warn = frameClock(src, t.Info, len(out))
 	t.Warnings = append(t.Warnings, warn...)
 	t.Warnings = append(t.Warnings, inputNotes(src, t.Info, len(out))...)
+	t.Warnings = append(t.Warnings, r.fieldNotes()...)
 	if t.Detections == 0 {
 		return nil, inputErrf("no tracers found in %d frames of %s (tracer diameter %g px, polarity %s)", n, r.cfg.Input, d, opt.Polarity)
 	}
