@@ -13,7 +13,6 @@ import (
 	"gaptrace/calib"
 	"gaptrace/profile"
 	"gaptrace/profile/pipeline"
-	"gaptrace/track/tracks"
 )
 
 func init() {
@@ -126,16 +125,13 @@ func runProfile(ctx context.Context, args []string, stderr io.Writer) error {
 	if err != nil {
 		return badInput(err)
 	}
-	pts, err := tracks.ReadCSV(f)
-	f.Close()
-	if err != nil {
-		return badInput(fmt.Errorf("%s: %w", in, err))
-	}
+	defer f.Close()
 	cfg := pipeline.Config{Experiment: e, ExperimentDir: filepath.Dir(*expPath), Bins: *bins, Windows: windows, EveryS: float64(every), Seed: *seed, Log: rl}
-	t, err := pipeline.FromTracks(cfg, in, pts, c)
+	t, err := pipeline.FromTracks(cfg, in, f, c)
 	if err != nil {
 		return stageErr(err)
 	}
+	defer t.Close()
 	a, err := pipeline.Analyze(ctx, cfg, t)
 	if err != nil {
 		return stageErr(err)

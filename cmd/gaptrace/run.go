@@ -138,6 +138,7 @@ func runChain(ctx context.Context, o runOptions, stderr io.Writer) (*summary.Sum
 	if err != nil {
 		return nil, stageErr(err)
 	}
+	defer t.Close()
 	if err := writeCalibJSON(filepath.Join(o.outDir, calibrationName), t.Calibration, t.PhasesFor(cfg)); err != nil {
 		return nil, err
 	}

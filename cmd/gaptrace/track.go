@@ -7,7 +7,6 @@ import (
 	"path/filepath"
 
 	"gaptrace/calib/atomicfile"
-	"gaptrace/track/tracks"
 )
 
 func init() {
@@ -50,6 +49,7 @@ func runTrack(ctx context.Context, args []string, stderr io.Writer) error {
 	if err != nil {
 		return stageErr(err)
 	}
+	defer t.Close()
 	for _, w := range t.Warnings {
 		fmt.Fprintf(stderr, "track: warning: %s\n", w)
 	}
@@ -59,7 +59,7 @@ func runTrack(ctx context.Context, args []string, stderr io.Writer) error {
 	if err := atomicfile.Write(filepath.Join(*outDir, tracksName), t.WriteTracks); err != nil {
 		return err
 	}
-	_, tr, med := tracks.Count(t.Points)
+	_, tr, med := t.Tracks.Count()
 	st := t.Link
 	fmt.Fprintf(stderr, "track: %d detections, %d tracks (median %d frames), %d links, %d unlinked\n",
 		t.Detections, tr, med, st.Links+st.GapLinks, st.Unlinked)

@@ -18,6 +18,29 @@ const WallStripFraction = 0.2
 // gap of cal), the signal Detect reads; 0 where no track crosses the strip.
 // pts must be in the order of package tracks (by track, then frame).
 func WallSignal(pts []tracks.Point, cal *calib.Calibration, nFrames int) []float64 {
+	w := NewWallSteps(cal, nFrames)
+	for i := 1; i < len(pts); i++ {
+		p, q := pts[i-1], pts[i]
+		if q.Track == tracks.Unlinked || q.Track != p.Track {
+			continue
+		}
+		w.Step(&p, &q)
+	}
+	return w.Signal()
+}
+
+// WallSteps builds the signal of WallSignal from the steps of the tracks
+// given one at a time, in any order; with EndFrame, from steps given frame
+// by frame as a linker makes them, it holds one frame's steps only.
+type WallSteps struct {
+	cal    *calib.Calibration
+	ex, ey float64 // unit vector along the walls, towards +x of the image
+	steps  map[int][]float64
+	sig    []float64
+}
+
+// NewWallSteps starts the signal of nFrames frames for the walls of cal.
+func NewWallSteps(cal *calib.Calibration, nFrames int) *WallSteps {
 	s := cal.StationaryWallPx
 	ex, ey := s[1][0]-s[0][0], s[1][1]-s[0][1]
 	n := math.Hypot(ex, ey)
@@ -25,21 +48,33 @@ func WallSignal(pts []tracks.Point, cal *calib.Calibration, nFrames int) []float
 	if ex < 0 {
 		ex, ey = -ex, -ey
 	}
-	steps := make([][]float64, nFrames)
-	for i := 1; i < len(pts); i++ {
-		p, q := pts[i-1], pts[i]
-		if q.Track == tracks.Unlinked || q.Track != p.Track || q.Frame != p.Frame+1 ||
-			q.YUM < (1-WallStripFraction)*cal.GapUM || q.Frame >= nFrames {
-			continue
-		}
-		steps[q.Frame] = append(steps[q.Frame], (q.XPx-p.XPx)*ex+(q.YPx-p.YPx)*ey)
+	return &WallSteps{cal: cal, ex: ex, ey: ey, steps: map[int][]float64{}, sig: make([]float64, max(nFrames, 0))}
+}
+
+// Step adds the step of one track from point p to point q, the next
+// point of the same track; it counts when q is one frame after p and
+// within the strip by the moving wall.
+func (w *WallSteps) Step(p, q *tracks.Point) {
+	if q.Frame != p.Frame+1 || q.YUM < (1-WallStripFraction)*w.cal.GapUM || q.Frame >= len(w.sig) || q.Frame < 0 {
+		return
 	}
-	sig := make([]float64, nFrames)
-	for f, st := range steps {
-		if len(st) > 0 {
-			slices.Sort(st)
-			sig[f] = st[len(st)/2]
-		}
+	w.steps[q.Frame] = append(w.steps[q.Frame], (q.XPx-p.XPx)*w.ex+(q.YPx-p.YPx)*w.ey)
+}
+
+// EndFrame takes the median of the steps into frame and frees them: no
+// step into frame may follow.
+func (w *WallSteps) EndFrame(frame int) {
+	if st, ok := w.steps[frame]; ok {
+		slices.Sort(st)
+		w.sig[frame] = st[len(st)/2]
+		delete(w.steps, frame)
 	}
-	return sig
+}
+
+// Signal ends every frame and returns the signal.
+func (w *WallSteps) Signal() []float64 {
+	for f := range w.steps {
+		w.EndFrame(f)
+	}
+	return w.sig
 }

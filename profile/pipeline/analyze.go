@@ -2,9 +2,13 @@ package pipeline
 
 import (
 	"context"
+	"io"
+	"math"
+	"slices"
 
 	"gaptrace/calib"
 	"gaptrace/profile"
+	"gaptrace/profile/phases"
 	"gaptrace/profile/summary"
 	"gaptrace/track/frames"
 	"gaptrace/track/tracks"
@@ -67,10 +71,10 @@ func Analyze(ctx context.Context, cfg Config, t *Tracked) (*Analysis, error) {
 		}
 		opt.Program = prog
 		if opt.Phases == nil && t.Info.FPS > 0 {
-			opt.Phases = cfg.programPhases(prog, float64(t.Info.Frames)/t.Info.FPS)
+			opt.Phases = cfg.programPhases(prog, t.durationS())
 		}
 	}
-	r, err := profile.Analyze(ctx, tracks.Slice(t.Points), cfg.Experiment, t.Calibration, opt)
+	r, err := profile.Analyze(ctx, t.Tracks, cfg.Experiment, t.Calibration, opt)
 	if err != nil {
 		return nil, inputErr(err)
 	}
@@ -80,7 +84,8 @@ func Analyze(ctx context.Context, cfg Config, t *Tracked) (*Analysis, error) {
 	return a, ctx.Err()
 }
 
-// Run opens, tracks and analyses cfg.Input.
+// Run opens, tracks and analyses cfg.Input. The caller closes the
+// Analysis's Tracked when done with its tracks.
 func Run(ctx context.Context, cfg Config) (*Analysis, error) {
 	rec, err := Open(ctx, cfg)
 	if err != nil {
@@ -91,7 +96,12 @@ func Run(ctx context.Context, cfg Config) (*Analysis, error) {
 	if err != nil {
 		return nil, err
 	}
-	return Analyze(ctx, cfg, t)
+	a, err := Analyze(ctx, cfg, t)
+	if err != nil {
+		t.Close()
+		return nil, err
+	}
+	return a, nil
 }
 
 // buildSummary assembles summary.json from the stages' results; it is the
@@ -106,7 +116,7 @@ func (a *Analysis) buildSummary(cfg Config) *summary.Summary {
 	}
 	s.Input = summary.Input{Path: t.Input, Frames: t.Info.Frames, FPS: fps, WidthPx: t.Info.WidthPx, HeightPx: t.Info.HeightPx}
 	s.Calibration = t.Calibration
-	n, tr, med := tracks.Count(t.Points)
+	n, tr, med := t.Tracks.Count()
 	s.Tracking = summary.Tracking{Detections: n, Tracks: tr, MedianTrackFrames: med}
 	if t.Detections > 0 {
 		s.Tracking.Detections = t.Detections
@@ -116,50 +126,132 @@ func (a *Analysis) buildSummary(cfg Config) *summary.Summary {
 	return s
 }
 
-// FromTracks returns the Tracked of a tracks table pts (as read by
-// tracks.ReadCSV) with calibration cal, for analysing tracks without their
-// video. The frame rate is the experiment's, else the one the tracks'
-// times imply; without a motion program the phases are found from the
-// tracks next to the moving wall, as Track does. input names the table.
-func FromTracks(cfg Config, input string, pts []tracks.Point, cal *calib.Calibration) (*Tracked, error) {
+// FromTracks returns the Tracked of the tracks table tracks.csv read from
+// r, with calibration cal, for analysing tracks without their video. The
+// tracks go to a temporary file as they are read (tracks.SpoolCSV); the
+// caller closes the Tracked. The frame rate is the experiment's, else the
+// one the tracks' times imply; times that do not follow frame / rate (a
+// camera whose rate varies) are kept as the frames' clock (FrameTimesS).
+// Without a motion program the phases are found from the tracks next to
+// the moving wall, as Track does. input names the table.
+func FromTracks(cfg Config, input string, r io.Reader, cal *calib.Calibration) (*Tracked, error) {
 	if err := cfg.check(); err != nil {
 		return nil, err
 	}
-	if len(pts) == 0 {
-		return nil, inputErrf("%s: no detections", input)
+	var clock frameTimes
+	sp, err := tracks.SpoolCSV(r, cfg.TempDir, clock.add)
+	if err != nil {
+		return nil, inputErrf("%s: %v", input, err)
 	}
-	maxFrame := 0
-	for _, p := range pts {
-		maxFrame = max(maxFrame, p.Frame)
+	t := &Tracked{Input: input, Calibration: cal, Tracks: sp}
+	if sp.Points() == 0 {
+		t.Close()
+		return nil, inputErrf("%s: no detections", input)
 	}
 	fps := cfg.Experiment.Camera.FieldRate(cfg.Experiment.Camera.FPS)
 	if !(fps > 0) {
-		fps = fpsOf(pts)
+		fps = clock.fps()
 	}
-	t := &Tracked{Input: input, Calibration: cal, Points: pts,
-		Info: frames.Info{FPS: fps, Frames: maxFrame + 1, WidthPx: cal.WidthPx, HeightPx: cal.HeightPx}}
+	t.Info = frames.Info{FPS: fps, Frames: len(clock.ts), WidthPx: cal.WidthPx, HeightPx: cal.HeightPx}
+	t.FrameTimesS = clock.varying(fps)
 	prog, err := cfg.program()
 	if err != nil {
+		t.Close()
 		return nil, err
 	}
 	prog, _, _ = trimProgram(prog, t.durationS()) // Analyze warns
 	if (len(prog) == 0 || cfg.Log != nil) && fps > 0 {
-		t.findPhases(&cfg, prog)
+		w := phases.NewWallSteps(cal, t.Info.Frames)
+		err := sp.Each(func(tr []tracks.Point) error {
+			for i := 1; i < len(tr); i++ {
+				w.Step(&tr[i-1], &tr[i])
+			}
+			return nil
+		})
+		if err == nil {
+			err = t.findPhases(&cfg, prog, w.Signal())
+		}
+		if err != nil {
+			t.Close()
+			return nil, err
+		}
 	}
 	return t, nil
 }
 
-// fpsOf returns the frame rate implied by the tracks' times, frame / t_s
-// of the latest point (0 when no point is past the first frame).
-func fpsOf(pts []tracks.Point) float64 {
-	var last tracks.Point
-	for _, p := range pts {
-		if p.Frame > last.Frame {
-			last = p
+// frameTimes gathers, from the rows of a tracks table, each frame's time
+// (that of its first row; NaN for a frame without one).
+type frameTimes struct{ ts []float64 }
+
+// add records a row's frame and time.
+func (c *frameTimes) add(p tracks.Point) {
+	for len(c.ts) <= p.Frame {
+		c.ts = append(c.ts, math.NaN())
+	}
+	if math.IsNaN(c.ts[p.Frame]) {
+		c.ts[p.Frame] = p.TS
+	}
+}
+
+// fps returns the frame rate implied by the tracks' times, frame / t_s
+// of the latest frame (0 when no frame past the first has a time).
+func (c *frameTimes) fps() float64 {
+	for f := len(c.ts) - 1; f > 0; f-- {
+		if t := c.ts[f]; !math.IsNaN(t) {
+			if !(t > 0) {
+				return 0
+			}
+			return float64(f) / t
 		}
 	}
-	if last.Frame == 0 || !(last.TS > 0) {
-		return 0
+	return 0
+}
+
+// vfrTolFrames is how far, in frame intervals, a frame's time in a tracks
+// table may lie from frame / rate before the table is taken to come from a
+// camera whose rate varies: far above the rounding of t_s to a
+// microsecond at any rate up to 10 000 frames/s, far below the 25 %
+// spread of such a camera's intervals (synth's vfr scenario).
+const vfrTolFrames = 0.01
+
+// varying returns the frames' clock, s, when some frame's time lies
+// farther than vfrTolFrames from frame / fps, with the frames without a
+// time interpolated between their neighbours (and at 1/fps beyond the
+// ends); nil when every time follows frame / fps, or the times do not
+// increase.
+func (c *frameTimes) varying(fps float64) []float64 {
+	if !(fps > 0) {
+		return nil
 	}
-	return float64(last.Frame) / last.TS
+	off := false
+	for f, t := range c.ts {
+		if !math.IsNaN(t) && math.Abs(t*fps-float64(f)) > vfrTolFrames {
+			off = true
+			break
+		}
+	}
+	if !off {
+		return nil
+	}
+	out := slices.Clone(c.ts)
+	last := -1
+	for f, t := range out {
+		if math.IsNaN(t) {
+			continue
+		}
+		if last >= 0 && !(t > out[last]) {
+			return nil
+		}
+		if last < 0 {
+			for k := 0; k < f; k++ {
+				out[k] = t - float64(f-k)/fps
+			}
+		} else {
+			for k := last + 1; k < f; k++ {
+				out[k] = out[last] + (t-out[last])*float64(k-last)/float64(f-last)
+			}
+		}
+		last = f
+	}
+	return out
 }

@@ -3,6 +3,7 @@ package pipeline
 import (
 	"bytes"
 	"context"
+	"fmt"
 	"math"
 	"os"
 	"os/exec"
@@ -14,6 +15,7 @@ import (
 	"gaptrace/profile/cessation"
 	"gaptrace/profile/rheometry"
 	"gaptrace/track/synth"
+	"gaptrace/track/tracks"
 )
 
 // TestVariableFrameRate runs the chain on synth's variable-rate camera
@@ -45,11 +47,18 @@ func TestVariableFrameRate(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
+	defer a.Tracked.Close()
 	truth := sc.FrameTimes()
-	for _, p := range a.Tracked.Points {
-		if math.Abs(p.TS-truth[p.Frame]) > 1e-9 {
-			t.Fatalf("frame %d at t = %g s, truth %g s", p.Frame, p.TS, truth[p.Frame])
+	err = a.Tracked.Tracks.Each(func(tr []tracks.Point) error {
+		for _, p := range tr {
+			if math.Abs(p.TS-truth[p.Frame]) > 1e-9 {
+				return fmt.Errorf("frame %d at t = %g s, truth %g s", p.Frame, p.TS, truth[p.Frame])
+			}
 		}
+		return nil
+	})
+	if err != nil {
+		t.Fatal(err)
 	}
 	warned := false
 	for _, w := range a.Tracked.Warnings {
@@ -70,6 +79,35 @@ func TestVariableFrameRate(t *testing.T) {
 		sp.SlipStationaryUMPerS, sp.SlipMovingUMPerS, s.AfterStop.Verdict)
 	if sp.Verdict != rheometry.Homogeneous || math.Abs(float64(sp.BulkRatePerS)-1) > rateTol {
 		t.Errorf("verdict %q at a bulk rate of %.4f/s, want homogeneous at 1/s", sp.Verdict, sp.BulkRatePerS)
+	}
+	// The profile stage on the run's tracks.csv reckons the recording's
+	// length from the tracks' own times (issue 18: frames / fps made it
+	// shorter by the skipped frames) and gives the same results.
+	var csv bytes.Buffer
+	if err := a.Tracked.WriteTracks(&csv); err != nil {
+		t.Fatal(err)
+	}
+	ft, err := FromTracks(Config{Experiment: exp}, "tracks.csv", &csv, a.Tracked.Calibration)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer ft.Close()
+	// durTolS: the table's times are rounded to a microsecond; the last
+	// interval is a nominal one in both.
+	const durTolS = 1e-5
+	if d, want := ft.durationS(), a.Tracked.durationS(); math.Abs(d-want) > durTolS {
+		t.Errorf("tracks.csv of a variable rate: %.6f s long, the run's recording %.6f s", d, want)
+	}
+	fa, err := Analyze(context.Background(), Config{Experiment: exp}, ft)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(fa.Summary.ShearPhases) != 1 {
+		t.Fatalf("profile of the tracks: %d shear phases", len(fa.Summary.ShearPhases))
+	}
+	fp := fa.Summary.ShearPhases[0]
+	if d := math.Abs(float64(fp.BulkRatePerS - sp.BulkRatePerS)); fp.Verdict != sp.Verdict || !(d <= float64(sp.BulkRateErrPerS)) {
+		t.Errorf("profile of the tracks: %q at %.4f/s; the run: %q at %.4f/s ± %.4f", fp.Verdict, fp.BulkRatePerS, sp.Verdict, sp.BulkRatePerS, sp.BulkRateErrPerS)
 	}
 	// After the stop the truth is quiescent. Package cessation takes a
 	// frame up to half an interval after the stop as at the stop, which a
@@ -121,6 +159,7 @@ func TestInputNotes(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
+	defer tk.Close()
 	for _, w := range tk.Warnings {
 		if strings.Contains(w, "the last 1 are lost") {
 			t.Logf("%s", w)

@@ -44,6 +44,11 @@ type Config struct {
 	// Progress, when not nil, is called as the stages advance, from the
 	// goroutine that called the stage.
 	Progress func(Progress)
+	// TempDir is the folder of the temporary files that hold the
+	// detections and the tracks instead of memory ("": os.TempDir). They
+	// are named tracks.SpoolPrefix and removed from the folder as soon as
+	// they are made, where the system allows it.
+	TempDir string
 }
 
 // Stages, as named in Progress.

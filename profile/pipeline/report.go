@@ -29,7 +29,7 @@ func (a *Analysis) Report(cfg Config, experimentYAML string) *report.Data {
 	d := report.FromAnalysis(s, cfg.Experiment, a.Profile)
 	d.ExperimentYAML = experimentYAML
 	if dg := t.Diagnostics; len(dg.SNR) > 0 {
-		d.Detection = &figure.Detection{SNR: dg.SNR, FracXPx: dg.FracX, FracYPx: dg.FracY, SNRThreshold: dg.MinSNR}
+		d.Detection = &figure.Detection{SNR: dg.SNR, FracXPx: dg.FracX, FracYPx: dg.FracY, SNRThreshold: dg.MinSNR, Stride: dg.Stride}
 	}
 	t0, t1 := overlayWindow(s)
 	frame, err := readFrame8(cfg, t.Info, (t0+t1)/2)
@@ -37,7 +37,13 @@ func (a *Analysis) Report(cfg Config, experimentYAML string) *report.Data {
 		s.Warnings = append(s.Warnings, fmt.Sprintf("no overlay figure: %v", err))
 		return d
 	}
-	d.Overlay = &figure.Overlay{Frame: frame, Calibration: t.Calibration, Tracks: trackPaths(t.Points, t0, t1)}
+	paths, err := trackPaths(t.Tracks, t0, t1)
+	if err != nil {
+		frame.Close()
+		s.Warnings = append(s.Warnings, fmt.Sprintf("no overlay figure: %v", err))
+		return d
+	}
+	d.Overlay = &figure.Overlay{Frame: frame, Calibration: t.Calibration, Tracks: paths}
 	d.OverlayFrameS, d.OverlayWindowS = (t0+t1)/2, [2]float64{t0, t1}
 	return d
 }
@@ -85,31 +91,34 @@ func readFrame8(cfg Config, info frames.Info, tS float64) (gocv.Mat, error) {
 	return m8, nil
 }
 
-// trackPaths returns the tracks of [t0S, t1S] as polylines in px.
-func trackPaths(pts []tracks.Point, t0S, t1S float64) [][]figure.PointPx {
-	by := map[int][]tracks.Point{}
-	for _, p := range pts {
-		if p.Track != tracks.Unlinked && p.TS >= t0S && p.TS <= t1S {
-			by[p.Track] = append(by[p.Track], p)
-		}
+// trackPaths returns the tracks of [t0S, t1S] as polylines in px, in
+// the order of src.
+func trackPaths(src tracks.Source, t0S, t1S float64) ([][]figure.PointPx, error) {
+	type path struct {
+		id   int
+		line []figure.PointPx
 	}
-	ids := make([]int, 0, len(by))
-	for id := range by {
-		ids = append(ids, id)
-	}
-	slices.Sort(ids)
-	var out [][]figure.PointPx
-	for _, id := range ids {
-		tr := by[id]
-		if len(tr) < 2 {
-			continue
+	var ps []path
+	err := src.Each(func(tr []tracks.Point) error {
+		if tr[0].Track == tracks.Unlinked {
+			return nil
 		}
-		slices.SortFunc(tr, func(a, b tracks.Point) int { return a.Frame - b.Frame })
-		line := make([]figure.PointPx, len(tr))
-		for i, p := range tr {
-			line[i] = figure.PointPx{XPx: p.XPx, YPx: p.YPx}
+		var line []figure.PointPx
+		for _, p := range tr {
+			if p.TS >= t0S && p.TS <= t1S {
+				line = append(line, figure.PointPx{XPx: p.XPx, YPx: p.YPx})
+			}
 		}
-		out = append(out, line)
+		if len(line) >= 2 {
+			ps = append(ps, path{tr[0].Track, line})
+		}
+		return nil
+	})
+	// In track id order, as drawn before the tracks were spooled.
+	slices.SortFunc(ps, func(a, b path) int { return a.id - b.id })
+	out := make([][]figure.PointPx, len(ps))
+	for i, p := range ps {
+		out[i] = p.line
 	}
-	return out
+	return out, err
 }

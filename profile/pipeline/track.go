@@ -56,10 +56,11 @@ type Tracked struct {
 	// Calibration maps pixels to gap coordinates; its FlowSign is set from
 	// the motion in the video.
 	Calibration *calib.Calibration
-	// Points are the detections, in the order of package tracks, with x_um
-	// positive in the direction the moving wall travels in the first shear
-	// phase.
-	Points []tracks.Point
+	// Tracks are the detections, one track (or one unlinked detection) at
+	// a time in the order the tracks ended, with x_um positive in the
+	// direction the moving wall travels in the first shear phase. They are
+	// kept in a temporary file, not in memory; Close removes it.
+	Tracks *tracks.Spool
 	// Detections counts every detection, linked or not.
 	Detections int
 	Link       link.Stats
@@ -90,11 +91,57 @@ type Tracked struct {
 
 // Diagnostics describes the detections: each one's signal-to-noise ratio
 // and the fractional parts of its position (px), whose histogram shows
-// pixel locking, and the detection threshold.
+// pixel locking, and the detection threshold. A long recording's values
+// are a systematic sample: every Stride-th detection, at most
+// maxDiagnostics of them.
 type Diagnostics struct {
 	SNR          []float64
 	FracX, FracY []float64
 	MinSNR       float64
+	// Stride is how many detections each value stands for (0 or 1: all
+	// are kept).
+	Stride int
+	seen   int
+}
+
+// maxDiagnostics bounds the detections Diagnostics keeps: a million
+// values (24 MiB) draw the histograms of the report as well as all of
+// them, and a longer recording keeps every second, fourth ... one.
+const maxDiagnostics = 1 << 20
+
+// add keeps a detection's values when it falls on the stride, halving
+// the sample and doubling the stride when it is full.
+func (dg *Diagnostics) add(snr, xPx, yPx float64) {
+	dg.Stride = max(dg.Stride, 1)
+	dg.seen++
+	if (dg.seen-1)%dg.Stride != 0 {
+		return
+	}
+	if len(dg.SNR) == maxDiagnostics {
+		for _, v := range []*[]float64{&dg.SNR, &dg.FracX, &dg.FracY} {
+			w := (*v)[:0]
+			for i := 0; i < len(*v); i += 2 {
+				w = append(w, (*v)[i])
+			}
+			*v = w
+		}
+		dg.Stride *= 2
+		if (dg.seen-1)%dg.Stride != 0 {
+			return
+		}
+	}
+	dg.SNR = append(dg.SNR, snr)
+	dg.FracX = append(dg.FracX, xPx-math.Floor(xPx))
+	dg.FracY = append(dg.FracY, yPx-math.Floor(yPx))
+}
+
+// Close removes the temporary file of the tracks; t's tracks cannot be
+// read afterwards. It may be called more than once.
+func (t *Tracked) Close() error {
+	if t == nil || t.Tracks == nil {
+		return nil
+	}
+	return t.Tracks.Close()
 }
 
 // Track detects the tracers in every frame inside the gap, links them into
@@ -106,22 +153,29 @@ func (r *Recording) Track(ctx context.Context) (*Tracked, error) {
 	if err != nil {
 		return nil, err
 	}
-	if err := r.linkAll(ctx, t, dets); err != nil {
+	signal, err := r.linkAll(ctx, t, dets)
+	dets.Close()
+	if err != nil {
 		return nil, err
 	}
 	t.Warnings = append(t.Warnings, r.Calibration.Warnings...)
 	prog, err := r.cfg.program()
 	if err != nil {
+		t.Close()
 		return nil, err
 	}
 	prog, _, _ = trimProgram(prog, t.durationS()) // Analyze warns
-	t.findPhases(&r.cfg, prog)
+	if err := t.findPhases(&r.cfg, prog, signal); err != nil {
+		t.Close()
+		return nil, err
+	}
 	return t, nil
 }
 
 // detectAll runs the detector over every frame, inside the gap, and
-// returns the detections per frame index.
-func (r *Recording) detectAll(ctx context.Context, t *Tracked) ([][]link.Detection, error) {
+// returns the detections per frame index, spooled to a temporary file (the
+// caller closes it).
+func (r *Recording) detectAll(ctx context.Context, t *Tracked) (_ *link.FrameSpool, err error) {
 	src, err := r.takeInput()
 	if err != nil {
 		return nil, err
@@ -141,7 +195,16 @@ func (r *Recording) detectAll(ctx context.Context, t *Tracked) ([][]link.Detecti
 		return nil, err
 	}
 	t.Diagnostics.MinSNR = detect.DefaultMinSNR
-	var out [][]link.Detection
+	out, err := link.NewFrameSpool(r.cfg.TempDir)
+	if err != nil {
+		return nil, err
+	}
+	defer func() {
+		if err != nil {
+			out.Close()
+		}
+	}()
+	var ld []link.Detection
 	n := 0
 	// The detector's own band-pass removes the smooth background; a temporal
 	// median is not subtracted because tracers at rest, before the shear and
@@ -153,18 +216,14 @@ func (r *Recording) detectAll(ctx context.Context, t *Tracked) ([][]link.Detecti
 		if err := ctx.Err(); err != nil {
 			return err
 		}
-		for len(out) <= frame {
-			out = append(out, nil)
+		ld = ld[:0]
+		for _, x := range dets {
+			ld = append(ld, link.Detection{XPx: x.XPx, YPx: x.YPx, Brightness: x.Brightness, SizePx: x.SizePx})
+			t.Diagnostics.add(x.SNR, x.XPx, x.YPx)
 		}
-		ld := make([]link.Detection, len(dets))
-		dg := &t.Diagnostics
-		for i, x := range dets {
-			ld[i] = link.Detection{XPx: x.XPx, YPx: x.YPx, Brightness: x.Brightness, SizePx: x.SizePx}
-			dg.SNR = append(dg.SNR, x.SNR)
-			dg.FracX = append(dg.FracX, x.XPx-math.Floor(x.XPx))
-			dg.FracY = append(dg.FracY, x.YPx-math.Floor(x.YPx))
+		if err := out.Add(frame, ld); err != nil {
+			return err
 		}
-		out[frame] = ld
 		t.Detections += len(dets)
 		n++
 		r.cfg.report(StageDetect, n, total)
@@ -176,11 +235,11 @@ func (r *Recording) detectAll(ctx context.Context, t *Tracked) ([][]link.Detecti
 	if n == 0 {
 		return nil, inputErrf("input %s: no frames", r.cfg.Input)
 	}
-	t.Info.Frames = len(out)
+	t.Info.Frames = out.Len()
 	var warn []string
-	t.FrameTimesS, t.Info.FPS, warn = frameClock(src, t.Info, len(out))
+	t.FrameTimesS, t.Info.FPS, warn = frameClock(src, t.Info, out.Len())
 	t.Warnings = append(t.Warnings, warn...)
-	t.Warnings = append(t.Warnings, inputNotes(src, t.Info, len(out))...)
+	t.Warnings = append(t.Warnings, inputNotes(src, t.Info, out.Len())...)
 	t.Warnings = append(t.Warnings, r.fieldNotes()...)
 	if t.Detections == 0 {
 		return nil, inputErrf("no tracers found in %d frames of %s (tracer diameter %g px, polarity %s)", n, r.cfg.Input, d, opt.Polarity)
@@ -205,6 +264,28 @@ func markNearWall(pts []tracks.Point, cal *calib.Calibration, diameterPx float64
 		y := pts[i].YUM
 		pts[i].NearWall = y < limUM || cal.GapUM-y < limUM
 	}
+}
+
+// trackPass is a linking pass of Track (link.Pass): its tracks, flagged
+// near the walls, go to a spool, and the steps by the moving wall make the
+// signal the phases are found in (phases.WallSteps), one frame at a time.
+type trackPass struct {
+	*tracks.Spool
+	wall       *phases.WallSteps
+	cal        *calib.Calibration
+	diameterPx float64
+}
+
+// Step implements link.Pass.
+func (p *trackPass) Step(a, b *tracks.Point) { p.wall.Step(a, b) }
+
+// EndFrame implements link.Pass.
+func (p *trackPass) EndFrame(frame int) { p.wall.EndFrame(frame) }
+
+// Track implements link.Pass.
+func (p *trackPass) Track(pts []tracks.Point) error {
+	markNearWall(pts, p.cal, p.diameterPx)
+	return p.Add(pts)
 }
 
 // wallProfiles measures the static profile of each wall on the median
@@ -248,16 +329,18 @@ func maxWallSpeed(p experiment.Program) float64 {
 	return v
 }
 
-// linkAll links the detections into tracks in gap coordinates.
-func (r *Recording) linkAll(ctx context.Context, t *Tracked, dets [][]link.Detection) error {
+// linkAll links the detections into tracks in gap coordinates, kept in
+// t.Tracks, and returns the motion by the moving wall (phases.WallSignal)
+// of the tracks it kept.
+func (r *Recording) linkAll(ctx context.Context, t *Tracked, dets *link.FrameSpool) ([]float64, error) {
 	if err := ctx.Err(); err != nil {
-		return err
+		return nil, err
 	}
 	r.cfg.report(StageLink, 0, 1)
 	cal := r.Calibration
 	prog, err := r.cfg.program()
 	if err != nil {
-		return err
+		return nil, err
 	}
 	v := maxWallSpeed(prog)
 	if v == 0 {
@@ -269,15 +352,24 @@ func (r *Recording) linkAll(ctx context.Context, t *Tracked, dets [][]link.Detec
 	opt := link.Options{FPS: t.Info.FPS, MaxStepPx: link.MaxStepFor(v, t.Info.FPS, cal.UMPerPx),
 		GapFrames: link.DefaultGapFrames, MeasureCommonMode: !r.cfg.NoJitter, FrameTimesS: t.FrameTimesS,
 		FlowChangesS: flowChanges(prog)}
-	pts, st, err := link.LinkContext(ctx, dets, cal, opt)
+	d := r.diameterPx()
+	newPass := func() (link.Pass, error) {
+		sp, err := tracks.NewSpool(r.cfg.TempDir)
+		if err != nil {
+			return nil, err
+		}
+		return &trackPass{Spool: sp, wall: phases.NewWallSteps(cal, dets.Len()), cal: cal, diameterPx: d}, nil
+	}
+	p, st, err := link.LinkStream(ctx, dets, cal, opt, newPass)
 	if err != nil {
-		return err
+		return nil, err
 	}
+	tp := p.(*trackPass)
 	if st.Tracks == 0 {
-		return inputErrf("no tracks: %d detections in %d frames could not be linked", st.Detections, len(dets))
+		tp.Close()
+		return nil, inputErrf("no tracks: %d detections in %d frames could not be linked", st.Detections, dets.Len())
 	}
-	markNearWall(pts, cal, r.diameterPx())
-	t.Points, t.Link = pts, st
+	t.Tracks, t.Link = tp.Spool, st
 	if st.SlowDriftPx > slowDriftWarnPx {
 		t.Warnings = append(t.Warnings, fmt.Sprintf("the whole image sways along the flow (%.2f px RMS beyond what the tracks' own motion absorbs), slower than the camera-shake correction follows (%d frames): "+
 			"the tracers alone cannot tell a swaying camera from a uniform motion of the sample, so motion uniform across the gap at rest or after the stop may be the camera's, not slip",
@@ -285,23 +377,28 @@ func (r *Recording) linkAll(ctx context.Context, t *Tracked, dets [][]link.Detec
 	}
 	t.MaxStepUM = opt.MaxStepPx * cal.UMPerPx
 	r.cfg.report(StageLink, 1, 1)
-	return ctx.Err()
+	if err := ctx.Err(); err != nil {
+		t.Close()
+		return nil, err
+	}
+	return tp.wall.Signal(), nil
 }
 
 // findPhases finds the phases of wall motion in the tracks, sets the
 // direction of the flow from them (flipping x_um when the moving wall
 // travels towards -x of the image), and reconciles them with the motion
 // program: t.Phases is set to the detected phases when the program has
-// none.
-func (t *Tracked) findPhases(cfg *Config, prog experiment.Program) {
-	det, err := phases.Detect(phases.WallSignal(t.Points, t.Calibration, t.Info.Frames), t.Info.FPS)
+// none. signal is the motion by the moving wall (phases.WallSignal) of
+// t's tracks. The error is one of reading the tracks.
+func (t *Tracked) findPhases(cfg *Config, prog experiment.Program, signal []float64) error {
+	det, err := phases.Detect(signal, t.Info.FPS)
 	if err != nil {
 		if len(prog) == 0 {
 			t.Warnings = append(t.Warnings, fmt.Sprintf("no motion program and no wall motion detected in the video: %v", err))
 		} else {
 			t.Warnings = append(t.Warnings, fmt.Sprintf("phases not detected in the video: %v", err))
 		}
-		return
+		return nil
 	}
 	// The phases were timed at frame / FPS: a variable rate's frames are
 	// put at their own times.
@@ -317,15 +414,15 @@ func (t *Tracked) findPhases(cfg *Config, prog experiment.Program) {
 	// shear phase (the contract's convention).
 	if det.FlowSign != 0 && det.FlowSign != t.Calibration.FlowSign {
 		t.Calibration.FlowSign = det.FlowSign
-		for i := range t.Points {
-			t.Points[i].XUM = -t.Points[i].XUM
-		}
+		t.Tracks.NegateX()
 	}
 	durS := t.durationS()
 	if cfg.Log != nil {
 		logged := cfg.programPhases(prog, durS)
 		if sh, ok := phases.ClockShift(logged, det.Phases, t.Info.FPS); ok {
-			sh = t.refineShift(logged, sh)
+			if sh, err = t.refineShift(logged, sh); err != nil {
+				return err
+			}
 			t.LogShiftS = sh
 			c := t.logConfig(*cfg)
 			if p, err := c.program(); err == nil {
@@ -347,6 +444,7 @@ func (t *Tracked) findPhases(cfg *Config, prog experiment.Program) {
 	if len(prog) == 0 {
 		t.Phases = use
 	}
+	return nil
 }
 
 // PhasesFor returns the phases the profile stage uses for t under cfg: the
@@ -361,7 +459,7 @@ func (t *Tracked) PhasesFor(cfg Config) []phases.Phase {
 	if err != nil || !(t.Info.FPS > 0) {
 		return nil
 	}
-	return cfg.programPhases(prog, float64(t.Info.Frames)/t.Info.FPS)
+	return cfg.programPhases(prog, t.durationS())
 }
 
 // refineShift sharpens the clock shift sh between the logged phases and
@@ -370,13 +468,18 @@ func (t *Tracked) PhasesFor(cfg Config) []phases.Phase {
 // (cessation.RefineStop, to a fraction of a frame) and the median of those
 // offsets is taken. A stop placed a frame late would otherwise show as a
 // displacement after cessation of the wall's travel in a frame. sh is
-// returned as it is when no stop can be refined.
-func (t *Tracked) refineShift(logged []phases.Phase, sh float64) float64 {
-	ts := velocity.Group(t.Points)
+// returned as it is when no stop can be refined. The tracks are read into
+// memory for this (only with a rheometer log whose clock is off).
+func (t *Tracked) refineShift(logged []phases.Phase, sh float64) (float64, error) {
+	pts, err := tracks.Collect(t.Tracks)
+	if err != nil {
+		return sh, err
+	}
+	ts := velocity.Group(pts)
 	dt := 1 / t.Info.FPS
 	sigma, err := velocity.NoiseUM(ts)
 	if err != nil {
-		return sh
+		return sh, nil
 	}
 	var offs []float64
 	for _, p := range logged {
@@ -388,9 +491,9 @@ func (t *Tracked) refineShift(logged []phases.Phase, sh float64) float64 {
 		}
 	}
 	if len(offs) == 0 {
-		return sh
+		return sh, nil
 	}
-	return robust.Median(offs)
+	return robust.Median(offs), nil
 }
 
 // logConfig returns cfg with its rheometer log on the video's clock: its
@@ -408,8 +511,9 @@ func (t *Tracked) logConfig(cfg Config) Config {
 	return cfg
 }
 
-// WriteTracks writes the tracks as tracks.csv (package tracks).
-func (t *Tracked) WriteTracks(w io.Writer) error { return tracks.WriteCSV(w, t.Points) }
+// WriteTracks writes the tracks as tracks.csv (package tracks), streamed
+// from their spool: the tracks in the order they ended.
+func (t *Tracked) WriteTracks(w io.Writer) error { return tracks.WriteCSVFrom(w, t.Tracks) }
 
 // clockS turns a time reckoned at frame / FPS into the time of the
 // recording's own frame clock (FrameTimesS), interpolated between frames

@@ -166,9 +166,13 @@ func renderFigures(d *Data) (figs []shownFigure, notShown, failed []string) {
 				"vector marks (dot: the latest position).", formatTime(d.OverlayFrameS), formatSpan(d.OverlayWindowS[0], d.OverlayWindowS[1]))
 		}, true, func() (*figure.Figure, error) { return figure.OverlayPlot(d.Overlay) }},
 		{d.Detection != nil, detectionStem, "Detection diagnostics", func() string {
-			return fmt.Sprintf("(a) Signal-to-noise ratio of the %d detections (dashed: the acceptance threshold). "+
+			of := fmt.Sprintf("the %d detections", len(d.Detection.SNR))
+			if st := d.Detection.Stride; st > 1 {
+				of = fmt.Sprintf("the detections, from every %d-th of them (%d)", st, len(d.Detection.SNR))
+			}
+			return fmt.Sprintf("(a) Signal-to-noise ratio of %s (dashed: the acceptance threshold). "+
 				"(b) The fractional part of the tracer centres in x and y, share of detections per bin; a flat "+
-				"histogram (dotted) means no pull towards whole pixels (pixel locking).", len(d.Detection.SNR))
+				"histogram (dotted) means no pull towards whole pixels (pixel locking).", of)
 		}, true, func() (*figure.Figure, error) { return figure.DetectionPlot(d.Detection) }},
 	} {
 		if !o.have {

@@ -130,6 +130,11 @@ func score(dir, name string, seed int64, nFrames int) error {
 	if err != nil {
 		return err
 	}
+	defer tr.Close()
+	points, err := tracks.Collect(tr.Tracks)
+	if err != nil {
+		return err
+	}
 	rows := s.TruthRows()
 	byFrame := map[int][]int{}
 	passage := map[int]int{}
@@ -139,7 +144,7 @@ func score(dir, name string, seed int64, nFrames int) error {
 	}
 	dets := map[int][]int{}
 	trackLen := map[int]int{}
-	for i, p := range tr.Points {
+	for i, p := range points {
 		dets[p.Frame] = append(dets[p.Frame], i)
 		if p.Track != tracks.Unlinked {
 			trackLen[p.Track]++
@@ -165,7 +170,7 @@ func score(dir, name string, seed int64, nFrames int) error {
 		var pairs []pair
 		for _, t := range ti {
 			for k, j := range di {
-				p := tr.Points[j]
+				p := points[j]
 				if d := math.Hypot(p.XPx-rows[t].Point.XPx, p.YPx-rows[t].Point.YPx); d < matchPx {
 					pairs = append(pairs, pair{d, t, k})
 				}
@@ -191,7 +196,7 @@ func score(dir, name string, seed int64, nFrames int) error {
 		for k, u := range used {
 			prec.add(u)
 			if debug && !u {
-				p := tr.Points[di[k]]
+				p := points[di[k]]
 				_, y := cal.ToGap(p.XPx, p.YPx)
 				dpx := math.Min(y, cal.GapUM-y) / cal.UMPerPx
 				falseAt[min(len(falseAt)-1, max(0, int(dpx+1)))]++
@@ -235,7 +240,7 @@ func score(dir, name string, seed int64, nFrames int) error {
 				if hit && r.InFocus {
 					// Distance of the detection from the same wall, along
 					// the gap coordinate of the true calibration.
-					_, yd := cal.ToGap(tr.Points[j].XPx, tr.Points[j].YPx)
+					_, yd := cal.ToGap(points[j].XPx, points[j].YPx)
 					_, yt := cal.ToGap(r.Point.XPx, r.Point.YPx)
 					toWall := (yt - yd) / cal.UMPerPx // positive: detection nearer the stationary wall
 					if r.DistMovingPx < r.DistStationaryPx {
@@ -262,7 +267,7 @@ func score(dir, name string, seed int64, nFrames int) error {
 				crowd.add(hit)
 			}
 			if hit && r.InFocus && r.PeakSNR >= hiSNR {
-				p := tr.Points[j]
+				p := points[j]
 				se += (p.XPx-r.Point.XPx)*(p.XPx-r.Point.XPx) + (p.YPx-r.Point.YPx)*(p.YPx-r.Point.YPx)
 				nse += 2
 			}
@@ -290,7 +295,7 @@ func score(dir, name string, seed int64, nFrames int) error {
 		wb = bias / float64(nbias)
 	}
 	fmt.Printf("%-12s %7s %7s %7s %7s %7s %7s %7.3f %8.3f %7d %8.3f\n", name, all, wall, edge, oof, crowd, prec, rms, wb,
-		len(tr.Points), median(trackLen)/median(passage))
+		len(points), median(trackLen)/median(passage))
 	if len(tr.Warnings) > 0 {
 		fmt.Printf("%-12s warnings: %s\n", "", strings.Join(tr.Warnings, "; "))
 	}

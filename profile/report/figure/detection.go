@@ -19,6 +19,10 @@ type Detection struct {
 	// FracXPx and FracYPx are the fractional parts of the sub-pixel centres,
 	// x - floor(x), in [0, 1) px. A flat histogram shows no pixel locking.
 	FracXPx, FracYPx []float64
+	// Stride, when above 1, says that the values are a systematic sample
+	// of the detections, every Stride-th: the histogram of the SNR counts
+	// each value Stride times.
+	Stride int
 }
 
 // Histogram bins of the diagnostics.
@@ -65,11 +69,16 @@ func DetectionPlot(d *Detection) (*Figure, error) {
 		return nil, err
 	}
 	h.FillColor, h.LineStyle.Color, h.LineStyle.Width = SkyBlue, Blue, vg.Points(st.TickLinePt)
+	if d.Stride > 1 {
+		for i := range h.Bins {
+			h.Bins[i].Weight *= float64(d.Stride)
+		}
+	}
 	left.Plot.Add(h)
 	ymax := 0.0
 	for _, b := range h.Bins {
 		ymax = math.Max(ymax, b.Weight)
-		tab.Row("snr", b.Min, b.Max, b.Weight, b.Weight/float64(len(d.SNR)))
+		tab.Row("snr", b.Min, b.Max, b.Weight, b.Weight/float64(len(d.SNR)*max(d.Stride, 1)))
 	}
 	left.Plot.X.Min, left.Plot.X.Max = h.Bins[0].Min, h.Bins[len(h.Bins)-1].Max
 	left.AddLegend("detections", swatch{fill: SkyBlue})
