@@ -2,6 +2,7 @@ package pipeline
 
 import (
 	"context"
+	"errors"
 	"fmt"
 	"io"
 	"math"
@@ -229,9 +230,20 @@ func (r *Recording) detectAll(ctx context.Context, t *Tracked) (_ *link.FrameSpo
 		r.cfg.report(StageDetect, n, total)
 		return nil
 	})
+	var lost []string
+	if de := (*frames.DamagedError)(nil); errors.As(err, &de) {
+		// A recording damaged part-way is analysed up to the damage.
+		if out.Len() < minSalvageFrames {
+			return nil, inputErrf("input %s: only %d frames can be read before frame %d is damaged (%s), fewer than the %d an analysis needs",
+				r.cfg.Input, out.Len(), de.Frame, de.Why, minSalvageFrames)
+		}
+		lost = append(lost, salvageWarning(de, out.Len()))
+		err = nil
+	}
 	if err != nil {
 		return nil, inputErr(err)
 	}
+	t.Warnings = append(t.Warnings, lost...)
 	if n == 0 {
 		return nil, inputErrf("input %s: no frames", r.cfg.Input)
 	}
@@ -245,6 +257,23 @@ func (r *Recording) detectAll(ctx context.Context, t *Tracked) (_ *link.FrameSpo
 		return nil, inputErrf("no tracers found in %d frames of %s (tracer diameter %g px, polarity %s)", n, r.cfg.Input, d, opt.Polarity)
 	}
 	return out, nil
+}
+
+// minSalvageFrames is the fewest frames a damaged recording must keep to
+// be analysed up to the damage: the frames the walls are found on
+// (MedianFrames), so that the detections of the frames kept lie on
+// the calibration's own images.
+const minSalvageFrames = MedianFrames
+
+// salvageWarning says which frames of a damaged recording are lost when
+// the frames 0 to kept-1 are analysed.
+func salvageWarning(de *frames.DamagedError, kept int) string {
+	lostTo := "the end"
+	if de.Of > kept {
+		lostTo = fmt.Sprintf("%d (%d frames)", de.Of-1, de.Of-kept)
+	}
+	return fmt.Sprintf("the recording is damaged from frame %d on (%s): frames %d to %s are lost, and only frames 0 to %d are analysed",
+		de.Frame, de.Why, kept, lostTo, kept-1)
 }
 
 // diameterPx returns the tracers' diameter of the experiment file, or

@@ -387,10 +387,13 @@ func (v *jpegVideo) NextPacket(buf []byte, _ *gocv.Mat) (int, []byte, error) {
 }
 
 func (v *jpegVideo) Decode(i int, packet []byte, dst *gocv.Mat) error {
+	if why := jpegDamage(packet); why != "" {
+		return &DamagedError{Path: v.info.Path, Frame: i, Of: v.info.Frames, Why: why}
+	}
 	g, err := gocv.IMDecode(packet, gocv.IMReadGrayScale)
 	if err != nil || g.Empty() {
 		g.Close()
-		return fmt.Errorf("frames: %s: cannot decode frame %d (damaged JPEG data)", v.info.Path, i)
+		return &DamagedError{Path: v.info.Path, Frame: i, Of: v.info.Frames, Why: "damaged JPEG data"}
 	}
 	defer g.Close()
 	if code, ok := rotateCode(v.info.RotationDeg); ok {
@@ -544,7 +547,7 @@ func (v *video) advance() (int, error) {
 	for v.next <= target {
 		if !v.cap.Read(&v.raw) || v.raw.Empty() {
 			if v.info.Frames >= 0 && v.next < v.info.Frames-countSlack(v.info.Frames) {
-				return 0, fmt.Errorf("frames: %s: cannot read frame %d of %d (file truncated or damaged)", v.info.Path, v.next, v.info.Frames)
+				return 0, &DamagedError{Path: v.info.Path, Frame: v.next, Of: v.info.Frames, Why: "file truncated or damaged"}
 			}
 			v.short = max(v.info.Frames-v.next, len(v.listed)-v.next, 0)
 			return 0, io.EOF
