@@ -49,7 +49,7 @@ func TestDamagedRecording(t *testing.T) {
 		from, to int // the frames analysed must end in [from, to]
 	}{
 		// About 40 % of the frames, less the container's header.
-		{"cut at 40 %", whole[:n*40/100], 50, 61},
+		{"cut at 40 %", whole[:n*40/100], 50, 64},
 		// The damage starts at half the bytes: about frame 75.
 		{"garbage in the middle", garbled, 65, 76},
 	} {
