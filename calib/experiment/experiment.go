@@ -145,11 +145,12 @@ type Tracers struct {
 
 // Load reads and checks the experiment file at path.
 func Load(path string) (*Experiment, error) {
-	b, err := os.ReadFile(path)
+	f, err := os.Open(path)
 	if err != nil {
 		return nil, fmt.Errorf("experiment file: %w", err)
 	}
-	e, err := Parse(bytes.NewReader(b))
+	defer f.Close()
+	e, err := Parse(f)
 	if err != nil {
 		return nil, fmt.Errorf("experiment file %s: %w", path, err)
 	}
@@ -167,7 +168,11 @@ var sectionKey = map[string]string{
 
 // Parse reads and checks an experiment file from r.
 func Parse(r io.Reader) (*Experiment, error) {
-	dec := yaml.NewDecoder(r)
+	b, err := readBounded(r)
+	if err != nil {
+		return nil, err
+	}
+	dec := yaml.NewDecoder(bytes.NewReader(b))
 	dec.KnownFields(true)
 	var e Experiment
 	if err := dec.Decode(&e); err != nil {
@@ -175,6 +180,9 @@ func Parse(r io.Reader) (*Experiment, error) {
 			return nil, errors.New("empty file")
 		}
 		return nil, tidyYAMLError(err)
+	}
+	if err := checkExplicitZeros(b); err != nil {
+		return nil, err
 	}
 	if err := e.Validate(); err != nil {
 		return nil, err

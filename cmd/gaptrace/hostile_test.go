@@ -17,7 +17,9 @@ import (
 // shorter than a frame) and checks exit status 2 with one line on stderr
 // naming the value, quickly and without summary.json. Before the bounds,
 // --bins 1000000 ran for minutes at 5 GB; fps 1e-6 and gap_um 1e15 were
-// accepted; gap_um 1e308 with um_per_px 1e-300 panicked in the flow prior.
+// accepted; gap_um 1e308 with um_per_px 1e-300 panicked in the flow prior;
+// fps, um_per_px and diameter_px written as 0 silently meant "not given";
+// -e /dev/zero read without end (out of memory under a 4 GB limit).
 func TestHostileInputs(t *testing.T) {
 	dir := t.TempDir()
 	in, exp := writeProfileInput(t, dir, "homogeneous")
@@ -54,6 +56,11 @@ func TestHostileInputs(t *testing.T) {
 		{"bins 1000000", []string{"-e", exp, "--bins", "1000000"}, "--bins 1000000"},
 		{"window outside", []string{"-e", exp, "--window", "100:200"}, "outside the recording"},
 		{"field order", []string{"-e", edited("fields", "fps: 100", "fps: 100\n  fields: sideways")}, "camera.fields"},
+		{"fps 0", []string{"-e", edited("fps0", "fps: 100", "fps: 0")}, "camera.fps: 0 is not a value"},
+		{"scale 0", []string{"-e", edited("scale0", "um_per_px: 2", "um_per_px: 0")}, "camera.um_per_px: 0 is not a value"},
+		{"diameter 0", []string{"-e", edited("diam0", "diameter_px: 5", "diameter_px: 0")}, "tracers.diameter_px: 0 is not a value"},
+		{"experiment file /dev/zero", []string{"-e", "/dev/zero"}, "larger than"},
+		{"bins 1e11", []string{"-e", exp, "--bins", "1e11"}, `invalid value "1e11" for flag -bins`},
 		{"seq as file", []string{"-e", edited("seq", string(orig), "- 1\n- 2\n")}, "a list where a mapping"},
 	}
 	for _, c := range cases {

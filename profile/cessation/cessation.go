@@ -284,7 +284,11 @@ func place(ts []velocity.Track, o Options) []placedTracer {
 	half := o.DtS / 2
 	for _, t := range ts {
 		p := t.Points
-		i := sort.Search(len(p), func(i int) bool { return p[i].TS > o.StopS+half })
+		// A point after the stop, however soon, is of the stopped sample:
+		// it must not enter the line to the stop (a variable-rate camera's
+		// frame 3.6 ms after a stop at 1/s, taken for one at the stop,
+		// bent every moving tracer's line and gave a false failure plane).
+		i := sort.Search(len(p), func(i int) bool { return p[i].TS > o.StopS+stopTimeTolS })
 		var after []velocityPoint
 		for _, q := range p[i:] {
 			if q.TS > o.EndS {
@@ -322,6 +326,11 @@ func place(ts []velocity.Track, o Options) []placedTracer {
 	}
 	return kept
 }
+
+// stopTimeTolS is how far after the stop a point still counts as taken at
+// the stop: the rounding of a frame time computed as frame/fps that falls
+// on the stop, not a frame interval.
+const stopTimeTolS = 1e-6
 
 // refOutlierSigmas is how far, in localization noise, a point may lie from
 // the line through a tracer's last points before the stop and still be
