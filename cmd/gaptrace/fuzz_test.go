@@ -18,18 +18,23 @@ const (
 	fuzzSidePx = 192
 )
 
-// FuzzRunVideo runs the whole `run` on damaged videos: the fuzzer mutates
-// the bytes of a short MJPEG and a short FFV1 recording (in AVI) of the
-// slip scenario. No input may panic (exit status 1, "internal error"),
-// crash in OpenCV or FFmpeg, or hang; a refused input gives exit status 2
-// and one gaptrace line; an accepted one exit 0 and a complete
-// summary.json. The seeds are rendered here; the inputs checked in under
-// testdata/fuzz/FuzzRunVideo (Go's layout) are replayed by every `go test`;
-// `go test -fuzz FuzzRunVideo ./cmd/gaptrace` searches further.
+// FuzzRunVideo runs the whole `run` on damaged videos: a short MJPEG and
+// a short FFV1 recording (in AVI) of the slip scenario, rendered here,
+// with bytes overwritten (patch at byte at, both taken modulo the file's
+// length) and cut short (at cut bytes, when cut is not 0). The fuzzer
+// mutates the damage, not the whole file, so that its corpus stays a few
+// bytes an input and its mutations reach the headers as often as the
+// frames. No input may panic (exit status 1, "internal error"), crash in
+// OpenCV or FFmpeg, or hang; a refused input gives exit status 2 and one
+// gaptrace line; an accepted one exit 0 and a complete summary.json. The
+// inputs checked in under testdata/fuzz/FuzzRunVideo (Go's layout) are
+// replayed by every `go test`; `go test -fuzz FuzzRunVideo ./cmd/gaptrace`
+// searches further.
 func FuzzRunVideo(f *testing.F) {
 	dir := f.TempDir()
 	var exp string
-	for _, format := range []string{synth.FormatMJPEG, synth.FormatFFV1} {
+	var videos [2][]byte // MJPEG, FFV1
+	for i, format := range []string{synth.FormatMJPEG, synth.FormatFFV1} {
 		sc, err := synth.Builtin("slip", 1)
 		if err != nil {
 			f.Fatal(err)
@@ -42,13 +47,27 @@ func FuzzRunVideo(f *testing.F) {
 			f.Fatal(err)
 		}
 		exp = filepath.Join(sub, synth.ExperimentFile)
-		b, err := os.ReadFile(filepath.Join(sub, "video.avi"))
-		if err != nil {
+		if videos[i], err = os.ReadFile(filepath.Join(sub, "video.avi")); err != nil {
 			f.Fatal(err)
 		}
-		f.Add(b)
 	}
-	f.Fuzz(func(t *testing.T, b []byte) {
+	for _, ffv1 := range []bool{false, true} {
+		n := uint32(len(videos[b2i(ffv1)]))
+		f.Add(ffv1, uint32(0), []byte(nil), uint32(0))
+		f.Add(ffv1, uint32(8), []byte("\xff\xff\xff\x7f"), uint32(0)) // the RIFF size
+		f.Add(ffv1, uint32(64), []byte("\x00\x00\x00\x00\x00\x00\x00\x00"), uint32(0))
+		f.Add(ffv1, n/2, []byte("\xff\xd8\xff\xd9garbage"), uint32(0))
+		f.Add(ffv1, uint32(0), []byte(nil), n*99/100)
+		f.Add(ffv1, uint32(0), []byte(nil), n/3)
+	}
+	f.Fuzz(func(t *testing.T, ffv1 bool, at uint32, patch []byte, cut uint32) {
+		b := append([]byte(nil), videos[b2i(ffv1)]...)
+		for i, c := range patch {
+			b[(int(at)+i)%len(b)] = c
+		}
+		if cut > 0 {
+			b = b[:int(cut)%len(b)]
+		}
 		work := t.TempDir()
 		video := filepath.Join(work, "video.avi")
 		if err := os.WriteFile(video, b, 0o644); err != nil {
@@ -71,4 +90,11 @@ func FuzzRunVideo(f *testing.F) {
 			t.Fatalf("exit %d: %s", code, msg)
 		}
 	})
+}
+
+func b2i(b bool) int {
+	if b {
+		return 1
+	}
+	return 0
 }

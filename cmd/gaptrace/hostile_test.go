@@ -3,6 +3,7 @@ package main
 import (
 	"bytes"
 	"os"
+	"os/exec"
 	"path/filepath"
 	"strings"
 	"testing"
@@ -127,4 +128,42 @@ func TestProgramPastRecording(t *testing.T) {
 		}
 	}
 	t.Logf("%d shear phases from the video; warnings %q", len(s.ShearPhases), s.Warnings)
+}
+
+// TestStderrQuietOnDamagedFrames runs, as a process of its own, a Motion
+// JPEG recording whose middle frames have bytes overwritten: libjpeg,
+// under OpenCV, printed "Corrupt JPEG data: premature end of data
+// segment" on the process's stderr past OpenCV's log level, beside a run
+// that gaptrace completed (exit 0). stderr must hold nothing but
+// gaptrace's own lines.
+func TestStderrQuietOnDamagedFrames(t *testing.T) {
+	bin := gaptraceBinary(t)
+	dir := t.TempDir()
+	exp, video := tinyRecording(t, dir, 4, 1, 400)
+	b, err := os.ReadFile(video)
+	if err != nil {
+		t.Fatal(err)
+	}
+	// Every 97th byte of 20 kB from the middle: inside the frames' JPEG
+	// data, few enough that most frames still decode.
+	for i := len(b) / 2; i < len(b)/2+20000 && i < len(b); i += 97 {
+		b[i] = 0x55
+	}
+	if err := os.WriteFile(video, b, 0o644); err != nil {
+		t.Fatal(err)
+	}
+	var stderr bytes.Buffer
+	cmd := exec.Command(bin, "run", "-e", exp, "-o", filepath.Join(dir, "out"), video)
+	cmd.Stderr = &stderr
+	cmd.Run()
+	code := cmd.ProcessState.ExitCode()
+	t.Logf("exit %d, stderr %q", code, stderr.String())
+	for _, line := range strings.Split(strings.TrimSpace(stderr.String()), "\n") {
+		if line != "" && !strings.HasPrefix(line, "gaptrace: ") {
+			t.Errorf("stderr holds a line not gaptrace's: %q", line)
+		}
+	}
+	if code != 0 && code != 2 {
+		t.Errorf("exit status %d", code)
+	}
 }

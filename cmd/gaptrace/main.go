@@ -54,12 +54,14 @@ func badInput(err error) error {
 // badInputf formats a bad-input error.
 func badInputf(format string, a ...any) error { return usageError{fmt.Errorf(format, a...)} }
 
-// init silences OpenCV's own logging, so that stderr carries gaptrace's
-// one-line messages alone. A user who wants OpenCV's messages sets
+// init silences OpenCV's own logging and the C libraries' writes to
+// standard error (claimStderr), so that stderr carries gaptrace's one-line
+// messages alone. A user who wants OpenCV's messages sets
 // OPENCV_LOG_LEVEL.
 func init() {
 	if _, set := os.LookupEnv("OPENCV_LOG_LEVEL"); !set {
 		frames.SilenceOpenCV()
+		claimStderr()
 	}
 }
 
