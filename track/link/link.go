@@ -154,11 +154,18 @@ type track struct {
 	hf   [velocityWindow]int
 	nh   int // points in the ring
 	last int // frame of the last point
+	// spilled counts the track's first points moved out of pts to a
+	// spill file (LinkStream), which pieces locate there.
+	spilled int
+	pieces  []piece
 }
+
+// size is the number of points of the track, spilled ones included.
+func (t *track) size() int { return t.spilled + len(t.pts) }
 
 // push records the corrected position of the point just appended to pts.
 func (t *track) push(frame int, x, y float64) {
-	i := (len(t.pts) - 1) % velocityWindow
+	i := (t.size() - 1) % velocityWindow
 	t.hx[i], t.hy[i], t.hf[i] = x, y, frame
 	if t.nh < velocityWindow {
 		t.nh++
@@ -167,12 +174,12 @@ func (t *track) push(frame int, x, y float64) {
 }
 
 // newest and oldest return the ring's newest and oldest entries.
-func (t *track) newest() int { return (len(t.pts) - 1) % velocityWindow }
+func (t *track) newest() int { return (t.size() - 1) % velocityWindow }
 func (t *track) oldest() int {
 	if t.nh < velocityWindow {
 		return 0
 	}
-	return len(t.pts) % velocityWindow
+	return t.size() % velocityWindow
 }
 
 // edge is a candidate pair of a track and a detection, with its cost
@@ -209,6 +216,10 @@ type Linker struct {
 	asg     assigner
 	cost    []float64
 	lt, ld  []int32
+
+	// spill, when not nil, holds the older points of long tracks
+	// (LinkStream).
+	spill *spillFile
 }
 
 // NewLinker checks opt and returns a Linker for frames mapped by cal.
@@ -371,11 +382,14 @@ func (l *Linker) append(t *track, frame int, d Detection, p pos) {
 // finish moves a track's points to the output.
 func (l *Linker) finish(t *track) {
 	id := tracks.Unlinked
-	if len(t.pts) >= l.opt.MinPoints {
+	if t.size() >= l.opt.MinPoints {
 		id = l.stats.Tracks
 		l.stats.Tracks++
 	} else {
-		l.stats.Unlinked += len(t.pts)
+		l.stats.Unlinked += t.size()
+	}
+	if t.spilled > 0 {
+		l.unspill(t) // the points spilled come back first
 	}
 	for i := range t.pts {
 		t.pts[i].Track = id

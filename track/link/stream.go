@@ -174,27 +174,109 @@ func LinkStream(ctx context.Context, frames Frames, cal *calib.Calibration, opt 
 	return p, st, nil
 }
 
+// Chunks of the common-mode fit of LinkStream: the fit
+// (flowprior.CommonModeFromTracks) holds every point it fits, so a long
+// recording is fitted in chunks of commonChunkFrames frames that overlap
+// by commonOverlapFrames, each shifted to agree with the one before over
+// the overlap, and joined in the overlap's middle. A recording of up to
+// one chunk and its overlap is fitted whole, as LinkContext does.
+const (
+	// commonChunkFrames is twenty pieces of track (segmentFrames, 50),
+	// enough for the pieces' lines and the offsets to settle as in a
+	// whole fit; a multiple of 50, so that the pieces fall on the same
+	// frames as in a whole fit.
+	commonChunkFrames = 1000
+	// commonOverlapFrames is two pieces: the mean difference over 100
+	// frames of offsets each about 0.01 px uncertain aligns the chunks
+	// to 0.001 px.
+	commonOverlapFrames = 100
+)
+
 // commonModeOf measures the common-mode motion on the tracks of pass
-// first as LinkContext does; it is the one part of LinkStream that holds a
-// whole pass in memory.
+// first as LinkContext does, chunk by chunk (commonChunkFrames), reading
+// the pass once per chunk.
 func commonModeOf(first Pass, cal *calib.Calibration, opt Options, n int) ([]flowprior.Shift, error) {
-	pts, err := tracks.Collect(first)
-	if err != nil {
-		return nil, err
+	var clock []float64
+	if opt.FrameTimesS != nil {
+		clock = clocks(opt, n)
+	}
+	if n <= commonChunkFrames+commonOverlapFrames {
+		pts, err := tracks.Collect(first)
+		if err != nil {
+			return nil, err
+		}
+		return commonModeRange(pts, cal, opt, clock, 0, n)
+	}
+	out := make([]flowprior.Shift, 0, n)
+	for f0 := 0; f0 < n; f0 += commonChunkFrames {
+		lo := max(0, f0-commonOverlapFrames)
+		hi := min(n, f0+commonChunkFrames)
+		if n-hi < commonOverlapFrames {
+			hi = n // a short remainder joins this chunk
+		}
+		var pts []tracks.Point
+		err := first.Each(func(tr []tracks.Point) error {
+			for _, p := range tr {
+				if p.Frame >= lo && p.Frame < hi {
+					p.Frame -= lo
+					pts = append(pts, p)
+				}
+			}
+			return nil
+		})
+		if err != nil {
+			return nil, err
+		}
+		cm, err := commonModeRange(pts, cal, opt, clock, lo, hi)
+		if err != nil {
+			return nil, err
+		}
+		if f0 == 0 {
+			out = append(out, cm...)
+		} else {
+			// Shift the chunk onto the one before over the overlap, and
+			// take the later chunk from the overlap's middle on.
+			ov := f0 - lo
+			var dx, dy float64
+			for k := range ov {
+				dx += out[lo+k].DXPx - cm[k].DXPx
+				dy += out[lo+k].DYPx - cm[k].DYPx
+			}
+			dx, dy = dx/float64(ov), dy/float64(ov)
+			mid := ov / 2
+			out = out[:lo+mid]
+			for _, sh := range cm[mid:] {
+				out = append(out, flowprior.Shift{DXPx: sh.DXPx + dx, DYPx: sh.DYPx + dy})
+			}
+		}
+		if hi == n {
+			break
+		}
+	}
+	return out, nil
+}
+
+// commonModeRange fits the common-mode motion of frames lo to hi-1, the
+// points pts with their frames counted from lo.
+func commonModeRange(pts []tracks.Point, cal *calib.Calibration, opt Options, clock []float64, lo, hi int) ([]flowprior.Shift, error) {
+	n := hi - lo
+	if clock != nil {
+		clock = clock[lo:hi]
 	}
 	switch {
 	case len(opt.FlowChangesS) > 0:
+		// The cuts in the clock's units: frames at the nominal rate,
+		// counted from lo without a clock.
 		cuts := make([]float64, len(opt.FlowChangesS))
 		for i, t := range opt.FlowChangesS {
 			cuts[i] = t * opt.FPS
-		}
-		var clock []float64
-		if opt.FrameTimesS != nil {
-			clock = clocks(opt, n)
+			if clock == nil {
+				cuts[i] -= float64(lo)
+			}
 		}
 		return flowprior.CommonModeFromTracksCut(pts, cal, n, clock, cuts)
-	case opt.FrameTimesS != nil:
-		return flowprior.CommonModeFromTracksAt(pts, cal, clocks(opt, n))
+	case clock != nil:
+		return flowprior.CommonModeFromTracksAt(pts, cal, clock)
 	}
 	return flowprior.CommonModeFromTracks(pts, cal, n)
 }
@@ -206,6 +288,10 @@ func linkPass(ctx context.Context, frames Frames, cal *calib.Calibration, opt Op
 	if err != nil {
 		return nil, Stats{}, err
 	}
+	if l.spill, err = newSpillFile(); err != nil {
+		return nil, Stats{}, err
+	}
+	defer l.spill.close()
 	p, err := newPass()
 	if err != nil {
 		return nil, Stats{}, err
@@ -227,19 +313,36 @@ func linkPass(ctx context.Context, frames Frames, cal *calib.Calibration, opt Op
 		}
 		l.steps(onStep)
 		p.EndFrame(f)
-		done := l.Flush()
-		err := emitTracks(p, done)
-		l.done = done[:0] // emitted: the room is reused
-		return err
+		l.spillLong()
+		return l.emit(p)
 	})
 	if err == nil {
-		done, st := l.Close()
-		if err = emitTracks(p, done); err == nil {
-			return p, st, nil
+		// As Close, one track at a time: the tracks still open at the end
+		// may be as long as the recording.
+		for _, t := range l.active {
+			l.finish(t)
+			if err = l.emit(p); err != nil {
+				break
+			}
 		}
+		l.active = nil
+	}
+	if err == nil {
+		return p, l.stats, nil
 	}
 	p.Close()
 	return nil, Stats{}, err
+}
+
+// emit hands the tracks finished so far to p and reuses their room.
+func (l *Linker) emit(p Pass) error {
+	if l.spill.err != nil {
+		return l.spill.err
+	}
+	done := l.Flush()
+	err := emitTracks(p, done)
+	l.done = done[:0]
+	return err
 }
 
 // emitTracks hands the finished points pts, grouped by track, to p one
@@ -486,4 +589,106 @@ func (s *FrameSpool) Close() error {
 	}
 	s.f = nil
 	return err
+}
+
+// Spilling of long tracks (LinkStream): a tracer that stays in view for
+// the whole recording (a sample at rest) keeps its track open, so the
+// older points of every track longer than spillAtPoints go to a file and
+// come back when the track finishes.
+const (
+	// spillAtPoints is the length at which a track's older points are
+	// spilled: 10 kB of points per tracer in view.
+	spillAtPoints = 128
+	// spillKeepPoints stay in memory: the last two, whose step
+	// Linker.steps reports (the prediction keeps its own ring).
+	spillKeepPoints = 2
+	// spillPointBytes is a spilled point's record: its frame (uint32) and
+	// seven float64 (TS, XPx, YPx, XUM, YUM, Brightness, SizePx).
+	spillPointBytes = 4 + 7*8
+)
+
+// piece is a run of a track's points in the spill file.
+type piece struct {
+	off int64
+	n   int
+}
+
+// spillFile holds the spilled points of one linking pass.
+type spillFile struct {
+	f    *os.File
+	name string // removed by close when it could not be unlinked at once
+	size int64
+	buf  []byte
+	err  error // the first error, reported by linkPass
+}
+
+// newSpillFile makes an empty spill file in os.TempDir, named and removed
+// as tracks.NewSpool's.
+func newSpillFile() (*spillFile, error) {
+	f, err := os.CreateTemp("", tracks.SpoolPrefix+"*")
+	if err != nil {
+		return nil, fmt.Errorf("link: making a spill file: %w", err)
+	}
+	s := &spillFile{f: f}
+	if err := os.Remove(f.Name()); err != nil {
+		s.name = f.Name()
+	}
+	return s, nil
+}
+
+// close removes the file.
+func (s *spillFile) close() {
+	s.f.Close()
+	if s.name != "" {
+		os.Remove(s.name)
+	}
+}
+
+// spillLong moves the older points of the active tracks longer than
+// spillAtPoints to the spill file.
+func (l *Linker) spillLong() {
+	s := l.spill
+	for _, t := range l.active {
+		n := len(t.pts) - spillKeepPoints
+		if len(t.pts) < spillAtPoints || s.err != nil {
+			continue
+		}
+		b := s.buf[:0]
+		for _, p := range t.pts[:n] {
+			b = binary.LittleEndian.AppendUint32(b, uint32(p.Frame))
+			for _, v := range [...]float64{p.TS, p.XPx, p.YPx, p.XUM, p.YUM, p.Brightness, p.SizePx} {
+				b = binary.LittleEndian.AppendUint64(b, math.Float64bits(v))
+			}
+		}
+		s.buf = b
+		if _, err := s.f.WriteAt(b, s.size); err != nil {
+			s.err = fmt.Errorf("link: writing the spill file: %w", err)
+			return
+		}
+		t.pieces = append(t.pieces, piece{s.size, n})
+		s.size += int64(len(b))
+		t.spilled += n
+		t.pts = t.pts[:copy(t.pts, t.pts[n:])]
+	}
+}
+
+// unspill puts the spilled points of t back in front of its own.
+func (l *Linker) unspill(t *track) {
+	s := l.spill
+	all := make([]tracks.Point, 0, t.size())
+	for _, pc := range t.pieces {
+		b := slices.Grow(s.buf[:0], pc.n*spillPointBytes)[:pc.n*spillPointBytes]
+		s.buf = b
+		if _, err := s.f.ReadAt(b, pc.off); err != nil && s.err == nil {
+			s.err = fmt.Errorf("link: reading the spill file: %w", err)
+		}
+		for i := range pc.n {
+			r := b[i*spillPointBytes:]
+			v := func(k int) float64 { return math.Float64frombits(binary.LittleEndian.Uint64(r[4+8*k:])) }
+			all = append(all, tracks.Point{Track: tracks.Unlinked, Frame: int(binary.LittleEndian.Uint32(r)), TS: v(0),
+				XPx: v(1), YPx: v(2), XUM: v(3), YUM: v(4), Brightness: v(5), SizePx: v(6)})
+		}
+	}
+	t.pts = append(all, t.pts...)
+	t.spilled, t.pieces = 0, nil
 }

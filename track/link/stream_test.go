@@ -7,6 +7,7 @@ import (
 	"slices"
 	"testing"
 
+	"gaptrace/track/flowprior"
 	"gaptrace/track/synth"
 	"gaptrace/track/tracks"
 )
@@ -96,3 +97,56 @@ func newSpoolPass(dir string) (*spoolPass, error) {
 func (p *spoolPass) Step(a, b *tracks.Point)        { p.steps++ }
 func (p *spoolPass) EndFrame(f int)                 { p.last = f }
 func (p *spoolPass) Track(pts []tracks.Point) error { return p.Add(pts) }
+
+// TestLinkStreamCommonModeChunks checks the common-mode motion that
+// LinkStream fits in chunks (commonChunkFrames) on a recording of 1 500
+// frames with the jitter of synth's "dark" scenario (0.3 px per axis and
+// frame) against the rendered jitter, as TestLinkCommonMode checks the
+// whole fit, and within the same bound.
+func TestLinkStreamCommonModeChunks(t *testing.T) {
+	s := shear(t, "dark", 0.5, commonChunkFrames+commonChunkFrames/2, 0.02, 401)
+	sm := detect(t, s, 41)
+	fs, err := NewFrameSpool(t.TempDir())
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer fs.Close()
+	for f, ds := range sm.frames {
+		if err := fs.Add(f, ds); err != nil {
+			t.Fatal(err)
+		}
+	}
+	opt := sm.options()
+	opt.MeasureCommonMode = true
+	p, st, err := LinkStream(context.Background(), fs, sm.cal, opt, func() (Pass, error) { return newSpoolPass(t.TempDir()) })
+	if err != nil {
+		t.Fatal(err)
+	}
+	p.Close()
+	n := len(st.CommonMode)
+	if n != len(sm.frames) {
+		t.Fatalf("common mode has %d frames, want %d", n, len(sm.frames))
+	}
+	truth := make([]flowprior.Shift, n)
+	for f := range truth {
+		truth[f].DXPx, truth[f].DYPx = sm.s.JitterAt(f)
+	}
+	truth = jitterOnly(truth, JitterWindowFrames)
+	ex, ey := make([]float64, n), make([]float64, n)
+	for f, sh := range st.CommonMode {
+		ex[f], ey[f] = sh.DXPx-truth[f].DXPx, sh.DYPx-truth[f].DYPx
+	}
+	var se float64
+	for _, e := range [][]float64{ex, ey} {
+		for _, r := range residualsOfLine(e) {
+			se += r * r
+		}
+	}
+	rms := math.Sqrt(se / float64(2*n))
+	// maxRMS: TestLinkCommonMode's bound for the whole fit.
+	const maxRMS = 0.04
+	t.Logf("chunked common mode: RMS error %.3f px per axis against jitter of %.2f px over %d frames", rms, sm.s.JitterPx, n)
+	if rms > maxRMS {
+		t.Errorf("chunked common mode RMS error %.3f px, more than %.2f px", rms, maxRMS)
+	}
+}
