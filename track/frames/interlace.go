@@ -40,8 +40,12 @@ const (
 	combMinGain = 0.1
 	// combEvery is the stride of the frames measured: the comb of an
 	// interlaced camera lasts as long as the motion, so one frame in
-	// eight finds it at an eighth of the cost.
-	combEvery = 8
+	// sixteen finds it at a sixteenth of the cost.
+	combEvery = 16
+	// combRowStride: every second even row is compared with its odd
+	// neighbours; a tracer image spans several rows, so the comb is seen
+	// as well at half the cost.
+	combRowStride = 2
 	// combMinFrames is how many measured frames must be combed for the
 	// warning: one could be a glitch of the decoder.
 	combMinFrames = 2
@@ -392,20 +396,25 @@ func combShiftPx(even, odd []float32, w, n int) float64 {
 	var ssd [lags]float64
 	best := 0.0
 	per := max(1, (n-1)/combBands)
+	mid := make([]float32, w)
 	for b0 := 1; b0 < n; b0 += per {
 		b1 := min(n, b0+per)
 		ssd = [lags]float64{}
-		for k := b0; k < b1; k++ {
+		for k := b0; k < b1; k += combRowStride {
 			e := even[k*w : (k+1)*w]
 			above, below := odd[(k-1)*w:k*w], odd[k*w:(k+1)*w]
+			for x := range mid {
+				mid[x] = (above[x] + below[x]) / 2
+			}
+			e = e[combMaxLagPx : w-combMaxLagPx]
 			for li := range lags {
-				lag := li - combMaxLagPx
-				s := 0.0
-				for x := combMaxLagPx; x < w-combMaxLagPx; x++ {
-					d := float64(e[x] - (above[x+lag]+below[x+lag])/2)
+				m := mid[li : li+len(e)]
+				var s float32
+				for x, v := range e {
+					d := v - m[x]
 					s += d * d
 				}
-				ssd[li] += s
+				ssd[li] += float64(s)
 			}
 		}
 		li := 0
