@@ -389,7 +389,7 @@ func (l *Linker) finish(t *track) {
 		l.stats.Unlinked += t.size()
 	}
 	if t.spilled > 0 {
-		l.unspill(t) // the points spilled come back first
+		l.unspill(t, id) // the points spilled come back first
 	}
 	for i := range t.pts {
 		t.pts[i].Track = id

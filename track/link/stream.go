@@ -319,8 +319,9 @@ func linkPass(ctx context.Context, frames Frames, cal *calib.Calibration, opt Op
 	if err == nil {
 		// As Close, one track at a time: the tracks still open at the end
 		// may be as long as the recording.
-		for _, t := range l.active {
+		for i, t := range l.active {
 			l.finish(t)
+			l.active[i] = nil // its points are emitted: free them now
 			if err = l.emit(p); err != nil {
 				break
 			}
@@ -672,10 +673,11 @@ func (l *Linker) spillLong() {
 	}
 }
 
-// unspill puts the spilled points of t back in front of its own.
-func (l *Linker) unspill(t *track) {
+// unspill appends the spilled points of t, as track id, to the
+// finished points.
+func (l *Linker) unspill(t *track, id int) {
 	s := l.spill
-	all := make([]tracks.Point, 0, t.size())
+	l.done = slices.Grow(l.done, t.size())
 	for _, pc := range t.pieces {
 		b := slices.Grow(s.buf[:0], pc.n*spillPointBytes)[:pc.n*spillPointBytes]
 		s.buf = b
@@ -685,10 +687,9 @@ func (l *Linker) unspill(t *track) {
 		for i := range pc.n {
 			r := b[i*spillPointBytes:]
 			v := func(k int) float64 { return math.Float64frombits(binary.LittleEndian.Uint64(r[4+8*k:])) }
-			all = append(all, tracks.Point{Track: tracks.Unlinked, Frame: int(binary.LittleEndian.Uint32(r)), TS: v(0),
+			l.done = append(l.done, tracks.Point{Track: id, Frame: int(binary.LittleEndian.Uint32(r)), TS: v(0),
 				XPx: v(1), YPx: v(2), XUM: v(3), YUM: v(4), Brightness: v(5), SizePx: v(6)})
 		}
 	}
-	t.pts = append(all, t.pts...)
 	t.spilled, t.pieces = 0, nil
 }
