@@ -1,6 +1,7 @@
 package profile
 
 import (
+	"context"
 	"fmt"
 	"math"
 	"slices"
@@ -98,20 +99,18 @@ func inTimeWindows(st experiment.Step, everyS float64, n int) []Window {
 	return ws
 }
 
-// timeResolved decomposes the windows of everyS through the shear step st
-// (phase n), from the tracks' own samples inside each window.
-func (r *Result) timeResolved(ts []velocity.Track, st experiment.Step, g geometry.Geometry, everyS float64, o Options, sigma float64, n int, shared rheometry.Shared) []InTime {
+// timeResolved decomposes the time-resolved windows ws of the shear step
+// st (phase n), each from its own samples.
+func (r *Result) timeResolved(ctx context.Context, ws []*windowAcc, st experiment.Step, g geometry.Geometry, o Options, n int, shared rheometry.Shared) ([]InTime, error) {
 	gap := g.Gap()
 	var out []InTime
-	var own []velocity.Sample
-	var obs []layers.Obs
-	for k, w := range inTimeWindows(st, everyS, n) {
-		own = velocity.Samples(ts, r.Lag, sigma, r.FrameIntervalS, w.T0S, w.T1S)
-		obs = obs[:0]
-		for _, s := range own {
-			obs = append(obs, layers.Obs{Group: s.Track, YUM: s.YUM, Value: s.VXUMPerS})
+	for k, a := range ws {
+		if err := ctx.Err(); err != nil {
+			return nil, err
 		}
-		bins, err := layers.Profile(obs, layers.Options{GapUM: gap, Bins: o.Bins, MinSamples: layers.DefaultMinSamples,
+		w := a.w
+		own := a.samples()
+		bins, err := layers.Profile(obsOf(own), layers.Options{GapUM: gap, Bins: o.Bins, MinSamples: layers.DefaultMinSamples,
 			MinGroups: layers.DefaultMinGroups, Replicates: inTimeReplicates, Seed: o.Seed + 3000 + uint64(100*n+k)})
 		if err != nil {
 			continue
@@ -133,7 +132,7 @@ func (r *Result) timeResolved(ts []velocity.Track, st experiment.Step, g geometr
 		it.Decomposition = d
 		out = append(out, it)
 	}
-	return out
+	return out, nil
 }
 
 // departs reports whether window it departs from the affine no-slip
@@ -216,32 +215,22 @@ func inTimeSummary(its []InTime) []summary.InTime {
 	return out
 }
 
-// samplesPerSecond returns, per layer of the profile p over a window of
-// durationS, the samples per second.
-func samplesPerSecond(p WindowProfile, durationS float64) []float64 {
-	out := make([]float64, len(p.Bins))
-	for i, b := range p.Bins {
-		out[i] = float64(b.N) / durationS
-	}
-	return out
-}
-
-// inTime runs the time-resolved windows of shear phase n (sh, sp), whose
-// whole-phase profile is whole, and fills in the onset; the windows go to
-// the profile table and the summary only when asked for (o.EveryS).
+// inTime runs the time-resolved windows ws, of everyS, of shear phase n
+// (sh, sp) and fills in the onset; the windows go to the profile table
+// and the summary only when asked for (o.EveryS).
 //
 // Each window's errors combine, like the steady window's, the statistical
 // scatter with the errors every track shares (shared: the calibration's;
 // the motion the tracks share is measured in each window).
-func (r *Result) inTime(sh *Shear, sp *summary.ShearPhase, ts []velocity.Track, whole WindowProfile, g geometry.Geometry, o Options, sigma float64, n int, shared rheometry.Shared) {
+func (r *Result) inTime(ctx context.Context, sh *Shear, sp *summary.ShearPhase, ws []*windowAcc, everyS float64, g geometry.Geometry, o Options, n int, shared rheometry.Shared) error {
 	st := sh.Step
-	sh.EveryS = o.EveryS
-	if !(sh.EveryS > 0) {
-		sh.EveryS = DefaultEveryS(samplesPerSecond(whole, st.DurationS()), r.FrameIntervalS, st.DurationS())
-	}
+	sh.EveryS = everyS
 	sp.InTimeWindowS = summary.Num(sh.EveryS)
 	shared.VelocityRel = o.VelocityRel
-	sh.InTime = r.timeResolved(ts, st, g, sh.EveryS, o, sigma, n, shared)
+	var err error
+	if sh.InTime, err = r.timeResolved(ctx, ws, st, g, o, n, shared); err != nil {
+		return err
+	}
 	if sh.Onset = onsetOf(sh.InTime, st, r.FrameIntervalS); sh.Onset != nil {
 		sp.InhomogeneityOnsetS, sp.InhomogeneityOnsetErrS = summary.Num(sh.Onset.AfterStartS), summary.Num(sh.Onset.ErrS)
 		sp.InhomogeneityOnsetStrain = summary.Num(sh.Onset.Strain)
@@ -254,4 +243,5 @@ func (r *Result) inTime(sh *Shear, sp *summary.ShearPhase, ts []velocity.Track, 
 			r.Profiles = append(r.Profiles, it.Profile)
 		}
 	}
+	return nil
 }

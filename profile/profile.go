@@ -11,7 +11,6 @@
 package profile
 
 import (
-	"cmp"
 	"context"
 	"errors"
 	"fmt"
@@ -192,15 +191,20 @@ func Analyze(ctx context.Context, src tracks.Source, e *experiment.Experiment, c
 	if err := ctx.Err(); err != nil {
 		return nil, err
 	}
-	pts, err := tracks.Collect(src)
-	if err != nil {
-		return nil, err
-	}
 	if o.Bins <= 0 {
 		o.Bins = layers.DefaultBins
 	}
 	if o.MapWindows <= 0 {
 		o.MapWindows = DefaultMapWindows
+	}
+	o.Windows = slices.Clone(o.Windows) // names are filled in below
+	for i, w := range o.Windows {
+		if !(w.T1S > w.T0S) {
+			return nil, fmt.Errorf("profile: window %q from %g s to %g s is empty", w.Name, w.T0S, w.T1S)
+		}
+		if w.Name == "" {
+			o.Windows[i].Name = fmt.Sprintf("user%d", i+1)
+		}
 	}
 	// The moving wall lies at y = the calibration's gap: between plates
 	// that is the gap used; a curved geometry keeps its own, with a warning
@@ -220,22 +224,20 @@ func Analyze(ctx context.Context, src tracks.Source, e *experiment.Experiment, c
 	if c != nil && c.WallSource == calib.WallsExperiment && c.StationaryWallErrPx == nil {
 		warn = append(warn, "the wall lines are given by hand without an uncertainty: the uncertainty budgets count them exact")
 	}
-	ts := velocity.Group(pts)
-	if len(ts) == 0 {
+
+	// First pass: the recording-wide statistics (stream.go).
+	rs, err := firstPass(ctx, src)
+	if err != nil {
+		return nil, err
+	}
+	if rs.tracks == 0 {
 		return nil, errors.New("profile: no tracks (every detection is unlinked)")
 	}
-	dt, err := velocity.FrameIntervalS(ts)
+	dt, sigma, err := rs.intervalAndNoise()
 	if err != nil {
 		return nil, err
 	}
-	sigma, err := velocity.NoiseUM(ts)
-	if err != nil {
-		return nil, err
-	}
-	t0, t1 := math.Inf(1), math.Inf(-1)
-	for _, p := range pts {
-		t0, t1 = math.Min(t0, p.TS), math.Max(t1, p.TS)
-	}
+	t0, t1 := rs.t0S, rs.t1S
 	r := &Result{cal: c, NoiseUM: sigma, FrameIntervalS: dt, Warnings: append([]string{}, warn...)}
 	prog := e.Program()
 	if o.Program != nil {
@@ -255,90 +257,210 @@ func Analyze(ctx context.Context, src tracks.Source, e *experiment.Experiment, c
 	// that starts or stops between two frames: the wall's travel in a
 	// frame, or the fastest tracer's typical step when the wall speed is
 	// unknown.
-	maxChange, lastStop := velocity.FastestStepUM(ts), math.Inf(-1)
+	maxChange, lastStop := rs.fastestStepUM, math.Inf(-1)
 	for _, st := range steps {
 		if v := math.Abs(st.WallSpeedUMPerS) * dt; v > maxChange {
 			maxChange = v
 		}
 		lastStop = st.EndS
 	}
-	ts = velocity.Split(ts, sigma, maxChange, lastStop+dt/2)
-	r.refineStops(ts, steps, dt, sigma)
-	layer := gap / float64(o.Bins)
-	r.Lag = velocity.LagRule{SNR: velocity.DefaultSNR, MaxLag: velocity.MaxLagInLayer(ts, sigma, layer, t0, t1)}
+	ids := pieceIDs{stride: rs.maxID + 1}
+	var cutter velocity.Cutter
+	var pieces []velocity.Track
+	// pass calls fn with every piece of every track, cut as Split cuts.
+	pass := func(fn func(velocity.Track)) error {
+		return each(ctx, src, func(t velocity.Track) error {
+			pieces = cutter.Cut(pieces[:0], t, sigma, maxChange, lastStop+dt/2, func(k int) int { return ids.of(t.ID, k) })
+			for _, p := range pieces {
+				fn(p)
+			}
+			return nil
+		}, nil)
+	}
 
-	// Samples per phase, so that no step straddles a change of motion.
-	var all []velocity.Sample
+	// Second pass: the points around the stops to be placed from the
+	// tracks, and the tracers' excursions across the gap for the lag.
+	var stopWins [][2]float64
 	for _, ph := range r.Phases {
-		all = append(all, velocity.Samples(ts, r.Lag, sigma, dt, ph.StartS, ph.EndS)...)
-	}
-	slices.SortFunc(all, func(a, b velocity.Sample) int { return cmp.Compare(a.TS, b.TS) })
-
-	// profOf is the profile of the samples of ss (sorted by time) whose
-	// midpoints lie in w; prof that of the phases' samples.
-	profOf := func(ss []velocity.Sample, w Window, reps int, seed uint64) (WindowProfile, error) {
-		lo, _ := slices.BinarySearchFunc(ss, w.T0S, func(s velocity.Sample, t float64) int { return cmp.Compare(s.TS, t) })
-		hi, _ := slices.BinarySearchFunc(ss, w.T1S, func(s velocity.Sample, t float64) int { return cmp.Compare(s.TS, t) })
-		obs := make([]layers.Obs, 0, hi-lo)
-		for _, s := range ss[lo:hi] {
-			obs = append(obs, layers.Obs{Group: s.Track, YUM: s.YUM, Value: s.VXUMPerS})
+		if ph.Kind == phases.Shear && ph.Source != phases.SourceExperiment && ph.Source != phases.SourceLog {
+			a, b := cessation.StopWindowS(ph.EndS, dt)
+			stopWins = append(stopWins, [2]float64{a, b})
 		}
-		b, err := layers.Profile(obs, layers.Options{GapUM: gap, Bins: o.Bins, MinSamples: layers.DefaultMinSamples,
-			MinGroups: layers.DefaultMinGroups, Replicates: reps, Seed: seed})
-		return WindowProfile{Window: w, Bins: b}, err
 	}
-	prof := func(w Window, reps int, seed uint64) (WindowProfile, error) { return profOf(all, w, reps, seed) }
-
-	// Space-time map over the whole recording. Each map window takes its
-	// samples from its own points (split at the phases' edges), never from
-	// the phases' samples: a slow or resting layer asks for a lag longer
-	// than a map window, and the phase's samples of such a layer would
-	// bunch at the middle of the phase, leaving the other windows empty.
-	mapW, mapT0, mapN := mapGrid(t0, t1, o, steps)
-	var mapProfiles []WindowProfile
-	var own []velocity.Sample
-	for k := range mapN {
-		w := Window{Name: fmt.Sprintf("map%02d", k+1), T0S: mapT0 + float64(k)*mapW, T1S: mapT0 + float64(k+1)*mapW}
-		own = own[:0]
-		for _, ph := range r.Phases {
-			a, b := math.Max(w.T0S, ph.StartS), math.Min(w.T1S, ph.EndS)
-			if b > a {
-				own = append(own, velocity.Samples(ts, r.Lag, sigma, dt, a, b)...)
+	var nearStops []velocity.Track
+	lagSums := reservoir[velocity.LagSums]{k: StatTracks}
+	err = pass(func(t velocity.Track) {
+		if lagSums.wants(t.ID) {
+			lagSums.offer(t.ID, velocity.LagSumsOf(t, t0, t1))
+		}
+		var near []tracks.Point
+		for _, q := range t.Points {
+			for _, w := range stopWins {
+				if q.TS >= w[0] && q.TS <= w[1] {
+					near = append(near, q)
+					break
+				}
 			}
 		}
-		slices.SortFunc(own, func(a, b velocity.Sample) int { return cmp.Compare(a.TS, b.TS) })
-		// Every midpoint lies inside w: strictly before its end, so profOf
-		// keeps them all.
-		p, err := profOf(own, w, mapReplicates, o.Seed+1000+uint64(k))
+		if len(near) > 0 {
+			nearStops = append(nearStops, velocity.Track{ID: t.ID, Points: near})
+		}
+	})
+	if err != nil {
+		return nil, err
+	}
+	slices.SortFunc(nearStops, func(a, b velocity.Track) int { return ids.order(a.ID, b.ID) })
+	r.refineStops(nearStops, steps, dt, sigma)
+	nearStops = nil
+	layer := gap / float64(o.Bins)
+	var per []velocity.LagSums
+	for _, e := range lagSums.byTrack(ids.order) {
+		per = append(per, e.v)
+	}
+	r.Lag = velocity.LagRule{SNR: velocity.DefaultSNR, MaxLag: velocity.MaxLagFrom(per, sigma, layer)}
+
+	// Third pass: the samples of every window. A profile window (a whole
+	// phase, its steady part, a user's) takes the samples of its phase,
+	// so that no step straddles a change of motion; each map window takes
+	// its samples from its own points (split at the phases' edges), never
+	// from the phases' samples: a slow or resting layer asks for a lag
+	// longer than a map window, and the phase's samples of such a layer
+	// would bunch at the middle of the phase, leaving the other windows
+	// empty.
+	var scratch [][]sample
+	userAcc := make([]*windowAcc, len(o.Windows))
+	userWins := make([]WindowProfile, len(o.Windows))
+	for i, w := range o.Windows {
+		userAcc[i], userWins[i] = newWindowAcc(w, gap, o.Bins, ProfileLayerSamples, &scratch), WindowProfile{Window: w}
+	}
+	byStep, err := assignWindows(userWins, steps)
+	if err != nil {
+		return nil, err
+	}
+	wholeAcc := make([]*windowAcc, len(steps))
+	steadyAcc := make([]*windowAcc, len(steps))
+	for k, st := range steps {
+		n := k + 1
+		wholeAcc[k] = newWindowAcc(Window{Name: fmt.Sprintf("whole%d", n), T0S: st.StartS, T1S: st.EndS}, gap, o.Bins, ProfileLayerSamples, &scratch)
+		if !slices.Contains(byStep.step, k) {
+			steadyAcc[k] = newWindowAcc(Window{Name: fmt.Sprintf("shear%d", n), T0S: st.EndS - SteadyFraction*st.DurationS(), T1S: st.EndS}, gap, o.Bins, ProfileLayerSamples, &scratch)
+		}
+	}
+	var phaseAcc []*windowAcc
+	for _, a := range slices.Concat(userAcc, wholeAcc, steadyAcc) {
+		if a != nil {
+			phaseAcc = append(phaseAcc, a)
+		}
+	}
+	mapW, mapT0, mapN := mapGrid(t0, t1, o, steps)
+	mapAcc := make([]*windowAcc, mapN)
+	for k := range mapN {
+		mapAcc[k] = newWindowAcc(Window{Name: fmt.Sprintf("map%02d", k+1), T0S: mapT0 + float64(k)*mapW, T1S: mapT0 + float64(k+1)*mapW}, gap, o.Bins, layerBudget(MapBudget, mapN, o.Bins), &scratch)
+	}
+	var after *afterKeep
+	if len(steps) > 0 && t1-steps[len(steps)-1].EndS >= minPhaseFrames*dt {
+		after = newAfterKeep(steps[len(steps)-1].EndS, t1, dt, restOf(r.Phases))
+	}
+	var ss, own []velocity.Sample
+	err = pass(func(t velocity.Track) {
+		one := []velocity.Track{t}
+		for _, ph := range r.Phases {
+			ss = velocity.Samples(one, r.Lag, sigma, dt, ph.StartS, ph.EndS)
+			if len(ss) == 0 {
+				continue
+			}
+			for _, a := range phaseAcc {
+				if a.w.T1S > ss[0].TS && a.w.T0S <= ss[len(ss)-1].TS {
+					a.add(t.ID, ss)
+				}
+			}
+		}
+		lo, hi := spanWindows(mapAcc, t.Points[0].TS, t.Points[len(t.Points)-1].TS)
+		for _, a := range mapAcc[lo:hi] {
+			own = own[:0]
+			for _, ph := range r.Phases {
+				if x, y := math.Max(a.w.T0S, ph.StartS), math.Min(a.w.T1S, ph.EndS); y > x {
+					own = append(own, velocity.Samples(one, r.Lag, sigma, dt, x, y)...)
+				}
+			}
+			a.add(t.ID, own)
+		}
+		if after != nil {
+			after.add(t)
+		}
+	})
+	if err != nil {
+		return nil, err
+	}
+
+	// profOf is the profile of the samples of a window.
+	profOf := func(a *windowAcc, reps int, seed uint64) (WindowProfile, error) {
+		if err := ctx.Err(); err != nil {
+			return WindowProfile{}, err
+		}
+		obs := obsOf(a.samples())
+		b, err := layers.Profile(obs, layers.Options{GapUM: gap, Bins: o.Bins, MinSamples: layers.DefaultMinSamples,
+			MinGroups: layers.DefaultMinGroups, Replicates: reps, Seed: seed})
+		return WindowProfile{Window: a.w, Bins: b}, err
+	}
+	var mapProfiles []WindowProfile
+	for k, a := range mapAcc {
+		p, err := profOf(a, mapReplicates, o.Seed+1000+uint64(k))
 		if err != nil {
 			return nil, err
 		}
 		mapProfiles = append(mapProfiles, p)
 	}
+	mapAcc = nil
 	r.Map = spaceTime(mapProfiles, gap, o.Bins)
-
-	o.Windows = slices.Clone(o.Windows) // names are filled in below
-	for i, w := range o.Windows {
-		if !(w.T1S > w.T0S) {
-			return nil, fmt.Errorf("profile: window %q from %g s to %g s is empty", w.Name, w.T0S, w.T1S)
-		}
-		if w.Name == "" {
-			o.Windows[i].Name = fmt.Sprintf("user%d", i+1)
-		}
-	}
 	var userProfiles []WindowProfile
-	for i, w := range o.Windows {
-		p, err := prof(w, o.Replicates, o.Seed+500+uint64(i))
+	for i, a := range userAcc {
+		p, err := profOf(a, o.Replicates, o.Seed+500+uint64(i))
 		if err != nil {
 			return nil, err
 		}
 		userProfiles = append(userProfiles, p)
 	}
 
-	byStep, err := assignWindows(userProfiles, steps)
-	if err != nil {
-		return nil, err
+	// Fourth pass: the time-resolved windows of every shear phase, whose
+	// default length follows from the samples of the whole phase.
+	wholes := make([]WindowProfile, len(steps))
+	everyS := make([]float64, len(steps))
+	var inAcc []*windowAcc
+	inFirst := make([]int, len(steps)+1)
+	for k, st := range steps {
+		if wholes[k], err = profOf(wholeAcc[k], o.Replicates, o.Seed+2000+uint64(k+1)); err != nil {
+			return nil, err
+		}
+		everyS[k] = o.EveryS
+		if !(everyS[k] > 0) {
+			everyS[k] = DefaultEveryS(wholeAcc[k].perSecond(), dt, st.DurationS())
+		}
+		// As many windows as MaxMapWindows at most, as the map.
+		everyS[k] = math.Max(everyS[k], st.DurationS()/MaxMapWindows)
 	}
+	var inWins []Window
+	for k, st := range steps {
+		inFirst[k] = len(inWins)
+		inWins = append(inWins, inTimeWindows(st, everyS[k], k+1)...)
+	}
+	inFirst[len(steps)] = len(inWins)
+	for _, w := range inWins {
+		inAcc = append(inAcc, newWindowAcc(w, gap, o.Bins, layerBudget(TimeBudget, len(inWins), o.Bins), &scratch))
+	}
+	if len(inAcc) > 0 {
+		err = pass(func(t velocity.Track) {
+			one := []velocity.Track{t}
+			lo, hi := spanWindows(inAcc, t.Points[0].TS, t.Points[len(t.Points)-1].TS)
+			for _, a := range inAcc[lo:hi] {
+				a.add(t.ID, velocity.Samples(one, r.Lag, sigma, dt, a.w.T0S, a.w.T1S))
+			}
+		})
+		if err != nil {
+			return nil, err
+		}
+	}
+
 	for i, u := range userProfiles {
 		if k := byStep.step[i]; byStep.straddles[i] {
 			r.Warnings = append(r.Warnings, fmt.Sprintf("window %q (%.4g-%.4g s) straddles more than one phase; it is analysed with shear phase %d (%.4g-%.4g s), which it overlaps most",
@@ -371,31 +493,31 @@ func Analyze(ctx context.Context, src tracks.Source, e *experiment.Experiment, c
 				SlipStationaryUMPerS: md.SlipStationaryUMPerS, SlipStationaryErrUMPerS: md.SlipStationaryErrUMPerS,
 				SlipMovingUMPerS: md.SlipMovingUMPerS, SlipMovingErrUMPerS: md.SlipMovingErrUMPerS})
 		}
-		whole, err := prof(Window{Name: fmt.Sprintf("whole%d", n), T0S: st.StartS, T1S: st.EndS}, o.Replicates, o.Seed+2000+uint64(n))
-		if err != nil {
+		base.LocalStrain = localStrain(wholes[k].Bins, geom, st.DurationS())
+		if err := r.inTime(ctx, &base, &bsp, inAcc[inFirst[k]:inFirst[k+1]], everyS[k], geom, o, n, sharedErrors(c, gap)); err != nil {
 			return nil, err
 		}
-		base.LocalStrain = localStrain(whole.Bins, geom, st.DurationS())
-		r.inTime(&base, &bsp, ts, whole, geom, o, sigma, n, sharedErrors(c, gap))
 
 		// The phase's windows: the user's that fall in it, each its own
 		// entry, else the default steady window.
 		var wins []*WindowProfile
+		var winSamples [][]velocity.Sample
 		for i := range userProfiles {
 			if byStep.step[i] == k {
 				wins = append(wins, &userProfiles[i])
+				winSamples = append(winSamples, userAcc[i].samples())
 			}
 		}
 		if len(wins) == 0 {
-			win := Window{Name: fmt.Sprintf("shear%d", n), T0S: st.EndS - SteadyFraction*st.DurationS(), T1S: st.EndS}
-			p, err := prof(win, o.Replicates, o.Seed+uint64(n))
+			p, err := profOf(steadyAcc[k], o.Replicates, o.Seed+uint64(n))
 			if err != nil {
 				return nil, err
 			}
 			r.Profiles = append(r.Profiles, p)
 			wins = append(wins, &p)
+			winSamples = append(winSamples, steadyAcc[k].samples())
 		}
-		for _, steady := range wins {
+		for wi, steady := range wins {
 			sh, sp := base, bsp
 			sp.Bands = []summary.Band{}
 			sh.Steady = *steady
@@ -411,7 +533,7 @@ func Analyze(ctx context.Context, src tracks.Source, e *experiment.Experiment, c
 				sh.Decomposition = d
 				shared := sharedErrors(c, gap)
 				shared.VelocityRel = o.VelocityRel
-				shared.CommonUMPerS = velocity.CommonOffsetErr(all, steady.T0S, steady.T1S, func(y float64) float64 { v, _ := d.FitAt(y); return v })
+				shared.CommonUMPerS = velocity.CommonOffsetErr(winSamples[wi], steady.T0S, steady.T1S, func(y float64) float64 { v, _ := d.FitAt(y); return v })
 				if math.IsNaN(shared.CommonUMPerS) {
 					shared.CommonUMPerS = 0
 					r.Warnings = append(r.Warnings, fmt.Sprintf("%s: too few tracers to measure the motion they share; the budget leaves it out", label))
@@ -442,7 +564,12 @@ func Analyze(ctx context.Context, src tracks.Source, e *experiment.Experiment, c
 	r.wallStress(o, geom)
 	r.plausibility(e, o)
 
-	if err := r.afterStop(ts, steps, o, gap, dt, sigma, t1); err != nil {
+	var afterTracks []velocity.Track
+	if after != nil {
+		afterTracks = after.kept
+		slices.SortFunc(afterTracks, func(a, b velocity.Track) int { return ids.order(a.ID, b.ID) })
+	}
+	if err := r.afterStop(afterTracks, steps, o, gap, dt, sigma, t1); err != nil {
 		return nil, err
 	}
 	if r.ShearPhases == nil {
@@ -713,6 +840,8 @@ func spaceTime(ps []WindowProfile, gap float64, bins int) SpaceTime {
 	return m
 }
 
+// afterStop analyses the time after the last shear phase from the tracks
+// ts, the points of the tracks that it reads (afterKeep).
 func (r *Result) afterStop(ts []velocity.Track, steps []experiment.Step, o Options, gap, dt, sigma, t1 float64) error {
 	if len(steps) == 0 || t1-steps[len(steps)-1].EndS < minPhaseFrames*dt {
 		return nil
@@ -724,9 +853,7 @@ func (r *Result) afterStop(ts []velocity.Track, steps []experiment.Step, o Optio
 	}
 	co := cessation.Options{StopS: st.EndS, ShearStartS: st.StartS, EndS: t1, ShearSense: sense,
 		GapUM: gap, DtS: dt, SigmaUM: sigma, Bins: o.Bins, Seed: o.Seed + 3000}
-	if len(r.Phases) > 0 && r.Phases[0].Kind == phases.Rest {
-		co.RestS = [2]float64{r.Phases[0].StartS, r.Phases[0].EndS}
-	}
+	co.RestS = restOf(r.Phases)
 	// The shared errors of the after-stop analysis: the stationary wall
 	// (heights are measured from it), the scale, the tracker's bias and
 	// the stop's time: to StopTimingFrames of a frame when the experiment
@@ -783,6 +910,24 @@ func (r *Result) afterStop(ts []velocity.Track, steps []experiment.Step, o Optio
 	}
 	r.AfterStop = a
 	return nil
+}
+
+// restOf returns the rest before the first phase, whose tracers give the
+// noise floor after the stop (none when the recording starts otherwise).
+func restOf(ph []phases.Phase) [2]float64 {
+	if len(ph) > 0 && ph[0].Kind == phases.Rest {
+		return [2]float64{ph[0].StartS, ph[0].EndS}
+	}
+	return [2]float64{}
+}
+
+// obsOf returns the samples ss as layer observations of velocity.
+func obsOf(ss []velocity.Sample) []layers.Obs {
+	obs := make([]layers.Obs, 0, len(ss))
+	for _, s := range ss {
+		obs = append(obs, layers.Obs{Group: s.Track, YUM: s.YUM, Value: s.VXUMPerS})
+	}
+	return obs
 }
 
 // windowSteps says which step each user window belongs to.

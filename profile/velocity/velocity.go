@@ -55,16 +55,30 @@ func Group(pts []tracks.Point) []Track {
 func FrameIntervalS(ts []Track) (float64, error) {
 	var d []float64
 	for _, t := range ts {
-		for i := 1; i < len(t.Points); i++ {
-			a, b := t.Points[i-1], t.Points[i]
-			if b.Frame-a.Frame == 1 {
-				d = append(d, b.TS-a.TS)
-			}
-		}
-		if len(d) > maxIntervalPairs {
+		d = FrameIntervals(d, t)
+		if len(d) > IntervalPairs {
 			break
 		}
 	}
+	return IntervalOf(d)
+}
+
+// FrameIntervals appends to dst the times, s, between the consecutive
+// frames of t.
+func FrameIntervals(dst []float64, t Track) []float64 {
+	for i := 1; i < len(t.Points); i++ {
+		a, b := t.Points[i-1], t.Points[i]
+		if b.Frame-a.Frame == 1 {
+			dst = append(dst, b.TS-a.TS)
+		}
+	}
+	return dst
+}
+
+// IntervalOf returns the frame interval, s, from the intervals d between
+// consecutive frames (FrameIntervals of tracks): their median. A caller
+// need pass no more than about IntervalPairs.
+func IntervalOf(d []float64) (float64, error) {
 	if len(d) == 0 {
 		return 0, errors.New("velocity: no track holds two consecutive frames, so the frame interval is unknown")
 	}
@@ -75,8 +89,8 @@ func FrameIntervalS(ts []Track) (float64, error) {
 	return dt, nil
 }
 
-// maxIntervalPairs is enough frame pairs for a median frame interval.
-const maxIntervalPairs = 10000
+// IntervalPairs frame pairs are enough for a median frame interval.
+const IntervalPairs = 10000
 
 // NoiseUM estimates the localization noise, the standard deviation of one
 // coordinate of one detection in um, from second differences of positions
@@ -88,14 +102,28 @@ const maxIntervalPairs = 10000
 func NoiseUM(ts []Track) (float64, error) {
 	var d2 []float64
 	for _, t := range ts {
-		p := t.Points
-		for i := 2; i < len(p); i++ {
-			if p[i].Frame-p[i-1].Frame != 1 || p[i-1].Frame-p[i-2].Frame != 1 {
-				continue
-			}
-			d2 = append(d2, p[i].XUM-2*p[i-1].XUM+p[i-2].XUM, p[i].YUM-2*p[i-1].YUM+p[i-2].YUM)
-		}
+		d2 = SecondDifferences(d2, t)
 	}
+	return NoiseOf(d2)
+}
+
+// SecondDifferences appends to dst the second differences, um, of t's
+// positions at three consecutive frames, x then y of each triple.
+func SecondDifferences(dst []float64, t Track) []float64 {
+	p := t.Points
+	for i := 2; i < len(p); i++ {
+		if p[i].Frame-p[i-1].Frame != 1 || p[i-1].Frame-p[i-2].Frame != 1 {
+			continue
+		}
+		dst = append(dst, p[i].XUM-2*p[i-1].XUM+p[i-2].XUM, p[i].YUM-2*p[i-1].YUM+p[i-2].YUM)
+	}
+	return dst
+}
+
+// NoiseOf returns the localization noise, um, from the second differences
+// d2 (SecondDifferences of the tracks in id order), as NoiseUM; it may
+// reorder d2.
+func NoiseOf(d2 []float64) (float64, error) {
 	if len(d2) == 0 {
 		return 0, errors.New("velocity: no track has three consecutive frames, so the localization noise is unknown")
 	}
@@ -172,30 +200,58 @@ func (r LagRule) Lag(vUMPerS, sigmaUM, dtS float64) int {
 // sqrt(<dy^2>(L) - 2 sigma^2), stays below LayerFraction * layerUM. Only
 // points with tS in [t0S, t1S] are used.
 func MaxLagInLayer(ts []Track, sigmaUM, layerUM, t0S, t1S float64) int {
+	per := make([]LagSums, 0, len(ts))
+	for _, t := range ts {
+		per = append(per, LagSumsOf(t, t0S, t1S))
+	}
+	return MaxLagFrom(per, sigmaUM, layerUM)
+}
+
+// LagSums holds one track's squared excursions across the gap at each lag
+// L (index L, up to CapFrames): their sum, um^2, and their number.
+type LagSums struct {
+	Sum [CapFrames + 1]float64
+	N   [CapFrames + 1]int
+}
+
+// LagSumsOf returns the excursions across the gap of the points of t with
+// tS in [t0S, t1S], at lags 2 to CapFrames.
+func LagSumsOf(t Track, t0S, t1S float64) LagSums {
+	var out LagSums
+	p := t.Points
+	for l := 2; l <= CapFrames; l++ {
+		j := 0
+		for i := range p {
+			if p[i].TS < t0S || p[i].TS > t1S {
+				continue
+			}
+			for j < len(p) && p[j].Frame < p[i].Frame+l {
+				j++
+			}
+			if j < len(p) && p[j].Frame == p[i].Frame+l && p[j].TS <= t1S {
+				dy := p[j].YUM - p[i].YUM
+				out.Sum[l] += dy * dy
+				out.N[l]++
+			}
+		}
+	}
+	return out
+}
+
+// MaxLagFrom returns MaxLagInLayer from the tracks' LagSums, in the
+// tracks' order: at each lag the first tracks up to maxLagPairs pairs.
+func MaxLagFrom(per []LagSums, sigmaUM, layerUM float64) int {
 	limit := LayerFraction * layerUM
 	best := 1
 	for l := 2; l <= CapFrames; l++ {
 		var s float64
 		n := 0
-		for _, t := range ts {
+		for i := range per {
 			if n >= maxLagPairs {
 				break
 			}
-			p := t.Points
-			j := 0
-			for i := range p {
-				if p[i].TS < t0S || p[i].TS > t1S {
-					continue
-				}
-				for j < len(p) && p[j].Frame < p[i].Frame+l {
-					j++
-				}
-				if j < len(p) && p[j].Frame == p[i].Frame+l && p[j].TS <= t1S {
-					dy := p[j].YUM - p[i].YUM
-					s += dy * dy
-					n++
-				}
-			}
+			s += per[i].Sum[l]
+			n += per[i].N[l]
 		}
 		if n < minPairs {
 			break
@@ -298,36 +354,47 @@ func Split(ts []Track, sigmaUM, maxChangeUM, untilS float64) []Track {
 		next = max(next, t.ID+1)
 	}
 	var out []Track
-	var sx, sy []float64
+	var c Cutter
 	for _, t := range ts {
-		p := t.Points
-		if len(p) < 3 {
-			out = append(out, t)
-			continue
-		}
-		sx, sy = sx[:0], sy[:0]
-		for i := 1; i < len(p); i++ {
-			df := float64(p[i].Frame - p[i-1].Frame)
-			sx = append(sx, (p[i].XUM-p[i-1].XUM)/df)
-			sy = append(sy, (p[i].YUM-p[i-1].YUM)/df)
-		}
-		mx, my := robust.Median(sx), robust.Median(sy)
-		lim := maxChangeUM + JumpSigmas*math.Sqrt2*sigmaUM
-		id, from := t.ID, 0
-		for i := 1; i < len(p); i++ {
-			if p[i].TS <= untilS && math.Hypot(sx[i-1]-mx, sy[i-1]-my) > lim {
-				if i-from > 1 {
-					out = append(out, Track{ID: id, Points: p[from:i]})
-				}
-				id, from = next, i
-				next++
-			}
-		}
-		if len(p)-from > 1 {
-			out = append(out, Track{ID: id, Points: p[from:]})
-		}
+		out = c.Cut(out, t, sigmaUM, maxChangeUM, untilS, func(int) int { next++; return next - 1 })
 	}
 	return out
+}
+
+// Cutter cuts one track at a time as Split does, reusing its buffers.
+type Cutter struct{ sx, sy []float64 }
+
+// Cut appends to dst the pieces of t that Split makes (the points are t's,
+// not copied); the piece after the k-th cut (k from 1) takes the id
+// idOf(k).
+func (c *Cutter) Cut(dst []Track, t Track, sigmaUM, maxChangeUM, untilS float64, idOf func(k int) int) []Track {
+	p := t.Points
+	if len(p) < 3 {
+		return append(dst, t)
+	}
+	c.sx, c.sy = c.sx[:0], c.sy[:0]
+	for i := 1; i < len(p); i++ {
+		df := float64(p[i].Frame - p[i-1].Frame)
+		c.sx = append(c.sx, (p[i].XUM-p[i-1].XUM)/df)
+		c.sy = append(c.sy, (p[i].YUM-p[i-1].YUM)/df)
+	}
+	sx, sy := c.sx, c.sy
+	mx, my := robust.Median(sx), robust.Median(sy)
+	lim := maxChangeUM + JumpSigmas*math.Sqrt2*sigmaUM
+	id, from, k := t.ID, 0, 0
+	for i := 1; i < len(p); i++ {
+		if p[i].TS <= untilS && math.Hypot(sx[i-1]-mx, sy[i-1]-my) > lim {
+			if i-from > 1 {
+				dst = append(dst, Track{ID: id, Points: p[from:i]})
+			}
+			k++
+			id, from = idOf(k), i
+		}
+	}
+	if len(p)-from > 1 {
+		dst = append(dst, Track{ID: id, Points: p[from:]})
+	}
+	return dst
 }
 
 // FastestStepUM returns the largest, over tracks of at least minStepPoints
