@@ -225,6 +225,10 @@ func Analyze(ctx context.Context, src tracks.Source, e *experiment.Experiment, c
 		warn = append(warn, "the wall lines are given by hand without an uncertainty: the uncertainty budgets count them exact")
 	}
 
+	src, err := groupSlice(src)
+	if err != nil {
+		return nil, err
+	}
 	// First pass: the recording-wide statistics (stream.go).
 	rs, err := firstPass(ctx, src)
 	if err != nil {
@@ -361,10 +365,17 @@ func Analyze(ctx context.Context, src tracks.Source, e *experiment.Experiment, c
 	if len(steps) > 0 && t1-steps[len(steps)-1].EndS >= minPhaseFrames*dt {
 		after = newAfterKeep(steps[len(steps)-1].EndS, t1, dt, restOf(r.Phases))
 	}
+	// Only the phases that a profile window overlaps need their samples.
+	var sampled []phases.Phase
+	for _, ph := range r.Phases {
+		if slices.ContainsFunc(phaseAcc, func(a *windowAcc) bool { return a.w.T0S < ph.EndS && a.w.T1S > ph.StartS }) {
+			sampled = append(sampled, ph)
+		}
+	}
 	var ss, own []velocity.Sample
 	err = pass(func(t velocity.Track) {
 		one := []velocity.Track{t}
-		for _, ph := range r.Phases {
+		for _, ph := range sampled {
 			ss = velocity.Samples(one, r.Lag, sigma, dt, ph.StartS, ph.EndS)
 			if len(ss) == 0 {
 				continue

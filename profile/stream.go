@@ -366,7 +366,11 @@ func (a *windowAcc) add(id int, ss []velocity.Sample) {
 
 // samples returns the kept samples, sorted by time and track.
 func (a *windowAcc) samples() []velocity.Sample {
-	var out []velocity.Sample
+	n := 0
+	for k := range a.layers {
+		n += a.layers[k].total
+	}
+	out := make([]velocity.Sample, 0, n)
 	for k := range a.layers {
 		for _, e := range a.layers[k].r.es {
 			for _, s := range e.v {
@@ -495,4 +499,39 @@ func (k *afterKeep) add(t velocity.Track) {
 		k.kept = append(k.kept, velocity.Track{ID: t.ID, Points: out})
 		k.pointsKept += len(out)
 	}
+}
+
+// grouped is a tracks.Slice grouped once into its tracks, in the Slice's
+// order, so that the passes over it do not sort it again each time.
+type grouped struct {
+	pts  []tracks.Point
+	ends []int // the end of each track in pts
+}
+
+// groupSlice returns src grouped once when it is a tracks.Slice, which is
+// in memory anyway, and src itself otherwise.
+func groupSlice(src tracks.Source) (tracks.Source, error) {
+	s, ok := src.(tracks.Slice)
+	if !ok {
+		return src, nil
+	}
+	g := &grouped{pts: make([]tracks.Point, 0, len(s))}
+	err := s.Each(func(t []tracks.Point) error {
+		g.pts = append(g.pts, t...)
+		g.ends = append(g.ends, len(g.pts))
+		return nil
+	})
+	return g, err
+}
+
+// Each implements tracks.Source.
+func (g *grouped) Each(fn func([]tracks.Point) error) error {
+	from := 0
+	for _, e := range g.ends {
+		if err := fn(g.pts[from:e:e]); err != nil {
+			return err
+		}
+		from = e
+	}
+	return nil
 }
