@@ -18,9 +18,16 @@ import (
 )
 
 // Point is one layer of the measured profile: height U (um), velocity V
-// (um/s) and its standard error Err (um/s, positive).
+// (um/s) and its standard error Err (um/s, positive). Width, when
+// positive, is the extent (um) of the heights the layer's value averages:
+// the value is then fitted as the model's mean over [U - Width/2, U +
+// Width/2], as a layer of tracers spread evenly around U measures it. A
+// layer across a band boundary otherwise carries the kink's curvature, up
+// to an eighth of the rate difference times its width, as a bias, and moves
+// the fitted boundary by a fraction of a layer.
 type Point struct {
 	U, V, Err float64
+	Width     float64
 }
 
 // Model is a continuous piecewise-linear profile on [0, H]:
@@ -78,15 +85,44 @@ func (m *Model) CovRate(u float64, k int) float64 {
 }
 
 func (m *Model) gradient(u float64) *mat.VecDense {
+	return m.gradientOver(u, 0)
+}
+
+// gradientOver is the gradient of the model's mean over [u - w/2, u + w/2]
+// with respect to (V0, rates, bounds).
+func (m *Model) gradientOver(u, w float64) *mat.VecDense {
 	k := len(m.Rates)
 	row := make([]float64, 2*k)
-	design(row[:k+1], u, m.Bounds)
+	design(row[:k+1], u, w, m.Bounds)
 	for j := range k - 1 {
-		if u > m.Bounds[j] {
-			row[1+k+j] = m.Rates[j] - m.Rates[j+1]
-		}
+		row[1+k+j] = (m.Rates[j] - m.Rates[j+1]) * fractionAbove(u, w, m.Bounds[j])
 	}
 	return mat.NewVecDense(2*k, row)
+}
+
+// hingeMean returns the mean of max(x - c, 0) over x in [u - w/2, u + w/2]
+// (its value at u when w is 0); 0 for c = +Inf.
+func hingeMean(u, w, c float64) float64 {
+	if math.IsInf(c, 1) {
+		return 0
+	}
+	if !(w > 0) {
+		return math.Max(u-c, 0)
+	}
+	lo, hi := math.Max(u-w/2-c, 0), math.Max(u+w/2-c, 0)
+	return (hi*hi - lo*lo) / (2 * w)
+}
+
+// fractionAbove returns the fraction of [u - w/2, u + w/2] above c (1 or
+// 0 for a point, w = 0).
+func fractionAbove(u, w, c float64) float64 {
+	if !(w > 0) {
+		if u > c {
+			return 1
+		}
+		return 0
+	}
+	return clamp((u+w/2-c)/w, 0, 1)
 }
 
 func valueAt(u, v0 float64, rates, bounds []float64) float64 {
@@ -131,6 +167,9 @@ func Fit(pts []Point, k int, h, minWidth float64) (*Model, error) {
 	for _, p := range pts {
 		if !(p.Err > 0) || math.IsInf(p.Err, 0) || math.IsNaN(p.V) || math.IsNaN(p.U) || math.IsInf(p.V, 0) || math.IsInf(p.U, 0) {
 			return nil, fmt.Errorf("bands: point at %g um has value %g and error %g; give only known layers with a positive error", p.U, p.V, p.Err)
+		}
+		if !(p.Width >= 0) || math.IsInf(p.Width, 0) {
+			return nil, fmt.Errorf("bands: point at %g um has width %g um; give a finite width, 0 or more", p.U, p.Width)
 		}
 	}
 	if len(pts) < 2*k+1 {
@@ -228,7 +267,7 @@ func linearFit(pts []Point, bounds []float64) (chi2, v0 float64, rates []float64
 	var atb [4]float64
 	var row [4]float64
 	for _, q := range pts {
-		design(row[:p], q.U, bounds)
+		design(row[:p], q.U, q.Width, bounds)
 		w := 1 / (q.Err * q.Err)
 		for i := range p {
 			atb[i] += w * row[i] * q.V
@@ -242,7 +281,7 @@ func linearFit(pts []Point, bounds []float64) (chi2, v0 float64, rates []float64
 		return math.Inf(1), 0, nil, false
 	}
 	for _, q := range pts {
-		design(row[:p], q.U, bounds)
+		design(row[:p], q.U, q.Width, bounds)
 		f := 0.0
 		for i := range p {
 			f += row[i] * x[i]
@@ -253,9 +292,14 @@ func linearFit(pts []Point, bounds []float64) (chi2, v0 float64, rates []float64
 	return chi2, x[0], x[1:], true
 }
 
-// design fills the row of the linear design matrix at u: 1, then each
-// band's length below u.
-func design(row []float64, u float64, bounds []float64) {
+// design fills the row of the linear design matrix for the mean over
+// [u - w/2, u + w/2] (the value at u when w is 0): 1, then each band's
+// length below the height, averaged. The first band's length is
+// min(x, b_1) = x - max(x - b_1, 0), extrapolated below 0 with its rate;
+// band j's is clamp(x - b_{j-1}, 0, b_j - b_{j-1}) = max(x - b_{j-1}, 0) -
+// max(x - b_j, 0); both are means of hinges, linear in the boundaries'
+// placement between layers and exact over a layer that straddles one.
+func design(row []float64, u, w float64, bounds []float64) {
 	row[0] = 1
 	lo := 0.0
 	for j := range len(row) - 1 {
@@ -264,9 +308,9 @@ func design(row []float64, u float64, bounds []float64) {
 			hi = bounds[j]
 		}
 		if j == 0 {
-			row[1] = math.Min(u, hi)
+			row[1] = u - hingeMean(u, w, hi)
 		} else {
-			row[1+j] = clamp(u-lo, 0, hi-lo)
+			row[1+j] = hingeMean(u, w, lo) - hingeMean(u, w, hi)
 		}
 		lo = hi
 	}
@@ -318,7 +362,7 @@ func (m *Model) covariance(pts []Point) error {
 	np := 2 * k
 	jtj := mat.NewSymDense(np, nil)
 	for _, q := range pts {
-		g := m.gradient(q.U)
+		g := m.gradientOver(q.U, q.Width)
 		w := 1 / (q.Err * q.Err)
 		for i := range np {
 			for j := i; j < np; j++ {
@@ -425,6 +469,18 @@ func (c Criteria) distinct(m *Model) string {
 	k := len(m.Rates)
 	for j := range k - 1 {
 		r1, r2 := m.Rates[j], m.Rates[j+1]
+		// In steady shear between two walls the shear stress is uniform
+		// across the gap (the momentum balance without inertia, dσ/dy =
+		// 0; Bird, Stewart & Lightfoot 2002, Transport Phenomena, 2nd
+		// ed., section 3.2, from memory), and a fluid's rate has its
+		// stress's sign (it dissipates): bands that both shear,
+		// distinctly from zero, in opposite senses are not bands but
+		// wrong layers (on the coverage sweep, static false detections
+		// next to a moving plate, H.264 at CRF 23, issue 12).
+		e1, e2 := m.RateErrs[j], m.RateErrs[j+1]
+		if r1*r2 < 0 && math.Abs(r1) > c.MinSigma*e1 && math.Abs(r2) > c.MinSigma*e2 {
+			return fmt.Sprintf("bands %d and %d shear in opposite senses (%.4g and %.4g 1/s), which a uniform shear stress across the gap rules out", j+1, j+2, r1, r2)
+		}
 		d := math.Abs(r2 - r1)
 		if d < c.MinContrast*math.Max(math.Abs(r1), math.Abs(r2)) {
 			return fmt.Sprintf("bands %d and %d have rates %.4g and %.4g 1/s, closer than %.0f%%", j+1, j+2, r1, r2, 100*c.MinContrast)

@@ -25,7 +25,7 @@ func TestDegenerateLayers(t *testing.T) {
 	}{
 		{"all at one height", same},
 		{"values overflowing", huge},
-		{"infinite value", []Point{{0, 1, 1}, {100, math.Inf(1), 1}, {200, 3, 1}, {300, 4, 1}}},
+		{"infinite value", []Point{{U: 0, V: 1, Err: 1}, {U: 100, V: math.Inf(1), Err: 1}, {U: 200, V: 3, Err: 1}, {U: 300, V: 4, Err: 1}}},
 		{"no layers", nil},
 	}
 	for _, c := range cases {

@@ -134,3 +134,57 @@ func TestStitchAtTheStop(t *testing.T) {
 		t.Fatalf("placed %d tracers; want the one, stitched across the stop at x = 1000 um", len(placed))
 	}
 }
+
+// TestOnsetFit fits the onset of amplitudes that rise from a baseline as
+// 1 - exp(-(t - t0)/tau) after t0, with noise, a baseline offset and a
+// settling transient after the stop (a codec's, as on the coverage
+// sweep's H.264 renders): the onset found lies within 4 of its standard
+// uncertainties (statistical and model) of t0, and within two frames.
+func TestOnsetFit(t *testing.T) {
+	const dt = 0.005
+	cases := []struct {
+		name             string
+		t0, tau          float64
+		noise, base      float64
+		settle           float64 // amplitude of a transient decaying over 5 frames after the stop
+		framesObservedAt int
+	}{
+		{"sharp rise at 0.1 s", 0.1, 0.2, 0.0005, 0, 0, 300},
+		{"offset baseline", 0.1, 0.2, 0.0007, 0.0015, 0, 300},
+		{"settling after the stop", 0.05, 0.15, 0.004, 0, -0.05, 300},
+		{"between frames", 0.0525, 0.15, 0.002, 0, 0, 300},
+		{"slow rise", 0.08, 1.0, 0.001, 0, 0, 300},
+		{"at once", 0, 0.2, 0.001, 0, 0, 300},
+	}
+	for _, c := range cases {
+		rng := rand.New(rand.NewPCG(7, uint64(len(c.name))))
+		var a []AmplitudePoint
+		fin := -math.Expm1(-(float64(c.framesObservedAt)*dt - c.t0) / c.tau)
+		i0 := -1
+		run := 0
+		for k := 1; k <= c.framesObservedAt; k++ {
+			ts := float64(k) * dt
+			v := c.base + c.settle*math.Exp(-ts/(5*dt)) + c.noise*rng.NormFloat64()
+			if ts > c.t0 {
+				v += -math.Expm1(-(ts-c.t0)/c.tau) / fin
+			}
+			a = append(a, AmplitudePoint{TAfterS: ts, A: v, AErr: c.noise})
+			// The sight of motion as amplitude marks it.
+			if i0 < 0 && v > MovingSigma*c.noise && v > onsetSeenFraction {
+				if run++; run == confirmFrames {
+					i0 = len(a) - confirmFrames
+				}
+			} else if i0 < 0 {
+				run = 0
+			}
+		}
+		got, stat, model := onsetFit(a, i0, dt)
+		u := math.Hypot(stat, model)
+		if !(math.Abs(got-c.t0) <= 4*u) || math.Abs(got-c.t0) > 2*dt {
+			t.Errorf("%s: onset %.5f ± %.5f s (statistical %.5f, model %.5f), truth %.5f", c.name, got, u, stat, model, c.t0)
+		}
+	}
+	if o, _, _ := onsetFit(nil, 0, dt); !math.IsNaN(o) {
+		t.Errorf("no amplitudes: onset %g, want NaN", o)
+	}
+}

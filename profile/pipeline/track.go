@@ -380,7 +380,7 @@ func (r *Recording) linkAll(ctx context.Context, t *Tracked, dets *link.FrameSpo
 	// which keeps only the fast part along the flow).
 	opt := link.Options{FPS: t.Info.FPS, MaxStepPx: link.MaxStepFor(v, t.Info.FPS, cal.UMPerPx),
 		GapFrames: link.DefaultGapFrames, MeasureCommonMode: !r.cfg.NoJitter, FrameTimesS: t.FrameTimesS,
-		FlowChangesS: flowChanges(prog)}
+		FlowChangesS: flowChanges(prog), ReferenceFrames: MedianFrames}
 	d := r.diameterPx()
 	newPass := func() (link.Pass, error) {
 		sp, err := tracks.NewSpool(r.cfg.TempDir)

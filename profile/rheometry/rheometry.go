@@ -134,7 +134,16 @@ func Decompose(bins []layers.Bin, g geometry.Geometry, wallSpeedUMPerS float64, 
 	var pts []bands.Point
 	for _, b := range bins {
 		if b.Known() && b.Err > 0 {
-			pts = append(pts, bands.Point{U: newtonianU(g, b.YUM), V: b.Value, Err: b.Err})
+			// The layer's value is the mean over its tracers, spread across
+			// its width around their mean height: the fit takes the model's
+			// mean over that width (bands.Point.Width), so that a layer
+			// across a band boundary does not move it.
+			w := b.ToUM - b.FromUM
+			p := bands.Point{U: newtonianU(g, b.YUM), V: b.Value, Err: b.Err}
+			if w > 0 {
+				p.Width = newtonianU(g, b.YUM+w/2) - newtonianU(g, b.YUM-w/2)
+			}
+			pts = append(pts, p)
 		}
 	}
 	c := bands.DefaultCriteria(h)

@@ -85,6 +85,15 @@ type Options struct {
 	// motion program or the rheometer log): the common-mode fit's pieces
 	// of track do not span them (flowprior.CommonModeFromTracksCut).
 	FlowChangesS []float64
+	// ReferenceFrames, when positive, refers the common mode measured
+	// (MeasureCommonMode) to the median shift of frames 0 to
+	// ReferenceFrames-1 instead of to frame 0: the frames whose median
+	// image the calibration found the wall lines on, whose edges lie where
+	// the camera was at the median of their shifts. Referred to frame 0,
+	// every corrected position carries frame 0's shake against the walls
+	// (on the coverage sweep's renders with 0.2 and 0.5 px of jitter, band
+	// boundaries 0.25 to 0.5 px off; issue 12).
+	ReferenceFrames int
 }
 
 // Tunings of the linker.

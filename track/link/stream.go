@@ -152,7 +152,7 @@ func LinkStream(ctx context.Context, frames Frames, cal *calib.Calibration, opt 
 						cm[f].DYPx += opt.CommonMode[f].DYPx
 					}
 				}
-				opt.CommonMode = cm
+				opt.CommonMode = referTo(cm, opt.ReferenceFrames)
 				same = false
 			}
 		}

@@ -6,6 +6,7 @@ import (
 	"sort"
 
 	"gaptrace/calib"
+	"gaptrace/calib/robust"
 	"gaptrace/track/flowprior"
 	"gaptrace/track/tracks"
 )
@@ -161,7 +162,7 @@ func LinkContext(ctx context.Context, frames [][]Detection, cal *calib.Calibrati
 						cm[f].DYPx += opt.CommonMode[f].DYPx
 					}
 				}
-				opt.CommonMode = cm
+				opt.CommonMode = referTo(cm, opt.ReferenceFrames)
 				same = false
 			}
 		}
@@ -305,6 +306,26 @@ func rmsShift(cm []flowprior.Shift) (xPx, yPx float64) {
 	}
 	n := float64(len(cm))
 	return math.Sqrt(xPx / n), math.Sqrt(yPx / n)
+}
+
+// referTo subtracts from every shift of cm the median shift of its frames
+// 0 to frames-1 (none when frames is not positive): the offsets then refer
+// to the camera's median place over those frames instead of frame 0's.
+func referTo(cm []flowprior.Shift, frames int) []flowprior.Shift {
+	n := min(frames, len(cm))
+	if n <= 0 {
+		return cm
+	}
+	dx, dy := make([]float64, n), make([]float64, n)
+	for f := range n {
+		dx[f], dy[f] = cm[f].DXPx, cm[f].DYPx
+	}
+	mx, my := robust.Median(dx), robust.Median(dy)
+	for f := range cm {
+		cm[f].DXPx -= mx
+		cm[f].DYPx -= my
+	}
+	return cm
 }
 
 // jitterOnly keeps the whole common-mode motion across the flow (image y,
