@@ -13,7 +13,14 @@
 //	precision   detections that lie on a true tracer (any SNR), over all
 //	rms         per-axis RMS error of in-focus tracers of SNR >= 10, px
 //	wallbias    mean shift towards the nearer wall of the wall layer's centres, px
-//	track/true  median track length over the median true passage, frames
+//	trk/true    median track length over the median true passage, frames
+//	pass        median, over the true passages of tracers of median peak SNR
+//	            >= 5, of the share of the passage in its longest track
+//
+// A passage is a tracer's stay in view: the renderer brings a tracer that
+// leaves the frame on one side back on the other under the same track
+// number, so a passage ends where a track number's position jumps by more
+// than half the frame's width or skips a frame.
 //
 // It is a measuring tool for issue 14 (the numbers of its report), not a
 // test: the acceptance tests render small videos in track/detect.
@@ -25,6 +32,7 @@ import (
 	"context"
 	"flag"
 	"fmt"
+	"maps"
 	"math"
 	"os"
 	"path/filepath"
@@ -72,7 +80,7 @@ func main() {
 		defer os.RemoveAll(d)
 		base = d
 	}
-	fmt.Printf("%-12s %7s %7s %7s %7s %7s %7s %7s %8s %7s %8s\n", "scenario", "recall", "wall", "edge", "oof", "crowd", "prec", "rms_px", "wbias_px", "dets", "trk/true")
+	fmt.Printf("%-12s %7s %7s %7s %7s %7s %7s %7s %8s %7s %8s %6s\n", "scenario", "recall", "wall", "edge", "oof", "crowd", "prec", "rms_px", "wbias_px", "dets", "trk/true", "pass")
 	for _, n := range names {
 		if err := score(filepath.Join(base, n), n, *seed, *nFrames); err != nil {
 			fail(fmt.Errorf("%s: %w", n, err))
@@ -137,10 +145,13 @@ func score(dir, name string, seed int64, nFrames int) error {
 	}
 	rows := s.TruthRows()
 	byFrame := map[int][]int{}
-	passage := map[int]int{}
 	for i, r := range rows {
 		byFrame[r.Point.Frame] = append(byFrame[r.Point.Frame], i)
-		passage[r.Point.Track]++
+	}
+	passOf, passage := passages(rows, float64(s.WidthPx))
+	matchedTrack := make([]int, len(rows)) // the track of each row's detection
+	for i := range matchedTrack {
+		matchedTrack[i] = tracks.Unlinked
 	}
 	dets := map[int][]int{}
 	trackLen := map[int]int{}
@@ -192,6 +203,9 @@ func score(dir, name string, seed int64, nFrames int) error {
 			}
 			match[p.t] = di[p.k]
 			used[p.k] = true
+		}
+		for t, j := range match {
+			matchedTrack[t] = points[j].Track
 		}
 		for k, u := range used {
 			prec.add(u)
@@ -294,12 +308,72 @@ func score(dir, name string, seed int64, nFrames int) error {
 	if nbias > 0 {
 		wb = bias / float64(nbias)
 	}
-	fmt.Printf("%-12s %7s %7s %7s %7s %7s %7s %7.3f %8.3f %7d %8.3f\n", name, all, wall, edge, oof, crowd, prec, rms, wb,
-		len(points), median(trackLen)/median(passage))
+	fmt.Printf("%-12s %7s %7s %7s %7s %7s %7s %7.3f %8.3f %7d %8.3f %6.3f\n", name, all, wall, edge, oof, crowd, prec, rms, wb,
+		len(points), median(trackLen)/median(passage), passShare(rows, passOf, matchedTrack))
 	if len(tr.Warnings) > 0 {
 		fmt.Printf("%-12s warnings: %s\n", "", strings.Join(tr.Warnings, "; "))
 	}
 	return nil
+}
+
+// passages numbers the true tracers' passages (see the package
+// documentation): passOf[i] is row i's, passage[k] the frames of passage k.
+func passages(rows []synth.TruthRow, widthPx float64) (passOf []int, passage map[int]int) {
+	byTrack := map[int][]int{}
+	for i, r := range rows {
+		byTrack[r.Point.Track] = append(byTrack[r.Point.Track], i)
+	}
+	passOf = make([]int, len(rows))
+	passage = map[int]int{}
+	k := -1
+	for _, id := range slices.Sorted(maps.Keys(byTrack)) {
+		ix := byTrack[id]
+		slices.SortFunc(ix, func(a, b int) int { return rows[a].Point.Frame - rows[b].Point.Frame })
+		for n, i := range ix {
+			if n == 0 || rows[i].Point.Frame != rows[ix[n-1]].Point.Frame+1 ||
+				math.Abs(rows[i].Point.XPx-rows[ix[n-1]].Point.XPx) > widthPx/2 {
+				k++
+			}
+			passOf[i] = k
+			passage[k]++
+		}
+	}
+	return passOf, passage
+}
+
+// passShare returns the median, over the passages whose rows have a
+// median peak SNR of minSNR or more, of the share of the passage's rows
+// whose detections are in its most frequent track.
+func passShare(rows []synth.TruthRow, passOf, matchedTrack []int) float64 {
+	snr := map[int][]float64{}
+	inTrack := map[int]map[int]int{}
+	for i, r := range rows {
+		k := passOf[i]
+		snr[k] = append(snr[k], r.PeakSNR)
+		if t := matchedTrack[i]; t != tracks.Unlinked {
+			if inTrack[k] == nil {
+				inTrack[k] = map[int]int{}
+			}
+			inTrack[k][t]++
+		}
+	}
+	var share []float64
+	for k, v := range snr {
+		slices.Sort(v)
+		if v[len(v)/2] < minSNR {
+			continue
+		}
+		best := 0
+		for _, n := range inTrack[k] {
+			best = max(best, n)
+		}
+		share = append(share, float64(best)/float64(len(v)))
+	}
+	if len(share) == 0 {
+		return math.NaN()
+	}
+	slices.Sort(share)
+	return share[len(share)/2]
 }
 
 func median(m map[int]int) float64 {
