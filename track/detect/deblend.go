@@ -78,7 +78,7 @@ func (d *Detector) refineAll(p *pixels, gain float64) {
 				}
 			}
 			c := &d.cands[i]
-			c.det, c.ok = d.refine(p, c.x, c.y, d.models)
+			c.det, c.shape, c.ok = d.refine(p, c.x, c.y, d.models)
 			if c.ok {
 				c.mx, c.my, c.ma = c.det.XPx, c.det.YPx, math.Max(0, c.det.SNR*tScale)
 			}

@@ -94,9 +94,12 @@ type Detector struct {
 	// decaySpot and decayMask are gauss1D's decay for the spot's and the
 	// centroid mask's variance.
 	decaySpot, decayMask float64
-	khalf                int // matched Gaussian kernel half-width, px
-	ksize                int // matched Gaussian kernel size, px
-	boxPx                int // box mean width without a background image, px
+	// flowRad is the flow's direction, the angle of the Mask's moving wall
+	// line from the image rows (0 without a Mask), rad.
+	flowRad float64
+	khalf   int // matched Gaussian kernel half-width, px
+	ksize   int // matched Gaussian kernel size, px
+	boxPx   int // box mean width without a background image, px
 	// gain1 and gainBox are the band-pass responses at the centre of a
 	// unit-amplitude spot, against a background image and against the box
 	// mean.
@@ -110,7 +113,14 @@ type Detector struct {
 	sm, lo, cand, cand2 gocv.Mat
 
 	samples []float32
-	excl    []bool
+	// ampW are the weights of the least-squares amplitude of a spot
+	// centred on a pixel, over the (2 wr + 1)^2 window, and ampWNorm their
+	// root sum of squares; amps the amplitudes at the empty positions of a
+	// frame (amplitudeNoise).
+	ampW     []float64
+	ampWNorm float64
+	amps     []float32
+	excl     []bool
 	// noiseAt holds, for the crude and the fine noise sampling of a frame
 	// size, the sample pixels inside the mask: the same in every frame.
 	noiseAt [2]noiseGrid
@@ -155,6 +165,7 @@ type candidate struct {
 	// and the amplitude of its template (see spotModel).
 	mx, my, ma float64
 	det        Detection // the refined spot, when ok
+	shape      shape     // its moments, when ok
 	ok         bool
 }
 
@@ -169,6 +180,9 @@ func NewDetector(opt Options) (*Detector, error) {
 	d.sigma = opt.DiameterPx / diameterSigmas
 	d.wr = int(math.Ceil(kernelSigmas * d.sigma))
 	d.decaySpot, d.decayMask = math.Exp(-1/spotVar(d.sigma)), math.Exp(-1/maskVar(d.sigma))
+	if m := opt.Mask; m != nil {
+		d.flowRad = math.Atan2(m.Moving[1][1]-m.Moving[0][1], m.Moving[1][0]-m.Moving[0][0])
+	}
 	d.khalf = int(math.Ceil(filterSigmas * d.sigma))
 	d.ksize = 2*d.khalf + 1
 	d.boxPx = 2*int(math.Round(boxDiameters*opt.DiameterPx/2)) + 1
@@ -183,6 +197,7 @@ func NewDetector(opt Options) (*Detector, error) {
 	d.gx, d.gy = make([]float64, m*m), make([]float64, m*m)
 	d.sgx, d.sgy = make([]float64, m*m), make([]float64, m*m)
 	d.gain1, d.gainBox = d.filterGain(false), d.filterGain(true)
+	d.ampW, d.ampWNorm = amplitudeWeights(d.wr, spotVar(d.sigma))
 	d.ring = make([]float64, 0, 8*(d.wr+windowSlack))
 	d.valid = make([]bool, R*R)
 	d.mdx, d.mdy = make([]float64, R), make([]float64, R)
@@ -377,6 +392,12 @@ func (d *Detector) Frame(img gocv.Mat, frame int, out []Detection) ([]Detection,
 	if n := d.noise(&px, true); n > 0 {
 		noise = n
 	}
+	// Noise the spots' amplitude sees beyond that of white noise of the
+	// same per-pixel sd (the blotches of hard compression) raises the
+	// noise the SNR is taken against.
+	if n := d.amplitudeNoise(&px) / (1 + ampNoiseSlack); n > noise {
+		noise = n
+	}
 	d.refineAll(&px, gain)
 	for i := range d.cands {
 		c := &d.cands[i]
@@ -386,21 +407,30 @@ func (d *Detector) Frame(img gocv.Mat, frame int, out []Detection) ([]Detection,
 		det := c.det
 		det.Frame = frame
 		det.SNR /= noise
-		if det.SNR < d.opt.MinSNR || det.SizePx > d.opt.MaxSizePx ||
-			(det.SNR >= shapeMinSNR && det.Eccentricity > d.opt.MaxEccentricity) {
-			continue
-		}
-		if d.opt.Mask != nil && !d.opt.Mask.Contains(det.XPx, det.YPx) {
-			continue
-		}
-		// A centre beyond the frame's outer side is the fit of a spot
-		// seen too little to place.
-		if det.XPx < -0.5 || det.XPx > float64(w)-0.5 || det.YPx < -0.5 || det.YPx > float64(h)-0.5 {
+		if !d.keep(det, c.shape, w, h) {
 			continue
 		}
 		out = append(out, det)
 	}
 	return out, nil
+}
+
+// keep reports whether a refined spot det (SNR divided by the noise) of
+// shape sh passes the SNR, size, shape and mask cuts in a w x h frame.
+func (d *Detector) keep(det Detection, sh shape, w, h int) bool {
+	if det.SNR < d.opt.MinSNR {
+		return false
+	}
+	if (det.SizePx > d.opt.MaxSizePx || (det.SNR >= shapeMinSNR && det.Eccentricity > d.opt.MaxEccentricity)) &&
+		!d.isStreak(sh) {
+		return false
+	}
+	if d.opt.Mask != nil && !d.opt.Mask.Contains(det.XPx, det.YPx) {
+		return false
+	}
+	// A centre beyond the frame's outer side is the fit of a spot seen
+	// too little to place.
+	return det.XPx >= -0.5 && det.XPx <= float64(w)-0.5 && det.YPx >= -0.5 && det.YPx <= float64(h)-0.5
 }
 
 // pixels reads the background-subtracted, polarity-signed residual of a
@@ -611,6 +641,96 @@ func (d *Detector) noise(p *pixels, excludeCandidates bool) float64 {
 		return robust.MADToSigma * mad / 2
 	}
 	return float64(robust.SelectKth(kept, len(kept)/2)) / clippedMAD / 2
+}
+
+// amplitudeWeights returns the weights w of the least-squares amplitude a =
+// sum w v of a template exp(-r^2/(2 v)) centred on the middle pixel of a
+// (2 wr + 1)^2 window, with a constant offset (the weights sum to zero),
+// and their root sum of squares: the amplitude's sd for white noise of
+// unit sd.
+func amplitudeWeights(wr int, v float64) ([]float64, float64) {
+	n := 2*wr + 1
+	g := make([]float64, n)
+	for i := range g {
+		u := float64(i - wr)
+		g[i] = math.Exp(-u * u / (2 * v))
+	}
+	var st, stt float64
+	for _, a := range g {
+		for _, b := range g {
+			st += a * b
+			stt += a * b * a * b
+		}
+	}
+	np := float64(n * n)
+	den := np*stt - st*st
+	w := make([]float64, n*n)
+	var ss float64
+	for j, b := range g {
+		for i, a := range g {
+			w[j*n+i] = (np*a*b - st) / den
+			ss += w[j*n+i] * w[j*n+i]
+		}
+	}
+	return w, math.Sqrt(ss)
+}
+
+const (
+	// ampNoiseSamples is about the number of empty positions at which
+	// amplitudeNoise measures the amplitude's scatter: the MAD of n values
+	// has a relative sd of about 1.36/sqrt(n), 4 % here.
+	ampNoiseSamples = 1024
+	// ampNoiseSlack is how far the amplitude's scatter, in per-pixel
+	// noise, may exceed the per-pixel noise before it raises it: three
+	// times the 4 % of its sampling, so that white noise leaves the
+	// SNR as it was.
+	ampNoiseSlack = 0.13
+)
+
+// amplitudeNoise returns the per-pixel noise that would give the
+// least-squares amplitude of a spot (amplitudeWeights) the scatter it has
+// at empty positions of the frame: about ampNoiseSamples positions of the
+// fine noise grid, away from every candidate (the exclusion of the last
+// noise call with excludeCandidates), as 1.4826 MADs over ampWNorm. For
+// white noise it is the per-pixel sd; noise correlated over a few pixels,
+// which the 2x2 sums of noise do not see, raises it. It returns 0 when too
+// few positions are free.
+func (d *Detector) amplitudeNoise(p *pixels) float64 {
+	g := &d.noiseAt[1]
+	wr := d.wr
+	n := 2*wr + 1
+	step := max(1, len(g.pixel)/ampNoiseSamples)
+	cut := p.bands != nil && slices.Contains(p.cutPlate, true)
+	d.amps = d.amps[:0]
+	for k := 0; k < len(g.pixel); k += step {
+		if d.excl[g.cell[k]] {
+			continue
+		}
+		i := int(g.pixel[k])
+		x, y := i%p.w, i/p.w
+		if x-wr < 0 || x+wr >= p.w || y-wr < 0 || y+wr >= p.h {
+			continue
+		}
+		wall := p.bands != nil && d.nearWall(x, y)
+		if wall && cut {
+			continue
+		}
+		win := d.win[:n*n]
+		p.window(win, x, y, wr, wall)
+		var a float64
+		for k, w := range d.ampW {
+			a += w * win[k]
+		}
+		d.amps = append(d.amps, float32(a))
+	}
+	if len(d.amps) < minNoiseSamples {
+		return 0
+	}
+	med := robust.SelectKth(d.amps, len(d.amps)/2)
+	for i, v := range d.amps {
+		d.amps[i] = abs32(v - med)
+	}
+	return robust.MADToSigma * float64(robust.SelectKth(d.amps, len(d.amps)/2)) / d.ampWNorm
 }
 
 // noiseGrid is the sampling pattern of noise for one frame size: the pixel
