@@ -13,8 +13,8 @@
 # (/usr/bin/time -v), the wall time, the time per frame, and both against
 # the shortest recording of the same size in the same run.
 #
-# Environment: BENCH_DIR (default /work/notes/bench if it exists, else a
-# temporary folder removed at the end), FRAMES (default "1500 6000 24000"),
+# Environment: BENCH_DIR (a folder kept between runs, so that the long
+# renders are made once; default a temporary folder removed at the end), FRAMES (default "1500 6000 24000"),
 # SIZES (default "vga mp"), STAGES (default "track run").
 set -euo pipefail
 cd "$(dirname "$0")/../.."
@@ -26,12 +26,8 @@ STAGES=${STAGES:-track run}
 
 keep=1
 if [ -z "${BENCH_DIR:-}" ]; then
-  if [ -d /work/notes/bench ]; then
-    BENCH_DIR=/work/notes/bench
-  else
-    BENCH_DIR=$(mktemp -d)
-    keep=0
-  fi
+  BENCH_DIR=$(mktemp -d)
+  keep=0
 fi
 out=$(mktemp -d)
 cleanup() {
