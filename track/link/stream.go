@@ -137,24 +137,9 @@ func LinkStream(ctx context.Context, frames Frames, cal *calib.Calibration, opt 
 			return nil, Stats{}, cmErr
 		}
 		if cm != nil {
-			full := cm
-			cm = jitterOnly(cm, JitterWindowFrames)
-			var ss float64
-			for f := range full {
-				d := full[f].DXPx - cm[f].DXPx
-				ss += d * d
-			}
-			slowDrift = math.Sqrt(ss / float64(len(full)))
-			if rx, ry := rmsShift(cm); math.Max(rx, ry) > JitterMinRMSPx {
-				for f := range cm {
-					if f < len(opt.CommonMode) {
-						cm[f].DXPx += opt.CommonMode[f].DXPx
-						cm[f].DYPx += opt.CommonMode[f].DYPx
-					}
-				}
-				opt.CommonMode = referTo(cm, opt.ReferenceFrames)
-				same = false
-			}
+			var changed bool
+			slowDrift, changed = addJitter(&opt, cm)
+			same = same && !changed
 		}
 		if same {
 			firstSt.CommonMode, firstSt.SlowDriftPx = opt.CommonMode, slowDrift
@@ -487,15 +472,11 @@ const maxFrameDetections = 10_000_000
 // NewFrameSpool makes an empty spool whose file lives in dir (os.TempDir
 // when dir is ""), named and removed as tracks.NewSpool's.
 func NewFrameSpool(dir string) (*FrameSpool, error) {
-	f, err := os.CreateTemp(dir, tracks.SpoolPrefix+"*")
+	f, name, err := tracks.TempFile(dir)
 	if err != nil {
 		return nil, fmt.Errorf("link: making a detection spool: %w", err)
 	}
-	s := &FrameSpool{f: f, w: bufio.NewWriterSize(f, frameSpoolBuffer)}
-	if err := os.Remove(f.Name()); err != nil {
-		s.name = f.Name()
-	}
-	return s, nil
+	return &FrameSpool{f: f, name: name, w: bufio.NewWriterSize(f, frameSpoolBuffer)}, nil
 }
 
 // Add appends frame's detections; frames come in increasing order, and
@@ -603,9 +584,8 @@ const (
 	// spillKeepPoints stay in memory: the last two, whose step
 	// Linker.steps reports (the prediction keeps its own ring).
 	spillKeepPoints = 2
-	// spillPointBytes is a spilled point's record: its frame (uint32) and
-	// seven float64 (TS, XPx, YPx, XUM, YUM, Brightness, SizePx).
-	spillPointBytes = 4 + 7*8
+	// spillPointBytes is a spilled point's record (tracks.AppendRecord).
+	spillPointBytes = tracks.RecordBytes
 )
 
 // piece is a run of a track's points in the spill file.
@@ -626,15 +606,11 @@ type spillFile struct {
 // newSpillFile makes an empty spill file in os.TempDir, named and removed
 // as tracks.NewSpool's.
 func newSpillFile() (*spillFile, error) {
-	f, err := os.CreateTemp("", tracks.SpoolPrefix+"*")
+	f, name, err := tracks.TempFile("")
 	if err != nil {
 		return nil, fmt.Errorf("link: making a spill file: %w", err)
 	}
-	s := &spillFile{f: f}
-	if err := os.Remove(f.Name()); err != nil {
-		s.name = f.Name()
-	}
-	return s, nil
+	return &spillFile{f: f, name: name}, nil
 }
 
 // close removes the file.
@@ -656,10 +632,7 @@ func (l *Linker) spillLong() {
 		}
 		b := s.buf[:0]
 		for _, p := range t.pts[:n] {
-			b = binary.LittleEndian.AppendUint32(b, uint32(p.Frame))
-			for _, v := range [...]float64{p.TS, p.XPx, p.YPx, p.XUM, p.YUM, p.Brightness, p.SizePx} {
-				b = binary.LittleEndian.AppendUint64(b, math.Float64bits(v))
-			}
+			b = tracks.AppendRecord(b, p)
 		}
 		s.buf = b
 		if _, err := s.f.WriteAt(b, s.size); err != nil {
@@ -685,10 +658,7 @@ func (l *Linker) unspill(t *track, id int) {
 			s.err = fmt.Errorf("link: reading the spill file: %w", err)
 		}
 		for i := range pc.n {
-			r := b[i*spillPointBytes:]
-			v := func(k int) float64 { return math.Float64frombits(binary.LittleEndian.Uint64(r[4+8*k:])) }
-			l.done = append(l.done, tracks.Point{Track: id, Frame: int(binary.LittleEndian.Uint32(r)), TS: v(0),
-				XPx: v(1), YPx: v(2), XUM: v(3), YUM: v(4), Brightness: v(5), SizePx: v(6)})
+			l.done = append(l.done, tracks.DecodeRecord(b[i*spillPointBytes:], id))
 		}
 	}
 	t.spilled, t.pieces = 0, nil

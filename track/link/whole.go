@@ -146,25 +146,9 @@ func LinkContext(ctx context.Context, frames [][]Detection, cal *calib.Calibrati
 			return nil, Stats{}, cmErr
 		}
 		if cm != nil {
-			full := cm
-			cm = jitterOnly(cm, JitterWindowFrames)
-			// What jitterOnly leaves in along the flow: the slow part.
-			var ss float64
-			for f := range full {
-				d := full[f].DXPx - cm[f].DXPx
-				ss += d * d
-			}
-			slowDrift = math.Sqrt(ss / float64(len(full)))
-			if rx, ry := rmsShift(cm); math.Max(rx, ry) > JitterMinRMSPx {
-				for f := range cm {
-					if f < len(opt.CommonMode) {
-						cm[f].DXPx += opt.CommonMode[f].DXPx
-						cm[f].DYPx += opt.CommonMode[f].DYPx
-					}
-				}
-				opt.CommonMode = referTo(cm, opt.ReferenceFrames)
-				same = false
-			}
+			var changed bool
+			slowDrift, changed = addJitter(&opt, cm)
+			same = same && !changed
 		}
 		if same {
 			firstSt.CommonMode, firstSt.SlowDriftPx = opt.CommonMode, slowDrift
@@ -282,6 +266,31 @@ const QuickJitterFraction = 0.5
 // estimate against the flow prior stays below QuickJitterFraction of it.
 // Only tracks whose positions carry no correction (no opt.CommonMode) and a
 // known prior qualify.
+// addJitter adds the camera's jitter in the measured common-mode shifts cm
+// to opt.CommonMode, referred to opt.ReferenceFrames, when its rms exceeds
+// JitterMinRMSPx, and reports whether it did. slowDriftPx is the rms of
+// what jitterOnly leaves in along the flow: the slow part.
+func addJitter(opt *Options, cm []flowprior.Shift) (slowDriftPx float64, changed bool) {
+	jit := jitterOnly(cm, JitterWindowFrames)
+	var ss float64
+	for f := range cm {
+		d := cm[f].DXPx - jit[f].DXPx
+		ss += d * d
+	}
+	slowDriftPx = math.Sqrt(ss / float64(len(cm)))
+	if rx, ry := rmsShift(jit); math.Max(rx, ry) <= JitterMinRMSPx {
+		return slowDriftPx, false
+	}
+	for f := range jit {
+		if f < len(opt.CommonMode) {
+			jit[f].DXPx += opt.CommonMode[f].DXPx
+			jit[f].DYPx += opt.CommonMode[f].DYPx
+		}
+	}
+	opt.CommonMode = referTo(jit, opt.ReferenceFrames)
+	return slowDriftPx, true
+}
+
 func steadyCamera(first []tracks.Point, opt Options, frames int) bool {
 	if opt.Prior == nil || len(opt.CommonMode) > 0 {
 		return false

@@ -7,7 +7,6 @@ import (
 	"errors"
 	"fmt"
 	"io"
-	"math"
 	"os"
 	"slices"
 	"sync"
@@ -24,12 +23,11 @@ const SpoolPrefix = "gaptrace-spool-"
 const spoolBuffer = 1 << 16
 
 // Layout of a spool record: a group header of the number of points and
-// the track id (two uint32), then per point its frame (uint32), seven
-// float64 (TS, XPx, YPx, XUM, YUM, Brightness, SizePx) and a NearWall
-// byte, little-endian.
+// the track id (two uint32, little-endian), then each point's record
+// (AppendRecord).
 const (
 	groupHeaderBytes = 8
-	pointBytes       = 4 + 7*8 + 1
+	pointBytes       = RecordBytes
 )
 
 // maxGroupPoints bounds a group read back: a track longer than ten
@@ -58,17 +56,11 @@ type Spool struct {
 // NewSpool makes an empty spool whose file lives in dir (os.TempDir when
 // dir is "").
 func NewSpool(dir string) (*Spool, error) {
-	f, err := os.CreateTemp(dir, SpoolPrefix+"*")
+	f, name, err := TempFile(dir)
 	if err != nil {
 		return nil, fmt.Errorf("tracks: making a spool file: %w", err)
 	}
-	s := &Spool{f: f, w: bufio.NewWriterSize(f, spoolBuffer)}
-	// Unlinked at once where the system keeps an open file readable
-	// without a name: nothing is left for an interrupted run to clean.
-	if err := os.Remove(f.Name()); err != nil {
-		s.name = f.Name()
-	}
-	return s, nil
+	return &Spool{f: f, name: name, w: bufio.NewWriterSize(f, spoolBuffer)}, nil
 }
 
 // Add appends one group: the points of one track in frame order, or a
@@ -112,15 +104,7 @@ func (s *Spool) put(g []Point) error {
 	b = binary.LittleEndian.AppendUint32(b, uint32(len(g)))
 	b = binary.LittleEndian.AppendUint32(b, uint32(int32(g[0].Track)))
 	for _, p := range g {
-		b = binary.LittleEndian.AppendUint32(b, uint32(p.Frame))
-		for _, v := range [...]float64{p.TS, p.XPx, p.YPx, p.XUM, p.YUM, p.Brightness, p.SizePx} {
-			b = binary.LittleEndian.AppendUint64(b, math.Float64bits(v))
-		}
-		if p.NearWall {
-			b = append(b, 1)
-		} else {
-			b = append(b, 0)
-		}
+		b = AppendRecord(b, p)
 	}
 	s.enc = b
 	n, err := s.w.Write(b)
@@ -181,10 +165,7 @@ func (s *Spool) Each(fn func(track []Point) error) error {
 		}
 		pts = slices.Grow(pts[:0], int(n))[:n]
 		for i := range pts {
-			b := rec[i*pointBytes:]
-			f := func(k int) float64 { return math.Float64frombits(binary.LittleEndian.Uint64(b[4+8*k:])) }
-			pts[i] = Point{Track: id, Frame: int(binary.LittleEndian.Uint32(b)), TS: f(0), XPx: f(1), YPx: f(2),
-				XUM: f(3), YUM: f(4), Brightness: f(5), SizePx: f(6), NearWall: b[pointBytes-1] == 1}
+			pts[i] = DecodeRecord(rec[i*pointBytes:], id)
 			if s.negateX {
 				pts[i].XUM = -pts[i].XUM
 			}
@@ -244,15 +225,7 @@ func (s *Spool) GobEncode() ([]byte, error) {
 
 // gobPoint encodes one point as its group record does, with its track.
 func gobPoint(p Point) ([]byte, error) {
-	b := binary.LittleEndian.AppendUint32(nil, uint32(int32(p.Track)))
-	b = binary.LittleEndian.AppendUint32(b, uint32(p.Frame))
-	for _, v := range [...]float64{p.TS, p.XPx, p.YPx, p.XUM, p.YUM, p.Brightness, p.SizePx} {
-		b = binary.LittleEndian.AppendUint64(b, math.Float64bits(v))
-	}
-	if p.NearWall {
-		return append(b, 1), nil
-	}
-	return append(b, 0), nil
+	return AppendRecord(binary.LittleEndian.AppendUint32(nil, uint32(int32(p.Track))), p), nil
 }
 
 // GobDecode reads what GobEncode wrote into a new spool file.
@@ -276,10 +249,7 @@ func (s *Spool) GobDecode(data []byte) error {
 		}
 		g = g[:0]
 		for range n {
-			b := data[:rec]
-			f := func(k int) float64 { return math.Float64frombits(binary.LittleEndian.Uint64(b[8+8*k:])) }
-			g = append(g, Point{Track: int(int32(binary.LittleEndian.Uint32(b))), Frame: int(binary.LittleEndian.Uint32(b[4:])),
-				TS: f(0), XPx: f(1), YPx: f(2), XUM: f(3), YUM: f(4), Brightness: f(5), SizePx: f(6), NearWall: b[rec-1] == 1})
+			g = append(g, DecodeRecord(data[4:rec], int(int32(binary.LittleEndian.Uint32(data)))))
 			data = data[rec:]
 		}
 		if err := ns.Add(g); err != nil {
