@@ -563,12 +563,7 @@ func (s *FrameSpool) Close() error {
 	if s.f == nil {
 		return nil
 	}
-	err := s.f.Close()
-	if s.name != "" {
-		if rerr := os.Remove(s.name); err == nil {
-			err = rerr
-		}
-	}
+	err := tracks.CloseTemp(s.f, s.name)
 	s.f = nil
 	return err
 }
@@ -615,10 +610,7 @@ func newSpillFile() (*spillFile, error) {
 
 // close removes the file.
 func (s *spillFile) close() {
-	s.f.Close()
-	if s.name != "" {
-		os.Remove(s.name)
-	}
+	tracks.CloseTemp(s.f, s.name)
 }
 
 // spillLong moves the older points of the active tracks longer than

@@ -46,3 +46,15 @@ func TempFile(dir string) (f *os.File, name string, err error) {
 	}
 	return f, "", nil
 }
+
+// CloseTemp closes f, a file of TempFile, and removes it when name (as
+// TempFile returned it) says it is still there.
+func CloseTemp(f *os.File, name string) error {
+	err := f.Close()
+	if name != "" {
+		if rerr := os.Remove(name); err == nil {
+			err = rerr
+		}
+	}
+	return err
+}

@@ -182,12 +182,7 @@ func (s *Spool) Close() error {
 	if s.f == nil {
 		return nil
 	}
-	err := s.f.Close()
-	if s.name != "" {
-		if rerr := os.Remove(s.name); err == nil {
-			err = rerr
-		}
-	}
+	err := CloseTemp(s.f, s.name)
 	s.f = nil
 	return err
 }
