@@ -49,6 +49,11 @@ const (
 	sigmaTolPx      = 2e-3 // Brent's method finds each width to this, px
 	sigmaFloorPx    = 0.1  // narrower than this a wall profile is not resolved
 	minRefineFrac   = 0.5  // at least this fraction of the strips must fit the model
+	// A round of the fit that moves a wall by recentrePx or more (most of
+	// the search's reach, searchHalfPx) found it at the search's bound,
+	// and another round starts from there, up to recentreRounds in all.
+	recentrePx     = 2
+	recentreRounds = 3
 	// A reflection is on the wall when the model with it leaves at most
 	// lineGain of the step-only residual, its height is at least
 	// lineMinFrac of the step's, and the step alone misses the profile by
@@ -313,22 +318,39 @@ func refineWalls(r *Result, profs []stripProfile, opt Options) error {
 	// A pixel's box, widened by the wall's drift across a strip (the two
 	// boxes' convolution replaced by one box of the same variance).
 	box := func(w *Wall) float64 { return math.Hypot(1, w.Slope*float64(opt.StripPx)) }
-	// The two walls' models are chosen independently, on both cores.
-	var mt, mb *wallModel
-	var wg sync.WaitGroup
-	wg.Go(func() { mb = chooseModel(&r.Bottom, profs, box(&r.Bottom)) })
-	mt = chooseModel(&r.Top, profs, box(&r.Top))
-	wg.Wait()
-	if mt.line && mb.line {
-		shareWidths(&r.Top, &r.Bottom, mt, mb, profs)
-	}
-	for _, wl := range []struct {
-		name string
-		w    *Wall
-		m    *wallModel
-	}{{"top", &r.Top, mt}, {"bottom", &r.Bottom, mb}} {
-		if err := placeWall(wl.w, wl.m, profs, opt); err != nil {
-			return fmt.Errorf("walls: %s wall: %w", wl.name, err)
+	// The coarse line can lie on another edge than the wall's step: with
+	// tracers at rest packed against a wall, the median image's edge of
+	// that layer, a few px into the gap, where the search of one round
+	// (searchHalfPx) cannot reach the wall. Then the round's positions end
+	// at the search's bound and the model is chosen again about them.
+	for round := 0; ; round++ {
+		before := [2]Line{r.Top.Line, r.Bottom.Line}
+		// The two walls' models are chosen independently, on both cores.
+		var mt, mb *wallModel
+		var wg sync.WaitGroup
+		wg.Go(func() { mb = chooseModel(&r.Bottom, profs, box(&r.Bottom)) })
+		mt = chooseModel(&r.Top, profs, box(&r.Top))
+		wg.Wait()
+		if mt.line && mb.line {
+			shareWidths(&r.Top, &r.Bottom, mt, mb, profs)
+		}
+		for _, wl := range []struct {
+			name string
+			w    *Wall
+			m    *wallModel
+		}{{"top", &r.Top, mt}, {"bottom", &r.Bottom, mb}} {
+			if err := placeWall(wl.w, wl.m, profs, opt); err != nil {
+				return fmt.Errorf("walls: %s wall: %w", wl.name, err)
+			}
+		}
+		moved := 0.0
+		for k, l := range [2]Line{r.Top.Line, r.Bottom.Line} {
+			for _, x := range []float64{0, float64(r.WidthPx - 1)} {
+				moved = math.Max(moved, math.Abs(l.YAt(x)-before[k].YAt(x)))
+			}
+		}
+		if moved < recentrePx || round+1 >= recentreRounds {
+			break
 		}
 	}
 	if r.Top.YAt(float64(r.WidthPx-1)/2) > r.Bottom.YAt(float64(r.WidthPx-1)/2) {

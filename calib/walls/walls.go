@@ -346,15 +346,11 @@ func edgeCandidates(pix []float32, w, h, stripPx int, minContrast float64) ([]ca
 		y, c, g float64
 	}
 	var peaks []peak
+	var rf rowFit
 	for s := 0; s < nStrip; s++ {
 		x0 := off + s*stripPx
 		for y := 0; y < h; y++ {
-			row := pix[y*w+x0 : y*w+x0+stripPx]
-			var sum float64
-			for _, v := range row {
-				sum += float64(v)
-			}
-			prof[y] = sum / float64(stripPx)
+			prof[y] = rf.rowLevel(pix[y*w+x0 : y*w+x0+stripPx])
 		}
 		profs[s] = stripProfile{xPx: float64(x0) + float64(stripPx-1)/2, v: append([]float64(nil), prof...)}
 		convolve(sm, prof, kern)
