@@ -164,9 +164,12 @@ func score(dir, name string, seed int64, nFrames int) error {
 	cal := s.Calibration() // the true walls
 	var all, wall, edge, oof, crowd, prec frac
 	var wallBins [20]frac
-	var falseAt [12]int   // false detections by px from the nearer wall, from -1
-	var falseEdge [10]int // by px from the nearer side edge
-	var falseNear [20]int // by px from the nearest tracer, +10 when it is out of focus
+	var nnWall, nnIn [12]frac // recall by px to the nearest tracer, wall layer and beyond it
+	var snrWall [8]frac       // wall-layer recall by peak SNR/5
+	var fine [8]frac          // isolated recall by eighth of a px from the wall, first px
+	var falseAt [12]int       // false detections by px from the nearer wall, from -1
+	var falseEdge [10]int     // by px from the nearer side edge
+	var falseNear [20]int     // by px from the nearest tracer, +10 when it is out of focus
 	var se, bias float64
 	var nse, nbias int
 	diam := s.DiameterPx
@@ -236,6 +239,26 @@ func score(dir, name string, seed int64, nFrames int) error {
 			j, hit := match[t]
 			all.add(hit)
 			dw := math.Min(r.DistStationaryPx, r.DistMovingPx)
+			if debug {
+				nn := math.Inf(1)
+				for _, o := range ti {
+					if o != t {
+						nn = math.Min(nn, math.Hypot(rows[o].Point.XPx-r.Point.XPx, rows[o].Point.YPx-r.Point.YPx))
+					}
+				}
+				k := min(len(nnIn)-1, int(nn))
+				if dw < wallLayerPx {
+					nnWall[k].add(hit)
+					if nn >= crowdDiameters*diam {
+						snrWall[min(len(snrWall)-1, int(r.PeakSNR/5))].add(hit)
+						if dw < 1 {
+							fine[int(dw*8)].add(hit)
+						}
+					}
+				} else {
+					nnIn[k].add(hit)
+				}
+			}
 			if dw < wallLayerPx {
 				wall.add(hit)
 				if debug {
@@ -296,6 +319,24 @@ func score(dir, name string, seed int64, nFrames int) error {
 		}
 	}
 	if debug {
+		fmt.Println("recall by px to the nearest tracer (wall layer | beyond):")
+		for k := range nnWall {
+			fmt.Printf("  %2d %s of %d | %s of %d\n", k, nnWall[k], nnWall[k].n, nnIn[k], nnIn[k].n)
+		}
+		fmt.Println("isolated recall by 1/8 px from the wall, first px:")
+		for k := range fine {
+			fmt.Printf("  %.3f %s of %d\n", float64(k)/8, fine[k], fine[k].n)
+		}
+		tc := tr.Calibration
+		for k, pair := range [][2][2][2]float64{{tc.StationaryWallPx, cal.StationaryWallPx}, {tc.MovingWallPx, cal.MovingWallPx}} {
+			for _, x := range []float64{0, float64(s.WidthPx - 1)} {
+				fmt.Printf("wall %d at x=%g: fitted y %.3f, true %.3f\n", k, x, lineAt(pair[0], x), lineAt(pair[1], x))
+			}
+		}
+		fmt.Println("isolated wall-layer recall by peak SNR / 5:")
+		for k := range snrWall {
+			fmt.Printf("  %2d %s of %d\n", k*5, snrWall[k], snrWall[k].n)
+		}
 		fmt.Println("false detections by px from the nearer wall (from -1 px):", falseAt)
 		fmt.Println("false detections by px from the side edge:", falseEdge)
 		fmt.Println("false detections by px from the nearest tracer (in focus 0-9, out of focus 10-19):", falseNear)
@@ -389,4 +430,9 @@ func median(m map[int]int) float64 {
 		return v[len(v)/2]
 	}
 	return (v[len(v)/2-1] + v[len(v)/2]) / 2
+}
+
+// lineAt returns the y of the line through two points at abscissa x.
+func lineAt(l [2][2]float64, x float64) float64 {
+	return l[0][1] + (x-l[0][0])*(l[1][1]-l[0][1])/(l[1][0]-l[0][0])
 }
