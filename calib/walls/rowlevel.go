@@ -47,14 +47,33 @@ func (f *rowFit) rowLevel(row []float32) float64 {
 		f.res = make([]float64, n)
 	}
 	res := f.res[:n]
-	// Start from the median level and the slope between the medians of
-	// the two halves, which a minority of outlying columns cannot carry.
+	// The least-squares line first: a row whose every value lies within
+	// the biweight's reach of it (most rows) keeps its mean.
+	var sv, sxv, sxx float64
+	for i, v := range row {
+		x := float64(i) - xc
+		sv += float64(v)
+		sxv += x * float64(v)
+		sxx += x * x
+	}
+	a, b := sv/float64(n), sxv/sxx
+	worst := 0.0
+	for i, v := range row {
+		res[i] = math.Abs(float64(v) - a - b*(float64(i)-xc))
+		worst = math.Max(worst, res[i])
+	}
+	if worst < tukeyC*math.Max(rowFloorLevels, robust.MADToSigma*robust.Median(res)) {
+		return a
+	}
+	// Else start from the median level and the slope between the medians
+	// of the two halves, which a minority of outlying columns cannot
+	// carry.
 	for i, v := range row {
 		res[i] = float64(v)
 	}
 	half := n / 2
-	a := robust.Median(res)
-	b := (robust.Median(res[n-half:]) - robust.Median(res[:half])) / float64(n-half)
+	a = robust.Median(res)
+	b = (robust.Median(res[n-half:]) - robust.Median(res[:half])) / float64(n-half)
 	for range rowIterations {
 		for i, v := range row {
 			res[i] = math.Abs(float64(v) - a - b*(float64(i)-xc))
