@@ -21,7 +21,7 @@ var chainLayers = [][]string{
 	{"track/frames", "track/internal"},
 	{"track/detect"},
 	{"track/tracks", "track/flowprior", "track/link"},
-	{"profile/velocity", "profile/layers", "profile/bands", "profile/phases"},
+	{"profile/velocity", "profile/layers", "profile/bands", "profile/phases", "profile/stillspots"},
 	{"profile/rheometry", "profile/cessation", "profile", "profile/summary"},
 	{"profile/report", "profile/campaign"},
 	{"profile/pipeline"},

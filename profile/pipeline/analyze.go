@@ -9,6 +9,7 @@ import (
 	"gaptrace/calib"
 	"gaptrace/profile"
 	"gaptrace/profile/phases"
+	"gaptrace/profile/stillspots"
 	"gaptrace/profile/summary"
 	"gaptrace/track/frames"
 	"gaptrace/track/tracks"
@@ -20,6 +21,9 @@ type Analysis struct {
 	Tracked *Tracked
 	Profile *profile.Result
 	Summary *summary.Summary
+	// StillSpots are the spots left out of the profile analysis: still
+	// through a shear phase while the fluid at their height moved.
+	StillSpots *stillspots.Spots
 }
 
 // TrackingVelocityRel is the relative standard uncertainty of the
@@ -74,14 +78,45 @@ func Analyze(ctx context.Context, cfg Config, t *Tracked) (*Analysis, error) {
 			opt.Phases = cfg.programPhases(prog, t.durationS())
 		}
 	}
-	r, err := profile.Analyze(ctx, t.Tracks, cfg.Experiment, t.Calibration, opt)
+	spots, err := findStillSpots(ctx, cfg, t, opt)
+	if err != nil {
+		return nil, err
+	}
+	r, err := profile.Analyze(ctx, spots.Source(t.Tracks), cfg.Experiment, t.Calibration, opt)
 	if err != nil {
 		return nil, inputErr(err)
 	}
 	cfg.report(StageProfile, 1, 1)
-	a := &Analysis{Tracked: t, Profile: r}
+	a := &Analysis{Tracked: t, Profile: r, StillSpots: spots}
 	a.Summary = a.buildSummary(cfg)
 	return a, ctx.Err()
+}
+
+// findStillSpots finds the spots of t that stay still through the shear
+// phases the profile stage will use (opt's, else the program's) while the
+// fluid at their height moves (package stillspots).
+func findStillSpots(ctx context.Context, cfg Config, t *Tracked, opt profile.Options) (*stillspots.Spots, error) {
+	if cfg.keepStillSpots {
+		return nil, nil
+	}
+	ph := opt.Phases
+	if ph == nil {
+		prog := opt.Program
+		if prog == nil {
+			prog = cfg.Experiment.Program()
+		}
+		ph = phases.FromProgram(prog, t.durationS())
+	}
+	var shear []stillspots.Phase
+	for _, p := range ph {
+		if p.Kind == phases.Shear && p.EndS > p.StartS {
+			shear = append(shear, stillspots.Phase{StartS: p.StartS, EndS: p.EndS})
+		}
+	}
+	if t.Calibration == nil || !(t.Calibration.GapUM > 0) || !(t.Calibration.UMPerPx > 0) {
+		return nil, nil // profile.Analyze reports the calibration
+	}
+	return stillspots.Find(ctx, t.Tracks, shear, t.Calibration)
 }
 
 // Run opens, tracks and analyses cfg.Input. The caller closes the
@@ -122,6 +157,9 @@ func (a *Analysis) buildSummary(cfg Config) *summary.Summary {
 		s.Tracking.Detections = t.Detections
 	}
 	s.Warnings = append(s.Warnings, t.Warnings...)
+	if w := a.StillSpots.Warning(); w != "" {
+		s.Warnings = append(s.Warnings, w)
+	}
 	r.Fill(s)
 	return s
 }

@@ -49,6 +49,9 @@ type Config struct {
 	// are named tracks.SpoolPrefix and removed from the folder as soon as
 	// they are made, where the system allows it.
 	TempDir string
+	// keepStillSpots analyses the still spots as tracers, for the tests
+	// that compare the profile with and without them.
+	keepStillSpots bool
 }
 
 // Stages, as named in Progress.

@@ -11,6 +11,9 @@
 //	oof         the same, out of focus
 //	crowd       the same with another tracer closer than a diameter and a half
 //	precision   detections that lie on a true tracer (any SNR), over all
+//	pprec       the same over the detections the profile analyses: those
+//	            pipeline.Analyze keeps after leaving out the still spots
+//	            (package profile/stillspots); spots is their number
 //	rms         per-axis RMS error of in-focus tracers of SNR >= 10, px
 //	wallbias    mean shift towards the nearer wall of the wall layer's centres, px
 //	trk/true    median track length over the median true passage, frames
@@ -80,7 +83,7 @@ func main() {
 		defer os.RemoveAll(d)
 		base = d
 	}
-	fmt.Printf("%-12s %7s %7s %7s %7s %7s %7s %7s %8s %7s %8s %6s\n", "scenario", "recall", "wall", "edge", "oof", "crowd", "prec", "rms_px", "wbias_px", "dets", "trk/true", "pass")
+	fmt.Printf("%-12s %7s %7s %7s %7s %7s %7s %7s %5s %7s %8s %7s %8s %6s\n", "scenario", "recall", "wall", "edge", "oof", "crowd", "prec", "pprec", "spots", "rms_px", "wbias_px", "dets", "trk/true", "pass")
 	for _, n := range names {
 		if err := score(filepath.Join(base, n), n, *seed, *nFrames); err != nil {
 			fail(fmt.Errorf("%s: %w", n, err))
@@ -143,6 +146,23 @@ func score(dir, name string, seed int64, nFrames int) error {
 	if err != nil {
 		return err
 	}
+	// The detections the profile analyses, by frame and position.
+	a, err := pipeline.Analyze(ctx, pipeline.Config{Experiment: s.Experiment(), Seed: uint64(seed)}, tr)
+	if err != nil {
+		return err
+	}
+	type at struct {
+		frame int
+		x, y  float64
+	}
+	analysed := map[at]bool{}
+	kept, err := tracks.Collect(a.StillSpots.Source(tr.Tracks))
+	if err != nil {
+		return err
+	}
+	for _, p := range kept {
+		analysed[at{p.Frame, p.XPx, p.YPx}] = true
+	}
 	rows := s.TruthRows()
 	byFrame := map[int][]int{}
 	for i, r := range rows {
@@ -162,7 +182,7 @@ func score(dir, name string, seed int64, nFrames int) error {
 		}
 	}
 	cal := s.Calibration() // the true walls
-	var all, wall, edge, oof, crowd, prec frac
+	var all, wall, edge, oof, crowd, prec, pprec frac
 	var wallBins [20]frac
 	var nnWall, nnIn [12]frac // recall by px to the nearest tracer, wall layer and beyond it
 	var snrWall [8]frac       // wall-layer recall by peak SNR/5
@@ -212,6 +232,9 @@ func score(dir, name string, seed int64, nFrames int) error {
 		}
 		for k, u := range used {
 			prec.add(u)
+			if p := points[di[k]]; analysed[at{p.Frame, p.XPx, p.YPx}] {
+				pprec.add(u)
+			}
 			if debug && !u {
 				p := points[di[k]]
 				_, y := cal.ToGap(p.XPx, p.YPx)
@@ -349,7 +372,7 @@ func score(dir, name string, seed int64, nFrames int) error {
 	if nbias > 0 {
 		wb = bias / float64(nbias)
 	}
-	fmt.Printf("%-12s %7s %7s %7s %7s %7s %7s %7.3f %8.3f %7d %8.3f %6.3f\n", name, all, wall, edge, oof, crowd, prec, rms, wb,
+	fmt.Printf("%-12s %7s %7s %7s %7s %7s %7s %7s %5d %7.3f %8.3f %7d %8.3f %6.3f\n", name, all, wall, edge, oof, crowd, prec, pprec, a.StillSpots.Len(), rms, wb,
 		len(points), median(trackLen)/median(passage), passShare(rows, passOf, matchedTrack))
 	if len(tr.Warnings) > 0 {
 		fmt.Printf("%-12s warnings: %s\n", "", strings.Join(tr.Warnings, "; "))
