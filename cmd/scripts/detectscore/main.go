@@ -28,7 +28,12 @@
 // It is a measuring tool for issue 14 (the numbers of its report), not a
 // test: the acceptance tests render small videos in track/detect.
 //
-// Usage: go run ./cmd/scripts/detectscore [-seed N] [-frames N] [-dir DIR] [SCENARIO ...]
+// A scenario may name another output than its own after a colon:
+// "homogeneous:ffv1" (lossless FFV1), ":mjpeg" (OpenCV's MJPEG),
+// ":h264-20" and ":h264-28" (H.264 at CRF 20 and 28). -table scores the
+// conditions of issue 14's must-show table.
+//
+// Usage: go run ./cmd/scripts/detectscore [-seed N] [-frames N] [-dir DIR] [-table] [SCENARIO[:OUTPUT] ...]
 package main
 
 import (
@@ -65,13 +70,31 @@ const (
 
 var defaultScenarios = []string{"homogeneous", "near-wall", "textured", "faint", "dust", "colour-hard", "blur"}
 
+// tableScenarios are the conditions of issue 14's must-show table:
+// lossless, MJPEG, H.264 at CRF 20 and 28, colour, motion blur at half the
+// frame interval, faint tracers, dust; and the walls.
+var tableScenarios = []string{"homogeneous:ffv1", "homogeneous:mjpeg", "homogeneous:h264-20", "homogeneous:h264-28",
+	"colour-hard", "blur", "faint", "dust", "near-wall", "textured"}
+
+// outputs are the outputs a scenario name may ask for after a colon.
+var outputs = map[string]synth.Output{
+	"ffv1":    {Format: synth.FormatFFV1},
+	"mjpeg":   {Format: synth.FormatMJPEG},
+	"h264-20": {Format: synth.FormatH264, CRF: 20, NoBFrames: true},
+	"h264-28": {Format: synth.FormatH264, CRF: 28, NoBFrames: true},
+}
+
 func main() {
 	seed := flag.Int64("seed", 7, "scenario seed")
 	nFrames := flag.Int("frames", 0, "frames per scenario (0: the scenario's own)")
 	dir := flag.String("dir", "", "folder for the renders (kept; default a temporary one, removed)")
+	table := flag.Bool("table", false, "score the conditions of issue 14's must-show table")
 	flag.Parse()
 	names := flag.Args()
-	if len(names) == 0 {
+	switch {
+	case *table:
+		names = tableScenarios
+	case len(names) == 0:
 		names = defaultScenarios
 	}
 	base := *dir
@@ -83,9 +106,9 @@ func main() {
 		defer os.RemoveAll(d)
 		base = d
 	}
-	fmt.Printf("%-12s %7s %7s %7s %7s %7s %7s %7s %5s %7s %8s %7s %8s %6s\n", "scenario", "recall", "wall", "edge", "oof", "crowd", "prec", "pprec", "spots", "rms_px", "wbias_px", "dets", "trk/true", "pass")
+	fmt.Printf("%-20s %7s %7s %7s %7s %7s %7s %7s %5s %7s %8s %7s %8s %6s\n", "scenario", "recall", "wall", "edge", "oof", "crowd", "prec", "pprec", "spots", "rms_px", "wbias_px", "dets", "trk/true", "pass")
 	for _, n := range names {
-		if err := score(filepath.Join(base, n), n, *seed, *nFrames); err != nil {
+		if err := score(filepath.Join(base, strings.ReplaceAll(n, ":", "-")), n, *seed, *nFrames); err != nil {
 			fail(fmt.Errorf("%s: %w", n, err))
 		}
 	}
@@ -116,16 +139,24 @@ func (f frac) String() string {
 }
 
 func score(dir, name string, seed int64, nFrames int) error {
-	s, err := synth.Builtin(name, seed)
+	scenario, variant, _ := strings.Cut(name, ":")
+	s, err := synth.Builtin(scenario, seed)
 	if err != nil {
 		return err
 	}
 	if nFrames > 0 {
 		s.Frames = nFrames
 	}
-	out, err := synth.BuiltinOutput(name)
+	out, err := synth.BuiltinOutput(scenario)
 	if err != nil {
 		return err
+	}
+	if variant != "" {
+		o, ok := outputs[variant]
+		if !ok {
+			return fmt.Errorf("unknown output %q (have %s)", variant, strings.Join(slices.Sorted(maps.Keys(outputs)), ", "))
+		}
+		out = o
 	}
 	truth, err := s.Write(dir, out)
 	if err != nil {
@@ -372,10 +403,10 @@ func score(dir, name string, seed int64, nFrames int) error {
 	if nbias > 0 {
 		wb = bias / float64(nbias)
 	}
-	fmt.Printf("%-12s %7s %7s %7s %7s %7s %7s %7s %5d %7.3f %8.3f %7d %8.3f %6.3f\n", name, all, wall, edge, oof, crowd, prec, pprec, a.StillSpots.Len(), rms, wb,
+	fmt.Printf("%-20s %7s %7s %7s %7s %7s %7s %7s %5d %7.3f %8.3f %7d %8.3f %6.3f\n", name, all, wall, edge, oof, crowd, prec, pprec, a.StillSpots.Len(), rms, wb,
 		len(points), median(trackLen)/median(passage), passShare(rows, passOf, matchedTrack))
 	if len(tr.Warnings) > 0 {
-		fmt.Printf("%-12s warnings: %s\n", "", strings.Join(tr.Warnings, "; "))
+		fmt.Printf("%-20s warnings: %s\n", "", strings.Join(tr.Warnings, "; "))
 	}
 	return nil
 }
