@@ -122,7 +122,7 @@ func (r *Result) timeResolved(ctx context.Context, ws []*windowAcc, st experimen
 			continue
 		}
 		sw := shared
-		sw.CommonUMPerS = velocity.CommonOffsetErr(own, w.T0S, w.T1S, func(y float64) float64 { v, _ := d.FitAt(y); return v })
+		sw.CommonUMPerS = velocity.CommonOffsetErr(own, w.T0S, w.T1S, r.FrameIntervalS, func(y float64) float64 { v, _ := d.FitAt(y); return v })
 		if math.IsNaN(sw.CommonUMPerS) {
 			sw.CommonUMPerS = 0
 		}

@@ -544,7 +544,7 @@ func Analyze(ctx context.Context, src tracks.Source, e *experiment.Experiment, c
 				sh.Decomposition = d
 				shared := sharedErrors(c, gap)
 				shared.VelocityRel = o.VelocityRel
-				shared.CommonUMPerS = velocity.CommonOffsetErr(winSamples[wi], steady.T0S, steady.T1S, func(y float64) float64 { v, _ := d.FitAt(y); return v })
+				shared.CommonUMPerS = velocity.CommonOffsetErr(winSamples[wi], steady.T0S, steady.T1S, dt, func(y float64) float64 { v, _ := d.FitAt(y); return v })
 				if math.IsNaN(shared.CommonUMPerS) {
 					shared.CommonUMPerS = 0
 					r.Warnings = append(r.Warnings, fmt.Sprintf("%s: too few tracers to measure the motion they share; the budget leaves it out", label))

@@ -281,7 +281,12 @@ func (s *recordingStats) intervalAndNoise() (dtS, sigmaUM float64, err error) {
 }
 
 // sample is a velocity sample as a window keeps it.
-type sample struct{ tS, yUM, vxUMPerS float64 }
+// The position xUM and the lag (frames) are kept for measuring the shift
+// the tracks share (velocity.CommonOffsetErr).
+type sample struct {
+	tS, xUM, yUM, vxUMPerS float64
+	lag                    int
+}
 
 // windowAcc gathers the samples of one window: per layer, the samples of
 // the tracks of smallest hash (each thinned evenly in time), as many as
@@ -355,7 +360,7 @@ func (a *windowAcc) add(id int, ss []velocity.Sample) {
 		}
 		k := min(int(s.YUM/w), len(a.layers)-1)
 		a.seen[k]++
-		buf[k] = append(buf[k], sample{s.TS, s.YUM, s.VXUMPerS})
+		buf[k] = append(buf[k], sample{s.TS, s.XUM, s.YUM, s.VXUMPerS, s.Lag})
 	}
 	for k, b := range buf {
 		if len(b) > 0 && a.layers[k].wants(id) {
@@ -374,7 +379,7 @@ func (a *windowAcc) samples() []velocity.Sample {
 	for k := range a.layers {
 		for _, e := range a.layers[k].r.es {
 			for _, s := range e.v {
-				out = append(out, velocity.Sample{Track: e.id, TS: s.tS, YUM: s.yUM, VXUMPerS: s.vxUMPerS})
+				out = append(out, velocity.Sample{Track: e.id, TS: s.tS, XUM: s.xUM, YUM: s.yUM, VXUMPerS: s.vxUMPerS, Lag: s.lag})
 			}
 		}
 	}

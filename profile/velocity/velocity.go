@@ -421,77 +421,173 @@ func FastestStepUM(ts []Track) float64 {
 // minStepPoints is the shortest track whose median step is trusted.
 const minStepPoints = 5
 
-// CommonOffsetBlocks is the number of time blocks a window is cut into to
-// measure the velocity offset its tracers share: ten blocks give the
-// offset's scatter to about a quarter (1/sqrt(2*9)) while keeping
-// thousands of samples per block.
-const CommonOffsetBlocks = 10
-
 // CommonOffsetErr returns the standard uncertainty, in um/s, of a velocity
 // offset that every tracer in the samples ss (of one window, from t0S to
-// t1S) shares: residual camera motion, or a codec's or motion blur's
-// shift that changes over the window. The residuals from the fitted
-// profile fit(y) are cut into blocks in time; each block's median is its
-// shared offset, and the scatter of the medians beyond what the tracers'
-// own scatter gives (the variance of a median, (pi/2) s^2 / n for n tracks
-// of spread s; e.g. Kendall & Stuart 1977, The Advanced Theory of
-// Statistics vol. 1, 10.10; from memory) is the shared part, whose mean over
-// the blocks has that variance over the number of blocks. 0 when the
-// scatter is no more than the tracers' own; NaN with too few samples.
-func CommonOffsetErr(ss []Sample, t0S, t1S float64, fit func(yUM float64) float64) float64 {
-	if !(t1S > t0S) {
+// t1S, frames dtS apart) shares: residual camera motion, or a codec's or
+// motion blur's shift, that the tracks still carry. Such a shift J(f) of
+// frame f enters every sample as (J(b) - J(a)) / (L dt) for its ends a and
+// b, L frames apart, so the window's mean velocity carries sum_f a_f J(f),
+// with a_f from the samples' ends. A constant or linear part of J over the
+// window cannot be told from the flow, so J is measured where it can be:
+// each sample's ends as positions less the fitted profile's motion
+// fit(y) t, less each track's mean, and the median over the tracks of a
+// frame is that frame's J. Its variance beyond what the tracers' own
+// scatter gives (the variance of a median, (pi/2) s^2 / n for n tracks of
+// spread s; e.g. Kendall & Stuart 1977, The Advanced Theory of Statistics
+// vol. 1, 10.10; from memory) and its correlation from one frame to the
+// next, rho, give a stationary J with covariance var rho^|k| at k frames,
+// which the law of propagation with correlated inputs (GUM, JCGM
+// 100:2008, eq. 13) carries to the mean velocity: u^2 = sum_f sum_g a_f a_g
+// var rho^|f-g|. A shift that lasts the whole lag of the samples (a slow
+// wander of the camera correction over tens of frames) then counts in
+// full, which the scatter of the window's parts in time misses. 0 when J
+// is no more than the tracers' own scatter; NaN with too few frames or
+// tracks.
+func CommonOffsetErr(ss []Sample, t0S, t1S, dtS float64, fit func(yUM float64) float64) float64 {
+	if !(t1S > t0S) || !(dtS > 0) {
 		return math.NaN()
 	}
-	blocks := make([][]float64, CommonOffsetBlocks)
-	groups := make([]map[int]bool, CommonOffsetBlocks)
-	for i := range groups {
-		groups[i] = map[int]bool{}
+	// The frames run from the earliest sample's start to the latest's
+	// end: a sample is in the window by its midpoint.
+	lo, hi := t0S, t1S
+	for _, s := range ss {
+		h := float64(s.Lag) * dtS / 2
+		lo, hi = math.Min(lo, s.TS-h), math.Max(hi, s.TS+h)
 	}
+	nf := int(math.Round((hi-lo)/dtS)) + 1
+	frameOf := func(t float64) int { return int(math.Round((t - lo) / dtS)) }
+	type end struct {
+		f int
+		r float64
+	}
+	byTrack := map[int][]end{}
+	a := make([]float64, nf)
+	n := 0
 	for _, s := range ss {
 		if s.TS < t0S || s.TS >= t1S {
 			continue
 		}
-		r := s.VXUMPerS - fit(s.YUM)
-		if math.IsNaN(r) {
+		v := fit(s.YUM)
+		h := float64(s.Lag) * dtS / 2
+		fa, fb := frameOf(s.TS-h), frameOf(s.TS+h)
+		if math.IsNaN(v) || !(h > 0) || fa < 0 || fb >= nf || fa == fb {
 			continue
 		}
-		k := min(int(float64(CommonOffsetBlocks)*(s.TS-t0S)/(t1S-t0S)), CommonOffsetBlocks-1)
-		blocks[k] = append(blocks[k], r)
-		groups[k][s.Track] = true
+		// The ends' positions less the profile's motion since t0S.
+		ra := s.XUM - s.VXUMPerS*h - v*(s.TS-h-t0S)
+		rb := s.XUM + s.VXUMPerS*h - v*(s.TS+h-t0S)
+		byTrack[s.Track] = append(byTrack[s.Track], end{fa, ra}, end{fb, rb})
+		a[fb] += 1 / (2 * h)
+		a[fa] -= 1 / (2 * h)
+		n++
 	}
-	var meds []float64
-	var within float64
-	for k, b := range blocks {
-		if len(b) < minBlockSamples || len(groups[k]) < minBlockTracks {
-			continue
-		}
-		m, mad := robust.MAD(b)
-		s := robust.MADToSigma * mad
-		meds = append(meds, m)
-		within += math.Pi / 2 * s * s / float64(len(groups[k]))
-	}
-	n := len(meds)
-	if n < minBlocks {
+	if n == 0 {
 		return math.NaN()
 	}
-	var mean, ss2 float64
-	for _, m := range meds {
-		mean += m / float64(n)
+	perFrame := make([][]float64, nf)
+	seen := map[int]bool{}
+	for _, es := range byTrack {
+		clear(seen)
+		var sum float64
+		k := 0
+		for _, e := range es {
+			if !seen[e.f] {
+				seen[e.f] = true
+				sum += e.r
+				k++
+			}
+		}
+		if k < minShiftTrackFrames {
+			continue
+		}
+		clear(seen)
+		for _, e := range es {
+			if !seen[e.f] {
+				seen[e.f] = true
+				perFrame[e.f] = append(perFrame[e.f], e.r-sum/float64(k))
+			}
+		}
 	}
-	for _, m := range meds {
-		ss2 += (m - mean) * (m - mean)
+	j := make([]float64, nf)
+	known := make([]bool, nf)
+	var mean, own float64
+	m := 0
+	for f, d := range perFrame {
+		if len(d) < minShiftTracks {
+			continue
+		}
+		med, mad := robust.MAD(d)
+		sd := robust.MADToSigma * mad
+		j[f], known[f] = med, true
+		mean += med
+		own += math.Pi / 2 * sd * sd / float64(len(d))
+		m++
 	}
-	excess := ss2/float64(n-1) - within/float64(n)
-	if !(excess > 0) {
+	if m < minShiftFrames {
+		return math.NaN()
+	}
+	mean /= float64(m)
+	var ss2, c1 float64
+	pairs := 0
+	for f := range j {
+		if !known[f] {
+			continue
+		}
+		ss2 += (j[f] - mean) * (j[f] - mean)
+		if f+1 < nf && known[f+1] {
+			c1 += (j[f] - mean) * (j[f+1] - mean)
+			pairs++
+		}
+	}
+	variance := ss2/float64(m-1) - own/float64(m)
+	if !(variance > 0) {
 		return 0
 	}
-	return math.Sqrt(excess / float64(n))
+	// The localization noise is independent from frame to frame, so the
+	// covariance at one frame is J's alone.
+	rho := 0.0
+	if pairs > 0 {
+		rho = math.Max(0, math.Min(maxShiftRho, c1/float64(pairs)/variance))
+	}
+	reach := nf
+	if rho > 0 {
+		reach = min(nf, int(math.Ceil(math.Log(shiftRhoCutoff)/math.Log(rho))))
+	} else {
+		reach = 0
+	}
+	var u2 float64
+	for f, af := range a {
+		if af == 0 {
+			continue
+		}
+		s := af
+		c := 1.0
+		for k := 1; k <= reach && f+k < nf; k++ {
+			c *= rho
+			s += 2 * a[f+k] * c
+		}
+		u2 += af * s
+	}
+	u2 *= variance / (float64(n) * float64(n))
+	return math.Sqrt(math.Max(0, u2))
 }
 
-// Least data for CommonOffsetErr: blocks of at least minBlockSamples
-// samples from minBlockTracks tracks, and minBlocks such blocks.
+// Settings of CommonOffsetErr.
 const (
-	minBlockSamples = 30
-	minBlockTracks  = 10
-	minBlocks       = 4
+	// minShiftTrackFrames is the fewest frames a track must give to take
+	// part in measuring the shared shift: its mean, which is taken off,
+	// must not follow the shift itself.
+	minShiftTrackFrames = 10
+	// minShiftTracks and minShiftFrames: a frame's shift is the median of
+	// at least ten tracks, and at least ten frames measure the variance
+	// and the correlation (common practice).
+	minShiftTracks = 10
+	minShiftFrames = 10
+	// maxShiftRho bounds the measured correlation from frame to frame,
+	// below 1, where the stationary model would stand for a drift that
+	// never ends.
+	maxShiftRho = 0.98
+	// shiftRhoCutoff is the correlation below which the sum over frame
+	// pairs stops: what it leaves out is less than a thousandth.
+	shiftRhoCutoff = 1e-3
 )

@@ -142,3 +142,112 @@ func TestFrameInterval(t *testing.T) {
 		t.Error("no error without consecutive frames")
 	}
 }
+
+// TestCommonOffsetErr draws windows of tracers sheared at a known rate whose
+// positions all carry one shift per frame J(f), a stationary sequence of
+// standard deviation sdUM and frame-to-frame correlation rho (a first-order
+// autoregression), and compares the standard uncertainty CommonOffsetErr
+// reports with the scatter, over the draws, of the shift's part in the
+// window's mean velocity (the mean over the samples of their velocity less
+// the true one): an independent simulation of what the estimate stands
+// for.
+func TestCommonOffsetErr(t *testing.T) {
+	const (
+		dtS     = 0.005
+		rate    = 2.0 // 1/s
+		sigmaUM = 0.1 // localization noise
+		draws   = 150
+		tracers = 40
+		gapUM   = 400
+		relTol  = 0.3 // the sd of a standard deviation from 150 draws is 6 %; the estimate's own scatter and its model (a stationary shift) take the rest
+	)
+	for _, c := range []struct {
+		name   string
+		frames int
+		lag    LagRule
+		sdUM   float64
+		rho    float64
+	}{
+		{"slow wander, lags of half the window", 40, LagRule{SNR: 1e6, MaxLag: 1000}, 0.3, 0.8},
+		{"white jitter, lags of 4 frames", 60, LagRule{SNR: 1e6, MaxLag: 4}, 0.3, 0},
+		{"slow wander, long window, lags of 5 frames", 200, LagRule{SNR: 1e6, MaxLag: 5}, 0.3, 0.85},
+	} {
+		t.Run(c.name, func(t *testing.T) {
+			rng := rand.New(rand.NewPCG(7, uint64(c.frames)))
+			fit := func(y float64) float64 { return rate * y }
+			var offs []float64
+			var uSum float64
+			for range draws {
+				j := make([]float64, c.frames)
+				for f := range j {
+					e := c.sdUM * rng.NormFloat64()
+					if f > 0 {
+						j[f] = c.rho*j[f-1] + math.Sqrt(1-c.rho*c.rho)*e
+					} else {
+						j[f] = e
+					}
+				}
+				var ts []Track
+				for k := range tracers {
+					y := gapUM * (float64(k) + 0.5) / tracers
+					tr := Track{ID: k}
+					for f := range c.frames {
+						tS := float64(f) * dtS
+						tr.Points = append(tr.Points, tracks.Point{Track: k, Frame: f, TS: tS,
+							XUM: rate*y*tS + j[f] + sigmaUM*rng.NormFloat64(), YUM: y})
+					}
+					ts = append(ts, tr)
+				}
+				t1 := float64(c.frames) * dtS
+				ss := Samples(ts, c.lag, sigmaUM, dtS, 0, t1)
+				var off float64
+				for _, s := range ss {
+					off += (s.VXUMPerS - fit(s.YUM)) / float64(len(ss))
+				}
+				offs = append(offs, off)
+				u := CommonOffsetErr(ss, 0, t1, dtS, fit)
+				if math.IsNaN(u) {
+					t.Fatalf("no estimate from %d samples", len(ss))
+				}
+				uSum += u
+			}
+			var m, v float64
+			for _, o := range offs {
+				m += o / draws
+			}
+			for _, o := range offs {
+				v += (o - m) * (o - m) / (draws - 1)
+			}
+			// The tracers' own noise averages out over 40 tracers; what is
+			// left is the shift's.
+			sd, u := math.Sqrt(v), uSum/draws
+			t.Logf("scatter of the shared offset %.3g um/s, mean reported %.3g um/s", sd, u)
+			if math.Abs(u/sd-1) > relTol {
+				t.Errorf("reported %.3g um/s for a shared offset that scatters by %.3g um/s", u, sd)
+			}
+		})
+	}
+	t.Run("no shared shift", func(t *testing.T) {
+		rng := rand.New(rand.NewPCG(8, 1))
+		var ts []Track
+		for k := range tracers {
+			tr := Track{ID: k}
+			for f := range 60 {
+				tr.Points = append(tr.Points, tracks.Point{Track: k, Frame: f, TS: float64(f) * dtS, XUM: sigmaUM * rng.NormFloat64(), YUM: 100})
+			}
+			ts = append(ts, tr)
+		}
+		ss := Samples(ts, LagRule{SNR: 1e6, MaxLag: 4}, sigmaUM, dtS, 0, 0.3)
+		// The mean of 40 tracers' noise, sigma sqrt(2) / (4 dt) / sqrt(40)
+		// = 1.1 um/s per sample, is not shared: far less is reported.
+		if u := CommonOffsetErr(ss, 0, 0.3, dtS, func(float64) float64 { return 0 }); !(u < 0.3) {
+			t.Errorf("no shared shift: reported %.3g um/s", u)
+		}
+	})
+	t.Run("too few tracks", func(t *testing.T) {
+		ss := []Sample{{Track: 1, TS: 0.01, Lag: 2}, {Track: 1, TS: 0.02, Lag: 2}}
+		if u := CommonOffsetErr(ss, 0, 0.3, dtS, func(float64) float64 { return 0 }); !math.IsNaN(u) {
+			t.Errorf("two samples: %g, want NaN", u)
+		}
+	})
+}
