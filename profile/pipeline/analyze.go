@@ -150,6 +150,9 @@ func (a *Analysis) buildSummary(cfg Config) *summary.Summary {
 		fps = 1 / r.FrameIntervalS // from the tracks' times
 	}
 	s.Input = summary.Input{Path: t.Input, Frames: t.Info.Frames, FPS: fps, WidthPx: t.Info.WidthPx, HeightPx: t.Info.HeightPx}
+	if g := t.Info.Grey; g != nil {
+		s.Input.Grey = &summary.Grey{Method: g.Method, WeightsBGR: g.WeightsBGR, LumaCNRFraction: g.LumaFraction}
+	}
 	s.Calibration = t.Calibration
 	n, tr, med := t.Tracks.Count()
 	s.Tracking = summary.Tracking{Detections: n, Tracks: tr, MedianTrackFrames: med}

@@ -57,6 +57,22 @@ type Input struct {
 	FPS      float64 `json:"fps"`
 	WidthPx  int     `json:"width_px"`
 	HeightPx int     `json:"height_px"`
+	// Grey is how a video's colour channels were reduced to grey (an
+	// extension of the contract; absent for still frames).
+	Grey *Grey `json:"grey,omitempty"`
+}
+
+// Grey is the reduction of a video's three channels to the grey image the
+// tracers are found in (track/frames.Grey).
+type Grey struct {
+	// Method is "luma" (the standard luma weights; Motion JPEG decoded to
+	// its own luma plane) or "weighted" (weights chosen per recording for
+	// the tracers' contrast against the noise).
+	Method     string     `json:"method"`
+	WeightsBGR [3]float64 `json:"weights_bgr"`
+	// LumaCNRFraction is the tracers' contrast-to-noise ratio in luma as
+	// a fraction of the best weighting's, on the first frames.
+	LumaCNRFraction float64 `json:"luma_cnr_fraction"`
 }
 
 // Tracking counts what the linker produced.

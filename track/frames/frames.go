@@ -47,6 +47,9 @@ type Info struct {
 	// Frames are delivered turned upright, WidthPx and HeightPx are those
 	// of the turned frames.
 	RotationDeg int
+	// Grey is how a video's colour channels are reduced to grey (nil for
+	// still frames, read as grey by OpenCV's luma).
+	Grey *Grey
 }
 
 // Counted is a video whose container announces its number of frames (the
@@ -312,6 +315,9 @@ type video struct {
 	jpeg   bool
 	raw    gocv.Mat // encoded packet (jpeg) or BGR frame
 	closed bool
+	// weights is info.Grey's weights for gocv.Transform when they are not
+	// luma's (empty for luma).
+	weights gocv.Mat
 
 	// Frame times: the container's table (listed), else those the
 	// capture reported for the frames read (posS, from pos0S, cut at the
@@ -338,6 +344,12 @@ func openVideo(path string, fps float64, r Range) (Source, error) {
 		if v, err = openCapture(path, false); err != nil {
 			return nil, err
 		}
+		g, err := videoGrey(path)
+		if err != nil {
+			v.Close()
+			return nil, err
+		}
+		v.setGrey(g)
 	}
 	v.r = r
 	if fps > 0 {
@@ -390,12 +402,23 @@ func (v *jpegVideo) Decode(i int, packet []byte, dst *gocv.Mat) error {
 	if why := jpegDamage(packet); why != "" {
 		return &DamagedError{Path: v.info.Path, Frame: i, Of: v.info.Frames, Why: why}
 	}
-	g, err := gocv.IMDecode(packet, gocv.IMReadGrayScale)
+	weighted := v.weights.Ptr() != nil
+	flag := gocv.IMReadGrayScale // the JPEG's own luma plane
+	if weighted {
+		flag = gocv.IMReadColor
+	}
+	g, err := gocv.IMDecode(packet, flag)
 	if err != nil || g.Empty() {
 		g.Close()
 		return &DamagedError{Path: v.info.Path, Frame: i, Of: v.info.Frames, Why: "damaged JPEG data"}
 	}
 	defer g.Close()
+	if weighted {
+		r := gocv.NewMat()
+		gocv.Transform(g, &r, v.weights)
+		g, r = r, g
+		r.Close()
+	}
 	if code, ok := rotateCode(v.info.RotationDeg); ok {
 		r := gocv.NewMat()
 		gocv.Rotate(g, &r, code)
@@ -446,6 +469,7 @@ func openCapture(path string, jpeg bool) (*video, error) {
 		return nil, fmt.Errorf("frames: %s: cannot open as a video", path)
 	}
 	v := &video{cap: c, raw: gocv.NewMat(), jpeg: jpeg}
+	var grey Grey // chosen on the probe's packet
 	v.info = Info{Path: path, Frames: -1, BitDepth: 8,
 		WidthPx: int(c.Get(gocv.VideoCaptureFrameWidth)), HeightPx: int(c.Get(gocv.VideoCaptureFrameHeight))}
 	if n := c.Get(gocv.VideoCaptureFrameCount); n > 0 && n < math.MaxInt32 {
@@ -465,8 +489,12 @@ func openCapture(path string, jpeg bool) (*video, error) {
 			b, _ := v.raw.DataPtrUint8()
 			ok = len(b) > 4 && b[0] == 0xff && b[1] == 0xd8
 			if ok {
-				g, err := gocv.IMDecode(b, gocv.IMReadGrayScale)
+				g, err := gocv.IMDecode(b, gocv.IMReadColor)
 				ok = err == nil && !g.Empty() && g.Cols() == v.info.WidthPx && g.Rows() == v.info.HeightPx
+				if ok {
+					grey, err = packetsGrey(c, &v.raw, g)
+					ok = err == nil
+				}
 				g.Close()
 			}
 		}
@@ -484,6 +512,7 @@ func openCapture(path string, jpeg bool) (*video, error) {
 		}
 		c.Set(gocv.VideoCaptureFormat, -1)
 		v.cap, v.raw, v.closed = c, gocv.NewMat(), false
+		v.setGrey(grey)
 	}
 	if v.info.WidthPx <= 0 || v.info.HeightPx <= 0 {
 		v.Close()
@@ -570,7 +599,11 @@ func (v *video) Next(dst *gocv.Mat) (int, error) {
 	case 1:
 		v.raw.CopyTo(dst)
 	case 3:
-		gocv.CvtColor(v.raw, dst, gocv.ColorBGRToGray)
+		if v.weights.Ptr() != nil {
+			gocv.Transform(v.raw, dst, v.weights)
+		} else {
+			gocv.CvtColor(v.raw, dst, gocv.ColorBGRToGray)
+		}
 	case 4:
 		gocv.CvtColor(v.raw, dst, gocv.ColorBGRAToGray)
 	default:
@@ -596,5 +629,65 @@ func (v *video) Close() error {
 	}
 	v.closed = true
 	v.raw.Close()
+	if v.weights.Ptr() != nil {
+		v.weights.Close()
+		v.weights = gocv.Mat{}
+	}
 	return v.cap.Close()
+}
+
+// setGrey sets the reduction of the colour channels to grey.
+func (v *video) setGrey(g Grey) {
+	v.info.Grey = &g
+	if g.Method == GreyWeighted {
+		v.weights = weightsMat(g)
+	}
+}
+
+// videoGrey chooses the reduction to grey of the video at path (not
+// Motion JPEG) on its first frame, read through a capture of its own.
+func videoGrey(path string) (Grey, error) {
+	c, err := gocv.VideoCaptureFileWithAPI(path, gocv.VideoCaptureFFmpeg)
+	if err != nil || !c.IsOpened() {
+		if c != nil {
+			c.Close()
+		}
+		return Grey{}, fmt.Errorf("frames: %s: cannot open as a video", path)
+	}
+	defer c.Close()
+	m, m2 := gocv.NewMat(), gocv.NewMat()
+	defer m.Close()
+	defer m2.Close()
+	if !c.Read(&m) || m.Empty() {
+		return Grey{}, fmt.Errorf("frames: %s: the first frame cannot be read", path)
+	}
+	if m.Type() != gocv.MatTypeCV8UC3 {
+		return Grey{Method: GreyLuma, WeightsBGR: lumaBGR, LumaFraction: 1}, nil
+	}
+	if !c.Read(&m2) || m2.Type() != m.Type() {
+		m2.Close()
+		m2 = gocv.NewMat() // a video of one frame
+	}
+	return chooseGrey(m, m2)
+}
+
+// packetsGrey chooses the reduction to grey of a Motion JPEG video on its
+// first frame, first (decoded in colour), and the second, read from c
+// into raw.
+func packetsGrey(c *gocv.VideoCapture, raw *gocv.Mat, first gocv.Mat) (Grey, error) {
+	second := gocv.NewMat()
+	defer second.Close()
+	if c.Read(raw) {
+		if b, err := raw.DataPtrUint8(); err == nil && jpegDamage(b) == "" {
+			if g, err := gocv.IMDecode(b, gocv.IMReadColor); err == nil {
+				second.Close()
+				second = g
+			}
+		}
+	}
+	if second.Cols() != first.Cols() || second.Rows() != first.Rows() || second.Type() != first.Type() {
+		second.Close()
+		second = gocv.NewMat()
+	}
+	return chooseGrey(first, second)
 }

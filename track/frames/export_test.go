@@ -1,0 +1,4 @@
+package frames
+
+// ChooseGrey is chooseGrey, for the external tests.
+var ChooseGrey = chooseGrey
