@@ -399,6 +399,9 @@ func (d *Detector) Frame(img gocv.Mat, frame int, out []Detection) ([]Detection,
 		noise = n
 	}
 	d.refineAll(&px, gain)
+	if out == nil {
+		out = make([]Detection, 0, len(d.cands)) // one allocation, not a dozen
+	}
 	for i := range d.cands {
 		c := &d.cands[i]
 		if c.dropped || !c.ok {
