@@ -5,28 +5,32 @@
 // fluid, so they are left out of the profile analysis (Spots.Source); the
 // tracks table keeps them.
 //
-// The test is made against the fluid itself. In the steady part of each
-// shear phase (its second half, after the start-up) every track piece of
-// at least MinPiecePoints points gets its velocity along the walls, a
-// least-squares slope with its own standard uncertainty, and the pieces of
-// each height bin give the local fluid velocity: their median weighted by
-// points, and the spread of the tracers about it (scaled MAD). A piece is
-// still when its velocity is zero within its uncertainty (or below
-// RestShare of the fluid's), and it is not a tracer when it also lies more
-// than FlowZ combined standard deviations from the fluid's velocity at its
-// height. Next to a wall that does not slip the fluid itself is nearly at
-// rest, so there a still spot cannot be told from the fluid and is kept;
-// so is a still spot within StuckRadii tracer radii of the stationary wall,
-// which may be a particle stuck to that wall (moving with it). A particle
-// stuck to the moving wall moves and is never still.
+// The test is made against the fluid itself, in the steady part of each
+// shear phase (its second half, after the start-up). A first pass gives
+// each height bin its fluid velocity along the walls: the median, weighted
+// by points, of the least-squares velocities of the track pieces of at
+// least MinPiecePoints points there, and the spread of those pieces about
+// it (scaled MAD). A second pass cuts the tracks where they step farther
+// than a still spot can (StepSigmas, MaxStillStepPx), so that a spot the
+// linker joined to a passing tracer is seen on its own, and tests every
+// run of at least MinRunPoints points: it is still when its velocity is
+// zero within StillZ of its own standard uncertainty (or below RestShare of
+// the fluid's), and no tracer when it also lies more than FlowZ combined
+// standard deviations from the fluid at its height. Next to a wall that
+// does not slip the fluid itself is nearly at rest, so there a still spot
+// cannot be told from the fluid and is kept; so is a still spot within
+// StuckRadii tracer radii of the stationary wall, which may be a particle
+// stuck to that wall (at rest with it). A particle stuck to the moving wall
+// moves with it and is never still.
 //
-// The still pieces are then gathered by position, not per track, since a
-// spot that the linker broke into many short tracks is one spot: pieces
-// whose mean positions lie within MergePx form one spot, and every
-// detection within the spot's radius is left out at any time of the
-// recording (the window's dust stays where it is), splitting the tracks
-// that pass through it. Memory is bounded by the height bins and the number
-// of still positions, not by the number of frames.
+// The still runs are gathered by position, not per track, since a spot
+// that the linker broke into many short tracks is one spot: runs whose mean
+// positions lie within MergePx form one spot when they hold MinPiecePoints
+// points together. Every detection within the spot's radius is left out,
+// splitting the tracks that pass through it: at any time of the recording
+// for a spot seen in most frames (dust stays where it is), within the
+// shear phases for one seen now and then (WindowShare). Memory is bounded by the height bins and the
+// number of still positions, not by the number of frames.
 package stillspots
 
 import (
@@ -48,6 +52,12 @@ const (
 	// the scatter, enough that a still dust piece and a tracer differ by
 	// many standard uncertainties at any shear the linker follows.
 	MinPiecePoints = 5
+	// MinRunPoints is the shortest still run tested on its own: two
+	// points give a velocity, with the localization noise for its
+	// uncertainty. A spot that the linker breaks into such short runs (a
+	// blotch that flickers) is kept only when its runs at one place hold
+	// MinPiecePoints points together.
+	MinRunPoints = 2
 	// SteadyFromShare is where, as a share of its duration, the steady
 	// part of a shear phase begins: the profile's own steady window is the
 	// second half, after the start-up in which the fluid may still be at
@@ -87,6 +97,12 @@ const (
 	// localization noise and the pull of tracers passing over it.
 	RadiusSigmas = 3
 	MinRadiusPx  = 1
+	// WindowShare: a spot seen still in at least half the frames of the
+	// steady windows belongs to the window (dust, a scratch) and is there
+	// before and after the shear too; a spot seen less may be a blotch of
+	// the codec where the moving wall was, and a tracer that comes to rest
+	// on its place after the stop is a tracer.
+	WindowShare = 0.5
 	// StepSigmas and MaxStillStepPx: a step between two points of a
 	// track longer than StepSigmas times the noise of a step (sqrt(2)
 	// times the localization noise), and than MaxStillStepPx, is not a
@@ -124,6 +140,11 @@ type Spot struct {
 	// FluidUMPerS is the fluid's velocity at its height in the phase where
 	// it was found moving fastest, um/s.
 	FluidUMPerS float64
+	// Always is set for a spot seen still in at least WindowShare of the
+	// frames of the steady windows: a feature of the window, left out at
+	// any time of the recording. Other spots (a blotch that comes and
+	// goes) are left out only within the shear phases.
+	Always bool
 }
 
 // Spots is the outcome of Find: the still spots and what Source needs to
@@ -134,6 +155,7 @@ type Spots struct {
 	// (the median residual scatter of their fits).
 	NoiseUM float64
 	maxID   int
+	shear   []Phase          // the shear phases, where every spot is left out
 	cell    map[[2]int]int32 // 1-px cell → index of a spot whose disc covers it
 }
 
@@ -276,27 +298,27 @@ func fluidOf(s []sample) fluid {
 }
 
 // pieces calls fn with the part of track t inside each steady window (its
-// index and points), when that part has at least MinPiecePoints points.
-func pieces(t []tracks.Point, win []Phase, fn func(k int, p []tracks.Point)) {
-	if len(t) < MinPiecePoints || t[0].Track == tracks.Unlinked {
+// index and points), when that part has at least minPoints points.
+func pieces(t []tracks.Point, win []Phase, minPoints int, fn func(k int, p []tracks.Point)) {
+	if len(t) < minPoints || t[0].Track == tracks.Unlinked {
 		return
 	}
 	for k, w := range win {
 		a, _ := slices.BinarySearchFunc(t, w.StartS, func(p tracks.Point, s float64) int { return cmpFloat(p.TS, s) })
 		b, _ := slices.BinarySearchFunc(t, w.EndS, func(p tracks.Point, s float64) int { return cmpFloat(p.TS, s) })
-		if b-a >= MinPiecePoints {
+		if b-a >= minPoints {
 			fn(k, t[a:b])
 		}
 	}
 }
 
-// stillRuns calls fn with every run of at least MinPiecePoints points of
-// p whose steps are all at most maxStepPx long.
+// stillRuns calls fn with every run of at least MinRunPoints points of p
+// whose steps are all at most maxStepPx long.
 func stillRuns(p []tracks.Point, maxStepPx float64, fn func(run []tracks.Point)) {
 	from := 0
 	for i := 1; i <= len(p); i++ {
 		if i == len(p) || math.Hypot(p[i].XPx-p[i-1].XPx, p[i].YPx-p[i-1].YPx) > maxStepPx {
-			if i-from >= MinPiecePoints {
+			if i-from >= MinRunPoints {
 				fn(p[from:i])
 			}
 			from = i
@@ -317,7 +339,7 @@ type still struct {
 // cal's gap and scale. With no shear phase there is nothing to test
 // against and no spot is found.
 func Find(ctx context.Context, src tracks.Source, shear []Phase, cal *calib.Calibration) (*Spots, error) {
-	out := &Spots{}
+	out := &Spots{shear: slices.Clone(shear)}
 	if cal == nil || !(cal.GapUM > 0) || !(cal.UMPerPx > 0) {
 		return nil, fmt.Errorf("stillspots: a calibration with a positive gap and scale is needed (gap %v um)", gapOf(cal))
 	}
@@ -341,14 +363,22 @@ func Find(ctx context.Context, src tracks.Source, shear []Phase, cal *calib.Cali
 		}
 	}
 	noise := reservoir{k: NoisePieces}
+	// The frame interval, from the first and last frames and their times.
+	first, last := tracks.Point{Frame: math.MaxInt}, tracks.Point{Frame: math.MinInt}
 	err := src.Each(func(t []tracks.Point) error {
 		if err := ctx.Err(); err != nil {
 			return err
 		}
 		for _, p := range t {
 			out.maxID = max(out.maxID, p.Track)
+			if p.Frame < first.Frame {
+				first = p
+			}
+			if p.Frame > last.Frame {
+				last = p
+			}
 		}
-		pieces(t, win, func(k int, p []tracks.Point) {
+		pieces(t, win, MinPiecePoints, func(k int, p []tracks.Point) {
 			f := fitPiece(p)
 			h := hash(p[0].Track, k)
 			res[k][bin(f.yUM)].offer(sample{h: h, v: f.vUMPerS, w: float64(f.n)})
@@ -379,7 +409,7 @@ func Find(ctx context.Context, src tracks.Source, shear []Phase, cal *calib.Cali
 		if err := ctx.Err(); err != nil {
 			return err
 		}
-		pieces(t, win, func(k int, whole []tracks.Point) {
+		pieces(t, win, MinRunPoints, func(k int, whole []tracks.Point) {
 			stillRuns(whole, maxStepPx, func(p []tracks.Point) {
 				f := fitPiece(p)
 				fb := fl[k][bin(f.yUM)]
@@ -410,7 +440,14 @@ func Find(ctx context.Context, src tracks.Source, shear []Phase, cal *calib.Cali
 	if err != nil {
 		return nil, err
 	}
-	out.Spots = merge(cells)
+	var steadyFrames float64
+	if last.Frame > first.Frame {
+		dtS := (last.TS - first.TS) / float64(last.Frame-first.Frame)
+		for _, w := range win {
+			steadyFrames += (w.EndS - w.StartS) / dtS
+		}
+	}
+	out.Spots = merge(cells, steadyFrames)
 	out.index()
 	return out, nil
 }
@@ -436,8 +473,9 @@ func isSpot(f fit, fb fluid, noiseUM, umPerPx float64) bool {
 	return still && flows && !stuck
 }
 
-// merge joins the cells within MergePx of each other into spots.
-func merge(cells map[[2]int]*still) []Spot {
+// merge joins the cells within MergePx of each other into spots, in
+// recordings whose steady windows hold steadyFrames frames.
+func merge(cells map[[2]int]*still, steadyFrames float64) []Spot {
 	keys := make([][2]int, 0, len(cells))
 	for k := range cells {
 		keys = append(keys, k)
@@ -491,11 +529,14 @@ func merge(cells map[[2]int]*still) []Spot {
 	out := make([]Spot, 0, len(order))
 	for _, r := range order {
 		g := groups[r]
+		if g.points < MinPiecePoints {
+			continue // too little evidence in one place
+		}
 		n := float64(g.points)
 		x, y := g.sx/n, g.sy/n
 		varPx := math.Max(0, g.sxx/n-x*x) + math.Max(0, g.syy/n-y*y)
 		out = append(out, Spot{XPx: x, YPx: y, YUM: g.yUM / n, RadiusPx: math.Max(MinRadiusPx, RadiusSigmas*math.Sqrt(varPx/2)),
-			StillPoints: g.points, FluidUMPerS: g.fluidUMPerS})
+			StillPoints: g.points, FluidUMPerS: g.fluidUMPerS, Always: float64(g.points) >= WindowShare*steadyFrames})
 	}
 	return out
 }
@@ -522,20 +563,29 @@ func (s *Spots) index() {
 	}
 }
 
-// owner returns whether the detection at (x, y) px lies within a spot's
-// radius.
-func (s *Spots) owner(xPx, yPx float64) bool {
-	i, ok := s.cell[[2]int{int(math.Floor(xPx)), int(math.Floor(yPx))}]
+// owner returns whether the detection p lies within the radius of a spot
+// that is left out at its time.
+func (s *Spots) owner(p *tracks.Point) bool {
+	i, ok := s.cell[[2]int{int(math.Floor(p.XPx)), int(math.Floor(p.YPx))}]
 	if !ok {
 		return false
 	}
-	sp := s.Spots[i]
-	if math.Hypot(xPx-sp.XPx, yPx-sp.YPx) <= sp.RadiusPx {
+	inShear := false
+	for _, ph := range s.shear {
+		if p.TS >= ph.StartS && p.TS <= ph.EndS {
+			inShear = true
+			break
+		}
+	}
+	covers := func(sp *Spot) bool {
+		return (sp.Always || inShear) && math.Hypot(p.XPx-sp.XPx, p.YPx-sp.YPx) <= sp.RadiusPx
+	}
+	if covers(&s.Spots[i]) {
 		return true
 	}
 	// Another spot's disc may cover the cell too.
-	for j, o := range s.Spots {
-		if int32(j) != i && math.Hypot(xPx-o.XPx, yPx-o.YPx) <= o.RadiusPx {
+	for j := range s.Spots {
+		if int32(j) != i && covers(&s.Spots[j]) {
 			return true
 		}
 	}
@@ -560,7 +610,9 @@ func (s *Spots) Warning() string {
 		"while the fluid at their height moved (dust or scratches on the window, or codec blotches); tracks.csv keeps them", s.Len())
 }
 
-// Source returns src without the detections within the spots' radii. A
+// Source returns src without the detections within the spots' radii: at
+// any time for a spot of the window (Spot.Always), within the shear phases
+// for the others. A
 // track that passes through a spot is split there: the part after the k-th
 // cut takes the id id + k*(largest id + 1), so ids stay unique and the
 // same on every pass. Unlinked detections inside a spot are left out too.
@@ -582,8 +634,8 @@ func (f *filtered) Each(fn func([]tracks.Point) error) error {
 	stride := f.s.maxID + 1
 	return f.src.Each(func(t []tracks.Point) error {
 		drop := -1
-		for i, p := range t {
-			if f.s.owner(p.XPx, p.YPx) {
+		for i := range t {
+			if f.s.owner(&t[i]) {
 				drop = i
 				break
 			}
@@ -606,7 +658,7 @@ func (f *filtered) Each(fn func([]tracks.Point) error) error {
 			return err
 		}
 		for _, p := range t[drop:] {
-			if f.s.owner(p.XPx, p.YPx) {
+			if f.s.owner(&p) {
 				if err := emit(); err != nil {
 					return err
 				}

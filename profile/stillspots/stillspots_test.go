@@ -90,6 +90,19 @@ func (c *cell) still(xPx, yPx, vUMPerS float64, f0, f1, piece int, found bool) {
 	}
 }
 
+// flicker adds a still spot at (x, y) px seen for on frames out of every
+// period, as a track of its own each time, from frame f0 to the end.
+func (c *cell) flicker(xPx, yPx float64, on, period, f0, f1 int, found bool) {
+	label := c.label(found)
+	for f := f0; f < f1; f++ {
+		if (f-f0)%period < on {
+			p := c.point(dustID+spotIDs*int(label)+(f-f0)/period, f, xPx, yPx)
+			p.Brightness = label
+			c.pts = append(c.pts, p)
+		}
+	}
+}
+
 // mislinked adds a still spot at (x, y) px, seen through the recording in
 // one track that the linker also gave a tracer flowing into the spot at
 // vUMPerS for its first 10 frames and another leaving it for the last 70.
@@ -144,6 +157,23 @@ func TestFind(t *testing.T) {
 			c.still(150, 45, 0, 0, testFrames/2, 2, true)
 			c.still(150, 45, 0, testFrames/2, testFrames, 20, true)
 		}, 1},
+		{"a blotch that flickers: runs of 2 frames at one place", full, func(c *cell) {
+			c.flow(800, couette(0, 2))
+			c.flicker(180, 75, 2, 15, testFrames/2, testFrames, true)
+		}, 1},
+		{"a tracer at rest after the stop on the place of a flickering blotch", []Phase{{0, 8}}, func(c *cell) {
+			c.flow(800, couette(0, 2))
+			c.flicker(180, 75, 2, 15, 80, 160, true)
+			c.still(180, 75, 0, 165, testFrames, testFrames, false)
+		}, 1},
+		{"dust before, through and after the shear", []Phase{{2, 8}}, func(c *cell) {
+			c.flow(800, couette(0, 2))
+			c.still(180, 75, 0, 0, testFrames, testFrames, true)
+		}, 1},
+		{"a lone still run of 3 frames", full, func(c *cell) {
+			c.flow(800, couette(0, 2))
+			c.flicker(180, 75, 3, testFrames, testFrames-3, testFrames, false)
+		}, 0},
 		{"a particle stuck to the moving wall", full, func(c *cell) {
 			c.flow(800, couette(0, 2))
 			c.still(0, testGapUM-1.5, 2*testGapUM, 0, testFrames, testFrames, false)
@@ -215,10 +245,19 @@ func TestFind(t *testing.T) {
 			if lost := tracer - tracerKept; float64(lost) > maxPassingShare*float64(tracer) {
 				t.Errorf("%d of %d tracer points left out, want at most %.1f %%", lost, tracer, 100*maxPassingShare)
 			}
-			// Every still spot found is a dust spot and all its points go.
+			// No point is kept inside a spot where it is left out: at any
+			// time for a spot of the window, else within the phases.
+			inPhase := func(tS float64) bool {
+				for _, ph := range tc.phases {
+					if tS >= ph.StartS && tS <= ph.EndS {
+						return true
+					}
+				}
+				return false
+			}
 			for _, sp := range s.Spots {
 				for _, p := range kept {
-					if math.Hypot(p.XPx-sp.XPx, p.YPx-sp.YPx) <= sp.RadiusPx {
+					if (sp.Always || inPhase(p.TS)) && math.Hypot(p.XPx-sp.XPx, p.YPx-sp.YPx) <= sp.RadiusPx {
 						t.Errorf("point %+v kept inside spot %+v", p, sp)
 						break
 					}
@@ -241,7 +280,7 @@ func TestFind(t *testing.T) {
 // into pieces with ids of their own, the same on every pass, and that the
 // unlinked detections inside a spot go too.
 func TestSourceSplits(t *testing.T) {
-	s := &Spots{Spots: []Spot{{XPx: 10, YPx: 5, RadiusPx: 1}}, maxID: 7}
+	s := &Spots{Spots: []Spot{{XPx: 10, YPx: 5, RadiusPx: 1, Always: true}}, maxID: 7}
 	s.index()
 	var tr tracks.Slice
 	for f := range 6 {
