@@ -120,7 +120,11 @@ type Detector struct {
 	ampW     []float64
 	ampWNorm float64
 	amps     []float32
-	excl     []bool
+	// tailRatio is the last frame's amplitude scale at the tail over that
+	// of the core (amplitudeNoise): 1 for Gaussian noise, more for a lossy
+	// codec's blotches.
+	tailRatio float64
+	excl      []bool
 	// noiseAt holds, for the crude and the fine noise sampling of a frame
 	// size, the sample pixels inside the mask: the same in every frame.
 	noiseAt [2]noiseGrid
@@ -428,6 +432,12 @@ func (d *Detector) keep(det Detection, sh shape, w, h int) bool {
 		!d.isStreak(sh) {
 		return false
 	}
+	// In a frame of codec blotches a faint spot must also have the shape a
+	// round tracer keeps in noise at that SNR.
+	if d.tailRatio > blotchyTailRatio && det.SNR < shapeMinSNR &&
+		(det.Eccentricity > faintMaxEccentricity || det.SizePx > faintMaxSizeRatio*d.nominalSizePx()) && !d.isStreak(sh) {
+		return false
+	}
 	if d.opt.Mask != nil && !d.opt.Mask.Contains(det.XPx, det.YPx) {
 		return false
 	}
@@ -703,7 +713,34 @@ const (
 	// blotch through in every few hundred positions.
 	ampTailQuantile = 0.95
 	ampTailZ        = 1.959964
+	// ampFitLowQuantile and ampFitHighQuantile are the points of the
+	// absolute amplitudes through which, in a frame of codec blotches
+	// (blotchyTailRatio), an exponential tail is drawn to where MinSNR's
+	// false-alarm rate of Gaussian noise lies: for a Laplace distribution
+	// the construction is exact. 2 % of 400 positions leaves 8 beyond the
+	// upper point.
+	ampFitLowQuantile  = 0.90
+	ampFitHighQuantile = 0.98
+	// blotchyTailRatio is the tail-over-core ratio of the amplitudes
+	// (amplitudeNoise) above which a frame holds codec blotches: three
+	// sampling sds of the ratio (5 % each, see ampTailQuantile) above the
+	// 1 of Gaussian noise.
+	blotchyTailRatio = 1.15
+	// faintMaxEccentricity and faintMaxSizeRatio bound the shape of spots
+	// below shapeMinSNR in such frames: 99.9 % of round spots at SNR 5 in
+	// white noise stay under an eccentricity of 0.871 and a size of 1.33
+	// times the nominal (TestShapeNoise), while the blotches are larger
+	// and longer (median 2.46 px against the tracers' 1.88 px, eccentricity
+	// 0.81 against 0.48, on H.264 CRF 28 in detectscore's renders).
+	faintMaxEccentricity = 0.88
+	faintMaxSizeRatio    = 1.35
 )
+
+// nominalSizePx is the radius of gyration of a pixel-integrated spot of the
+// nominal size: sqrt(2 (s^2 + 1/12)), s its sd.
+func (d *Detector) nominalSizePx() float64 {
+	return math.Sqrt(2 * (d.sigma*d.sigma + 1.0/12))
+}
 
 // amplitudeNoise returns the per-pixel noise that would give the
 // least-squares amplitude of a spot (amplitudeWeights) the scatter it has
@@ -720,6 +757,7 @@ func (d *Detector) amplitudeNoise(p *pixels) float64 {
 	step := max(1, len(g.pixel)/ampNoiseSamples)
 	cut := p.bands != nil && slices.Contains(p.cutPlate, true)
 	d.amps = d.amps[:0]
+	d.tailRatio = 1
 	for k := 0; k < len(g.pixel); k += step {
 		if d.excl[g.cell[k]] {
 			continue
@@ -744,16 +782,44 @@ func (d *Detector) amplitudeNoise(p *pixels) float64 {
 	if len(d.amps) < minNoiseSamples {
 		return 0
 	}
-	med := robust.SelectKth(d.amps, len(d.amps)/2)
-	for i, v := range d.amps {
-		d.amps[i] = abs32(v - med)
+	sd, ratio := d.ampScale(d.amps)
+	d.tailRatio = ratio
+	return sd / d.ampWNorm
+}
+
+// ampScale returns the scale of amplitudes v (reordered): the larger of
+// 1.4826 MADs and of the tail's (ampTailQuantile) scale, and in a frame of
+// codec blotches the noise that puts MinSNR at the false-alarm rate of
+// Gaussian noise; and the tail's scale over the MAD's.
+func (d *Detector) ampScale(v []float32) (sd, tailRatio float64) {
+	med := robust.SelectKth(v, len(v)/2)
+	for i, x := range v {
+		v[i] = abs32(x - med)
 	}
-	h := len(d.amps) / 2
-	core := robust.MADToSigma * float64(robust.SelectKth(d.amps, h))
-	// SelectKth left the values above the median after it.
-	k := int(ampTailQuantile * float64(len(d.amps)-1))
-	tail := float64(robust.SelectKth(d.amps[h:], k-h)) / ampTailZ
-	return math.Max(core, tail) / d.ampWNorm
+	// Each SelectKth leaves the larger values after its k, where the
+	// next, higher quantile is selected.
+	q := func(from int, p float64) (float64, int) {
+		k := max(from, int(p*float64(len(v)-1)))
+		return float64(robust.SelectKth(v[from:], k-from)), k
+	}
+	mad, k50 := q(0, 0.5)
+	core := robust.MADToSigma * mad
+	q90, k90 := q(k50, ampFitLowQuantile)
+	q95, k95 := q(k90, ampTailQuantile)
+	tail := q95 / ampTailZ
+	tailRatio = tail / core
+	sd = math.Max(core, tail)
+	if tailRatio > blotchyTailRatio {
+		// The blotches' tail, exponential, P(|a| > t) = C exp(-t/b), from
+		// its 90 % and 98 % points, reaches MinSNR's false-alarm rate of
+		// Gaussian noise at t; the noise that puts MinSNR there.
+		q98, _ := q(k95, ampFitHighQuantile)
+		b := (q98 - q90) / math.Log((1-ampFitLowQuantile)/(1-ampFitHighQuantile))
+		pFalse := math.Erfc(d.opt.MinSNR / math.Sqrt2)
+		t := q98 + b*math.Log((1-ampFitHighQuantile)/pFalse)
+		sd = math.Max(sd, t/d.opt.MinSNR)
+	}
+	return sd, tailRatio
 }
 
 // noiseGrid is the sampling pattern of noise for one frame size: the pixel

@@ -219,6 +219,7 @@ func score(dir, name string, seed int64, nFrames int) error {
 	var snrWall [8]frac       // wall-layer recall by peak SNR/5
 	var fine [8]frac          // isolated recall by eighth of a px from the wall, first px
 	var falseAt [12]int       // false detections by px from the nearer wall, from -1
+	falseAtFrame := map[int]int{} // false detections by 25 frames
 	var falseEdge [10]int     // by px from the nearer side edge
 	var falseNear [20]int     // by px from the nearest tracer, +10 when it is out of focus
 	var se, bias float64
@@ -271,6 +272,7 @@ func score(dir, name string, seed int64, nFrames int) error {
 				_, y := cal.ToGap(p.XPx, p.YPx)
 				dpx := math.Min(y, cal.GapUM-y) / cal.UMPerPx
 				falseAt[min(len(falseAt)-1, max(0, int(dpx+1)))]++
+				falseAtFrame[f/25]++
 				best, bt := math.Inf(1), -1
 				for _, t := range ti {
 					if dd := math.Hypot(p.XPx-rows[t].Point.XPx, p.YPx-rows[t].Point.YPx); dd < best {
@@ -393,6 +395,7 @@ func score(dir, name string, seed int64, nFrames int) error {
 		}
 		fmt.Println("false detections by px from the nearer wall (from -1 px):", falseAt)
 		fmt.Println("false detections by px from the side edge:", falseEdge)
+		fmt.Println("false detections by 25 frames:", falseAtFrame)
 		fmt.Println("false detections by px from the nearest tracer (in focus 0-9, out of focus 10-19):", falseNear)
 	}
 	rms := math.NaN()
