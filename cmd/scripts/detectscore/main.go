@@ -17,6 +17,10 @@
 //	rms         per-axis RMS error of in-focus tracers of SNR >= 10, px
 //	wallbias    mean shift towards the nearer wall of the wall layer's centres, px
 //	trk/true    median track length over the median true passage, frames
+//	trk/tr      the same over the tracks at least half of whose points lie
+//	            on a true tracer (trk/true counts the short tracks of
+//	            false detections too, which outnumber the tracers' on
+//	            lossy recordings)
 //	pass        median, over the true passages of tracers of median peak SNR
 //	            >= 5, of the share of the passage in its longest track
 //
@@ -106,7 +110,7 @@ func main() {
 		defer os.RemoveAll(d)
 		base = d
 	}
-	fmt.Printf("%-20s %7s %7s %7s %7s %7s %7s %7s %5s %7s %8s %7s %8s %6s\n", "scenario", "recall", "wall", "edge", "oof", "crowd", "prec", "pprec", "spots", "rms_px", "wbias_px", "dets", "trk/true", "pass")
+	fmt.Printf("%-20s %7s %7s %7s %7s %7s %7s %7s %5s %7s %8s %7s %8s %6s %6s\n", "scenario", "recall", "wall", "edge", "oof", "crowd", "prec", "pprec", "spots", "rms_px", "wbias_px", "dets", "trk/true", "trk/tr", "pass")
 	for _, n := range names {
 		if err := score(filepath.Join(base, strings.ReplaceAll(n, ":", "-")), n, *seed, *nFrames); err != nil {
 			fail(fmt.Errorf("%s: %w", n, err))
@@ -215,13 +219,13 @@ func score(dir, name string, seed int64, nFrames int) error {
 	cal := s.Calibration() // the true walls
 	var all, wall, edge, oof, crowd, prec, pprec frac
 	var wallBins [20]frac
-	var nnWall, nnIn [12]frac // recall by px to the nearest tracer, wall layer and beyond it
-	var snrWall [8]frac       // wall-layer recall by peak SNR/5
-	var fine [8]frac          // isolated recall by eighth of a px from the wall, first px
-	var falseAt [12]int       // false detections by px from the nearer wall, from -1
+	var nnWall, nnIn [12]frac     // recall by px to the nearest tracer, wall layer and beyond it
+	var snrWall [8]frac           // wall-layer recall by peak SNR/5
+	var fine [8]frac              // isolated recall by eighth of a px from the wall, first px
+	var falseAt [12]int           // false detections by px from the nearer wall, from -1
 	falseAtFrame := map[int]int{} // false detections by 25 frames
-	var falseEdge [10]int     // by px from the nearer side edge
-	var falseNear [20]int     // by px from the nearest tracer, +10 when it is out of focus
+	var falseEdge [10]int         // by px from the nearer side edge
+	var falseNear [20]int         // by px from the nearest tracer, +10 when it is out of focus
 	var se, bias float64
 	var nse, nbias int
 	diam := s.DiameterPx
@@ -406,8 +410,9 @@ func score(dir, name string, seed int64, nFrames int) error {
 	if nbias > 0 {
 		wb = bias / float64(nbias)
 	}
-	fmt.Printf("%-20s %7s %7s %7s %7s %7s %7s %7s %5d %7.3f %8.3f %7d %8.3f %6.3f\n", name, all, wall, edge, oof, crowd, prec, pprec, a.StillSpots.Len(), rms, wb,
-		len(points), median(trackLen)/median(passage), passShare(rows, passOf, matchedTrack))
+	fmt.Printf("%-20s %7s %7s %7s %7s %7s %7s %7s %5d %7.3f %8.3f %7d %8.3f %6.3f %6.3f\n", name, all, wall, edge, oof, crowd, prec, pprec, a.StillSpots.Len(), rms, wb,
+		len(points), median(trackLen)/median(passage), median(tracerTracks(trackLen, matchedTrack))/median(passage),
+		passShare(rows, passOf, matchedTrack))
 	if len(tr.Warnings) > 0 {
 		fmt.Printf("%-20s warnings: %s\n", "", strings.Join(tr.Warnings, "; "))
 	}
@@ -437,6 +442,25 @@ func passages(rows []synth.TruthRow, widthPx float64) (passOf []int, passage map
 		}
 	}
 	return passOf, passage
+}
+
+// tracerTracks returns the lengths of the tracks (of trackLen) at least
+// half of whose points are a true tracer's detection (matchedTrack, the
+// track of each true row's detection).
+func tracerTracks(trackLen map[int]int, matchedTrack []int) map[int]int {
+	onTracer := map[int]int{}
+	for _, t := range matchedTrack {
+		if t != tracks.Unlinked {
+			onTracer[t]++
+		}
+	}
+	out := map[int]int{}
+	for t, n := range trackLen {
+		if 2*onTracer[t] >= n {
+			out[t] = n
+		}
+	}
+	return out
 }
 
 // passShare returns the median, over the passages whose rows have a
