@@ -74,8 +74,8 @@ const (
 	// FlowZ: a still piece is no tracer when the fluid at its height moves
 	// faster than FlowZ combined standard deviations (the piece's
 	// uncertainty and the tracers' spread in the bin): five, so that a
-	// genuine tracer, Gaussian about the fluid, is taken for a spot with a
-	// probability below 1e-6 per piece.
+	// genuine tracer, normally distributed about the fluid, is taken for a
+	// spot with a probability below 1e-6 per piece.
 	FlowZ = 5
 	// StuckRadii: a still spot whose centre lies within this many tracer
 	// radii of the stationary wall may be a particle stuck to that wall,
@@ -83,20 +83,20 @@ const (
 	// stuck particle's centre sits one radius off the wall; the other two
 	// radii allow for the wall line's and the radius' uncertainty.
 	StuckRadii = 3
-	// RadiusOfGyration converts a detection's size_px (radius of gyration
-	// of a Gaussian spot of standard deviation s: sqrt(2) s) to the spot's
-	// radius, taken as 2 s (its visible edge).
-	RadiusOfGyration = math.Sqrt2
+	// radiusPerSize converts a detection's size_px (the radius of
+	// gyration of a Gaussian spot of standard deviation s, sqrt(2) s) to
+	// the spot's radius, taken as 2 s (its visible edge).
+	radiusPerSize = math.Sqrt2
 	// MergePx: still pieces whose mean positions lie within this distance
 	// are one spot: several times the localization error of a piece mean,
 	// below the separation at which the detector resolves two spots.
 	MergePx = 2
-	// RadiusSigmas and MinRadiusPx: every detection within RadiusSigmas
+	// radiusSigmas and minRadiusPx: every detection within radiusSigmas
 	// times the scatter of a spot's detections about its centre, and at
-	// least MinRadiusPx, is the spot's: the scatter holds the spot's own
+	// least minRadiusPx, is the spot's: the scatter holds the spot's own
 	// localization noise and the pull of tracers passing over it.
-	RadiusSigmas = 3
-	MinRadiusPx  = 1
+	radiusSigmas = 3
+	minRadiusPx  = 1
 	// WindowShare: a spot seen still in at least half the frames of the
 	// steady windows belongs to the window (dust, a scratch) and is there
 	// before and after the shear too; a spot seen less may be a blotch of
@@ -112,18 +112,18 @@ const (
 	// or more across and its centre wanders by less than that.
 	StepSigmas     = 8
 	MaxStillStepPx = 1
-	// HeightBins is the number of height bins across the gap for the local
+	// heightBins is the number of height bins across the gap for the local
 	// fluid velocity: 20 layers resolve a shear band of a tenth of the gap
 	// while holding hundreds of pieces each in a short recording.
-	HeightBins = 20
-	// BinPieces bounds the pieces kept per bin and phase for the median,
+	heightBins = 20
+	// binPieces bounds the pieces kept per bin and phase for the median,
 	// chosen by a hash of the track id (so the order of the tracks does not
 	// matter): the median's standard error is then at most 1.25 / sqrt(4096)
 	// = 2 % of the spread.
-	BinPieces = 4096
-	// NoisePieces bounds the pieces kept for the localization noise, the
+	binPieces = 4096
+	// noisePieces bounds the pieces kept for the localization noise, the
 	// median of their residual scatter.
-	NoisePieces = 4096
+	noisePieces = 4096
 )
 
 // Phase is the time span of one shear phase, s.
@@ -351,18 +351,18 @@ func Find(ctx context.Context, src tracks.Source, shear []Phase, cal *calib.Cali
 		win = append(win, Phase{p.StartS + SteadyFromShare*(p.EndS-p.StartS), p.EndS})
 	}
 	bin := func(yUM float64) int {
-		return min(HeightBins-1, max(0, int(yUM/cal.GapUM*HeightBins)))
+		return min(heightBins-1, max(0, int(yUM/cal.GapUM*heightBins)))
 	}
 	// First pass: the pieces' velocities per bin and phase, and their
 	// residual scatter.
 	res := make([][]reservoir, len(win))
 	for k := range res {
-		res[k] = make([]reservoir, HeightBins)
+		res[k] = make([]reservoir, heightBins)
 		for b := range res[k] {
-			res[k][b].k = BinPieces
+			res[k][b].k = binPieces
 		}
 	}
-	noise := reservoir{k: NoisePieces}
+	noise := reservoir{k: noisePieces}
 	// The frame interval, from the first and last frames and their times.
 	first, last := tracks.Point{Frame: math.MaxInt}, tracks.Point{Frame: math.MinInt}
 	err := src.Each(func(t []tracks.Point) error {
@@ -395,7 +395,7 @@ func Find(ctx context.Context, src tracks.Source, shear []Phase, cal *calib.Cali
 	out.NoiseUM = weightedMedian(noise.s)
 	fl := make([][]fluid, len(win))
 	for k := range res {
-		fl[k] = make([]fluid, HeightBins)
+		fl[k] = make([]fluid, heightBins)
 		for b := range res[k] {
 			fl[k][b] = fluidOf(res[k][b].s)
 			res[k][b].s = nil
@@ -469,7 +469,7 @@ func isSpot(f fit, fb fluid, noiseUM, umPerPx float64) bool {
 	sv := f.errUMPerS(noiseUM)
 	still := math.Abs(f.vUMPerS) <= math.Max(StillZ*sv, RestShare*math.Abs(fb.vUMPerS))
 	flows := math.Abs(f.vUMPerS-fb.vUMPerS) > FlowZ*math.Hypot(sv, fb.spreadUMPerS)
-	stuck := f.yUM < StuckRadii*RadiusOfGyration*f.sizePx*umPerPx
+	stuck := f.yUM < StuckRadii*radiusPerSize*f.sizePx*umPerPx
 	return still && flows && !stuck
 }
 
@@ -535,7 +535,7 @@ func merge(cells map[[2]int]*still, steadyFrames float64) []Spot {
 		n := float64(g.points)
 		x, y := g.sx/n, g.sy/n
 		varPx := math.Max(0, g.sxx/n-x*x) + math.Max(0, g.syy/n-y*y)
-		out = append(out, Spot{XPx: x, YPx: y, YUM: g.yUM / n, RadiusPx: math.Max(MinRadiusPx, RadiusSigmas*math.Sqrt(varPx/2)),
+		out = append(out, Spot{XPx: x, YPx: y, YUM: g.yUM / n, RadiusPx: math.Max(minRadiusPx, radiusSigmas*math.Sqrt(varPx/2)),
 			StillPoints: g.points, FluidUMPerS: g.fluidUMPerS, Always: float64(g.points) >= WindowShare*steadyFrames})
 	}
 	return out
