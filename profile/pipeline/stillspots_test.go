@@ -1,6 +1,7 @@
 package pipeline
 
 import (
+	"bytes"
 	"context"
 	"fmt"
 	"math"
@@ -32,8 +33,10 @@ const (
 // gap, 10 on the plates, 8 tracers stuck to the walls) and checks against
 // its truth (synth.Scenario.DustSpots and TruthRows) that the profile's
 // detections reach issue 14's precision, that no spot is a true tracer,
-// that summary.json counts the spots, and that the slip velocities and
-// the bulk rate lie no farther from the truth than with the spots kept.
+// that summary.json counts the spots (also when the tracks come from
+// tracks.csv, as `gaptrace profile` reads them), and that the slip
+// velocities and the bulk rate lie no farther from the truth than with the
+// spots kept.
 func TestStillSpotsDust(t *testing.T) {
 	dir := t.TempDir()
 	sc, err := synth.Builtin("dust", 7)
@@ -163,6 +166,24 @@ func TestStillSpotsDust(t *testing.T) {
 	}
 	if strings.Contains(strings.Join(b.Summary.Warnings, "\n"), "static spots") {
 		t.Errorf("summary with the spots kept warns of them: %q", b.Summary.Warnings)
+	}
+
+	// The same spots from tracks.csv alone, as `gaptrace profile` reads it.
+	var csv bytes.Buffer
+	if err := tr.WriteTracks(&csv); err != nil {
+		t.Fatal(err)
+	}
+	fromCSV, err := FromTracks(cfg, "tracks.csv", &csv, tr.Calibration)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer fromCSV.Close()
+	c, err := Analyze(ctx, cfg, fromCSV)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if c.StillSpots.Len() != a.StillSpots.Len() || !strings.Contains(strings.Join(c.Summary.Warnings, "\n"), want) {
+		t.Errorf("from tracks.csv: %d spots, warnings %q; from the video %d", c.StillSpots.Len(), c.Summary.Warnings, a.StillSpots.Len())
 	}
 
 	// Slip and rate: no farther from the truth than with the spots kept
