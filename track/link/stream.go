@@ -12,6 +12,7 @@ import (
 	"runtime"
 	"slices"
 	"sync"
+	"sync/atomic"
 
 	"gaptrace/calib"
 	"gaptrace/track/flowprior"
@@ -267,7 +268,9 @@ func commonModeRange(pts []tracks.Point, cal *calib.Calibration, opt Options, cl
 }
 
 // linkPass runs one Linker over frames into a new Pass, calling step (when
-// not nil) for every link as Pass.Step is.
+// not nil) for every link as Pass.Step is. The Pass (and step) receive the
+// pass's output on a goroutine of their own (passWriter), in the order it
+// is made, while the next frames are linked.
 func linkPass(ctx context.Context, frames Frames, cal *calib.Calibration, opt Options, newPass func() (Pass, error), step func(a, b *tracks.Point)) (Pass, Stats, error) {
 	l, err := NewLinker(cal, opt)
 	if err != nil {
@@ -281,12 +284,7 @@ func linkPass(ctx context.Context, frames Frames, cal *calib.Calibration, opt Op
 	if err != nil {
 		return nil, Stats{}, err
 	}
-	onStep := func(a, b *tracks.Point) {
-		if step != nil {
-			step(a, b)
-		}
-		p.Step(a, b)
-	}
+	w := newPassWriter(p, step)
 	err = frames.Each(func(f int, ds []Detection) error {
 		if f%cancelCheckFrames == 0 {
 			if err := ctx.Err(); err != nil {
@@ -296,22 +294,26 @@ func linkPass(ctx context.Context, frames Frames, cal *calib.Calibration, opt Op
 		if err := l.Add(f, ds); err != nil {
 			return err
 		}
-		l.steps(onStep)
-		p.EndFrame(f)
+		b := w.batch()
+		l.steps(func(a, c *tracks.Point) { b.steps = append(b.steps, *a, *c) })
+		b.frame = f
 		l.spillLong()
-		return l.emit(p)
+		return w.send(l, b)
 	})
 	if err == nil {
 		// As Close, one track at a time: the tracks still open at the end
 		// may be as long as the recording.
 		for i, t := range l.active {
 			l.finish(t)
-			l.active[i] = nil // its points are emitted: free them now
-			if err = l.emit(p); err != nil {
+			l.active[i] = nil // its points go to the writer: free them here
+			if err = w.send(l, w.batch()); err != nil {
 				break
 			}
 		}
 		l.active = nil
+	}
+	if werr := w.close(); err == nil || errors.Is(err, errPassFailed) {
+		err = werr
 	}
 	if err == nil {
 		return p, l.stats, nil
@@ -320,15 +322,102 @@ func linkPass(ctx context.Context, frames Frames, cal *calib.Calibration, opt Op
 	return nil, Stats{}, err
 }
 
-// emit hands the tracks finished so far to p and reuses their room.
-func (l *Linker) emit(p Pass) error {
+// passWriter hands a linking pass's output to its Pass on a goroutine of
+// its own: per frame, the links made (Pass.Step, and the pass's step
+// callback), the end of the frame (Pass.EndFrame) and the tracks that
+// finished (Pass.Track), in the order the Linker made them. The batches
+// are recycled (passBatches of them), so memory stays bounded and the
+// Linker waits when the Pass falls behind.
+type passWriter struct {
+	p      Pass
+	step   func(a, b *tracks.Point)
+	work   chan *passBatch
+	free   chan *passBatch
+	done   chan struct{}
+	failed atomic.Bool
+	err    error // the first error of Pass.Track, set before done closes
+}
+
+// passBatch is one frame's output of a linking pass: its links, as pairs
+// of points (the point before, the point in the frame), and the points of
+// the tracks that finished, grouped by track. frame is -1 for tracks that
+// finish after the last frame.
+type passBatch struct {
+	frame int
+	steps []tracks.Point
+	pts   []tracks.Point
+}
+
+// passBatches is how many batches a passWriter has: the Linker may run
+// that many frames ahead of the Pass.
+const passBatches = 4
+
+func newPassWriter(p Pass, step func(a, b *tracks.Point)) *passWriter {
+	w := &passWriter{p: p, step: step, work: make(chan *passBatch, passBatches),
+		free: make(chan *passBatch, passBatches), done: make(chan struct{})}
+	for range passBatches {
+		w.free <- &passBatch{}
+	}
+	go w.run()
+	return w
+}
+
+// batch returns an empty batch for the end of the pass (frame -1).
+func (w *passWriter) batch() *passBatch {
+	b := <-w.free
+	b.frame, b.steps = -1, b.steps[:0]
+	return b
+}
+
+// send gives b the tracks the Linker finished so far (its done points,
+// whose room b's old points take over) and queues b; it returns the error
+// of the Linker's spill file or of an earlier Pass.Track.
+func (w *passWriter) send(l *Linker, b *passBatch) error {
 	if l.spill.err != nil {
+		w.free <- b
 		return l.spill.err
 	}
-	done := l.Flush()
-	err := emitTracks(p, done)
-	l.done = done[:0]
-	return err
+	b.pts, l.done = l.done, b.pts[:0]
+	if w.failed.Load() {
+		w.free <- b
+		return errPassFailed
+	}
+	w.work <- b
+	return nil
+}
+
+// errPassFailed stops the Linker when Pass.Track failed; close returns
+// that error.
+var errPassFailed = errors.New("link: the pass failed")
+
+func (w *passWriter) run() {
+	defer close(w.done)
+	for b := range w.work {
+		if w.err == nil {
+			for i := 0; i+1 < len(b.steps); i += 2 {
+				a, c := &b.steps[i], &b.steps[i+1]
+				if w.step != nil {
+					w.step(a, c)
+				}
+				w.p.Step(a, c)
+			}
+			if b.frame >= 0 {
+				w.p.EndFrame(b.frame)
+			}
+			if w.err = emitTracks(w.p, b.pts); w.err != nil {
+				w.failed.Store(true)
+			}
+		}
+		w.free <- b
+	}
+}
+
+// close waits for the Pass to have received everything sent and returns
+// the first error of Pass.Track.
+func (w *passWriter) close() error {
+	close(w.work)
+	<-w.done
+	return w.err
 }
 
 // emitTracks hands the finished points pts, grouped by track, to p one

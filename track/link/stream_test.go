@@ -2,6 +2,7 @@ package link
 
 import (
 	"context"
+	"errors"
 	"math"
 	"reflect"
 	"slices"
@@ -148,5 +149,60 @@ func TestLinkStreamCommonModeChunks(t *testing.T) {
 	t.Logf("chunked common mode: RMS error %.3f px per axis against jitter of %.2f px over %d frames", rms, sm.s.JitterPx, n)
 	if rms > maxRMS {
 		t.Errorf("chunked common mode RMS error %.3f px, more than %.2f px", rms, maxRMS)
+	}
+}
+
+// failingPass is a spoolPass whose Track fails from its n-th call on.
+type failingPass struct {
+	*spoolPass
+	n, calls int
+}
+
+var errTrackFull = errors.New("test: the track store is full")
+
+func (p *failingPass) Track(pts []tracks.Point) error {
+	p.calls++
+	if p.calls > p.n {
+		return errTrackFull
+	}
+	return p.spoolPass.Track(pts)
+}
+
+// TestLinkStreamPassError checks that an error of Pass.Track, which the
+// pass receives on a goroutine of its own (passWriter), stops LinkStream
+// and is returned, whether it comes with the first track, in the middle
+// or with the tracks that end after the last frame.
+func TestLinkStreamPassError(t *testing.T) {
+	s, err := synth.Builtin("homogeneous", 5)
+	if err != nil {
+		t.Fatal(err)
+	}
+	b := detect(t, s, 21)
+	fs, err := NewFrameSpool(t.TempDir())
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer fs.Close()
+	for f, ds := range b.frames {
+		if err := fs.Add(f, ds); err != nil {
+			t.Fatal(err)
+		}
+	}
+	opt := Options{FPS: s.FPS, MaxStepPx: MaxStepFor(s.Program()[0].WallSpeedUMPerS, s.FPS, s.UMPerPx), GapFrames: DefaultGapFrames}
+	_, all, err := Link(b.frames, b.cal, opt)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, n := range []int{0, all.Tracks / 2, all.Tracks + all.Unlinked - 1} {
+		p, _, err := LinkStream(context.Background(), fs, b.cal, opt, func() (Pass, error) {
+			sp, err := newSpoolPass(t.TempDir())
+			return &failingPass{spoolPass: sp, n: n}, err
+		})
+		if p != nil {
+			p.Close()
+		}
+		if !errors.Is(err, errTrackFull) {
+			t.Errorf("Track failing from call %d of %d: LinkStream returned %v, want %v", n+1, all.Tracks+all.Unlinked, err, errTrackFull)
+		}
 	}
 }
