@@ -141,3 +141,97 @@ func median(v []float64) float64 {
 	slices.Sort(v)
 	return v[len(v)/2]
 }
+
+// TestOpenColourVideo writes a three-chip camera's recording under red
+// light (track/synth's colour-red: the weighting wins) and a grey one as
+// Motion JPEG and FFV1, opens each with frames.Open and checks the
+// reduction recorded in Info.Grey and the frames delivered: every pixel
+// of a weighted frame is the weighted sum, rounded, of the channels OpenCV
+// decodes from the same frame (its FFmpeg reader, or for Motion JPEG its
+// JPEG decoder), within 1 grey level; a grey Motion JPEG's frames are the
+// JPEG's own luma plane (OpenCV's grey decode of the packet).
+func TestOpenColourVideo(t *testing.T) {
+	for _, tc := range []struct {
+		scenario, format, method string
+	}{
+		{"colour-red", synth.FormatMJPEG, frames.GreyWeighted},
+		{"colour-red", synth.FormatFFV1, frames.GreyWeighted},
+		{"homogeneous", synth.FormatMJPEG, frames.GreyLuma},
+	} {
+		t.Run(tc.scenario+" "+tc.format, func(t *testing.T) {
+			s, err := synth.Builtin(tc.scenario, 3)
+			if err != nil {
+				t.Fatal(err)
+			}
+			s.Frames = 3
+			dir := t.TempDir()
+			tr, err := s.Write(dir, synth.Output{Format: tc.format})
+			if err != nil {
+				t.Fatal(err)
+			}
+			path := tr.Summary.Input.Path
+			src, err := frames.Open(path, 0, frames.All)
+			if err != nil {
+				t.Fatal(err)
+			}
+			defer src.Close()
+			g := src.Info().Grey
+			if g == nil || g.Method != tc.method {
+				t.Fatalf("Info.Grey %+v, want method %s", g, tc.method)
+			}
+			got := gocv.NewMat()
+			defer got.Close()
+			if _, err := src.Next(&got); err != nil {
+				t.Fatal(err)
+			}
+			// The reference: frame 0 decoded by OpenCV, in colour by its
+			// FFmpeg reader, or for Motion JPEG its packet by OpenCV's JPEG
+			// decoder (which frames uses: FFmpeg's upsamples the chroma
+			// differently), in colour or straight to the luma plane.
+			ref := gocv.NewMat()
+			defer ref.Close()
+			c, err := gocv.VideoCaptureFile(path)
+			if err != nil {
+				t.Fatal(err)
+			}
+			defer c.Close()
+			if tc.format == synth.FormatMJPEG {
+				c.Set(gocv.VideoCaptureFormat, -1)
+				raw := gocv.NewMat()
+				defer raw.Close()
+				if !c.Read(&raw) {
+					t.Fatal("reference: no packet")
+				}
+				b, _ := raw.DataPtrUint8()
+				flag := gocv.IMReadColor
+				if tc.method == frames.GreyLuma {
+					flag = gocv.IMReadGrayScale
+				}
+				ref.Close()
+				if ref, err = gocv.IMDecode(b, flag); err != nil {
+					t.Fatal(err)
+				}
+			} else if !c.Read(&ref) {
+				t.Fatal("reference: no frame")
+			}
+			px, _ := ref.DataPtrUint8()
+			want := make([]float64, got.Rows()*got.Cols())
+			for i := range want {
+				if tc.method == frames.GreyWeighted {
+					want[i] = math.Round(g.WeightsBGR[0]*float64(px[3*i]) + g.WeightsBGR[1]*float64(px[3*i+1]) + g.WeightsBGR[2]*float64(px[3*i+2]))
+				} else {
+					want[i] = float64(px[i])
+				}
+			}
+			gp, _ := got.DataPtrUint8()
+			worst := 0.0
+			for i, w := range want {
+				worst = math.Max(worst, math.Abs(float64(gp[i])-w))
+			}
+			t.Logf("%s %s: %s, weights %.3f, luma fraction %.3f; largest difference from the reference %g grey levels", tc.scenario, tc.format, g.Method, g.WeightsBGR, g.LumaFraction, worst)
+			if worst > 1 {
+				t.Errorf("a pixel differs from the reference by %g grey levels, want <= 1", worst)
+			}
+		})
+	}
+}
