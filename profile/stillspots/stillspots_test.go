@@ -328,3 +328,44 @@ func TestFindErrors(t *testing.T) {
 		}
 	}
 }
+
+// benchCell is the made-up recording of the benchmarks: 4 000 sheared
+// tracers seen for 20 frames each and 30 dust spots broken into tracks of
+// 25 frames, held in memory.
+func benchCell() (tracks.Source, *Spots) {
+	c := newCell(1)
+	c.flow(4000, couette(0, 2))
+	for k := range 30 {
+		c.still(float64(10+12*k), float64(10+2*k), 0, 0, testFrames, 25, true)
+	}
+	src := tracks.Slice(c.pts)
+	s, err := Find(context.Background(), src, []Phase{{0, testFrames / testFPS}}, testCal)
+	if err != nil {
+		panic(err)
+	}
+	return src, s
+}
+
+// BenchmarkFind times Find against one bare pass over the same tracks
+// (sub-benchmark "pass"), and a pass through Spots.Source ("source").
+func BenchmarkFind(b *testing.B) {
+	src, s := benchCell()
+	noop := func([]tracks.Point) error { return nil }
+	b.Run("find", func(b *testing.B) {
+		for range b.N {
+			if _, err := Find(context.Background(), src, []Phase{{0, testFrames / testFPS}}, testCal); err != nil {
+				b.Fatal(err)
+			}
+		}
+	})
+	b.Run("pass", func(b *testing.B) {
+		for range b.N {
+			src.Each(noop)
+		}
+	})
+	b.Run("source", func(b *testing.B) {
+		for range b.N {
+			s.Source(src).Each(noop)
+		}
+	})
+}
