@@ -1003,9 +1003,9 @@ func (r *Result) budget(o Options) {
 	}
 	// The onset: a continuous motion from rest fitted to the amplitude
 	// around the frame where it was first seen (onsetFit); its profile
-	// likelihood's width, how far it moves when the rise is fitted over
-	// half as long (the rise's curvature, a Type B bound), and the stop's
-	// time, which every time after it is counted from.
+	// likelihood's width, how far it moves when the rise is fitted twice
+	// as high or by a straight line (the rise's shape, a Type B bound), and
+	// the stop's time, which every time after it is counted from.
 	o0, stat, model := onsetFit(r.Amplitude, r.onsetIdx, o.DtS)
 	if !math.IsNaN(o0) {
 		r.OnsetAfterStopS = o0
@@ -1034,45 +1034,111 @@ const (
 	// right after the stop (a codec's settling) does not set it.
 	onsetBaseFrames = 8
 	// onsetRiseFraction is the part of the final amplitude up to which
-	// the rise is fitted by a straight line: an exponential rise
+	// the rise is fitted (even a straight line errs little there: an exponential rise
 	// 1 - exp(-t/tau) reaches it at X = 0.22 tau, where the line's
 	// crossing errs by about tau X^2/12 (the least-squares line through
-	// x - x^2/2 on [0, X]), 0.004 tau.
+	// x - x^2/2 on [0, X]), 0.004 tau; the quadratic of hinge takes that
+	// out).
 	onsetRiseFraction = 0.2
+	// onsetCheckFraction is the part of the final amplitude up to which
+	// the rise is fitted again for the model's component of the onset's
+	// uncertainty: twice onsetRiseFraction, where the curvature of the
+	// rise changes over the fit (for an exponential rise the curve the
+	// quadratic leaves out, x^3 / 6, grows eightfold).
+	onsetCheckFraction = 2 * onsetRiseFraction
 	// onsetMinRise is the fewest frames of the rise fitted.
 	onsetMinRise = 3
 	// onsetSteps is the number of trial onsets per frame interval.
 	onsetSteps = 50
+	// hingeParams is the number of parameters of the onset's fit: the
+	// onset, the baseline, the rise's slope and its curvature.
+	hingeParams = 4
 )
 
 // onsetPoint is one amplitude of the onset fit, with its Huber weight.
 type onsetPoint struct{ t, a, w float64 }
 
-// hinge fits a(t) = b + s max(t - tc, 0) to pts by weighted least squares
-// and returns b, s and the weighted residual sum of squares (+Inf when the
-// points do not determine the line).
-func hinge(pts []onsetPoint, tc float64) (b, s, rss float64) {
-	var sw, sx, sxx, sy, sxy float64
+// hinge fits a(t) = b + s x + q x^2, x = max(t - tc, 0), to pts by
+// weighted least squares and returns the fit at each point's time (into
+// fit) and the weighted residual sum of squares (+Inf when the points do
+// not determine the curve). The quadratic term takes the rise's curvature
+// (a relaxation slows as it goes), which a straight line would turn into an
+// onset too early: for 1 - exp(-x/tau) fitted up to X tau by a line, by
+// about tau X^2 / 12.
+// With straight true, q is 0: the line of the model component.
+func hinge(pts []onsetPoint, tc float64, fit []float64, straight bool) (rss float64) {
+	// Normal equations of the three coefficients (the third an identity
+	// row for a straight rise).
+	var m [3][4]float64
+	if straight {
+		m[2][2] = 1
+	}
 	for _, p := range pts {
 		x := math.Max(p.t-tc, 0)
-		sw += p.w
-		sx += p.w * x
-		sxx += p.w * x * x
-		sy += p.w * p.a
-		sxy += p.w * x * p.a
+		f := [3]float64{1, x, x * x}
+		if straight {
+			f[2] = 0
+		}
+		for i := range 3 {
+			for j := range 3 {
+				m[i][j] += p.w * f[i] * f[j]
+			}
+			m[i][3] += p.w * f[i] * p.a
+		}
 	}
-	den := sw*sxx - sx*sx
-	if !(den > 0) {
-		return 0, 0, math.Inf(1)
+	c, ok := solve3(m)
+	if !ok {
+		return math.Inf(1)
 	}
-	s = (sw*sxy - sx*sy) / den
-	b = (sy - s*sx) / sw
-	for _, p := range pts {
-		d := p.a - b - s*math.Max(p.t-tc, 0)
+	for i, p := range pts {
+		x := math.Max(p.t-tc, 0)
+		fit[i] = c[0] + c[1]*x + c[2]*x*x
+		d := p.a - fit[i]
 		rss += p.w * d * d
 	}
-	return b, s, rss
+	return rss
 }
+
+// solve3 solves the 3x3 system m (augmented by its right-hand side) by
+// Gaussian elimination with partial pivoting; false when it is singular.
+func solve3(m [3][4]float64) ([3]float64, bool) {
+	scale := 0.0
+	for i := range 3 {
+		scale = math.Max(scale, math.Abs(m[i][i]))
+	}
+	for k := range 3 {
+		p := k
+		for i := k + 1; i < 3; i++ {
+			if math.Abs(m[i][k]) > math.Abs(m[p][k]) {
+				p = i
+			}
+		}
+		if !(math.Abs(m[p][k]) > singularRel*scale) {
+			return [3]float64{}, false
+		}
+		m[k], m[p] = m[p], m[k]
+		for i := k + 1; i < 3; i++ {
+			f := m[i][k] / m[k][k]
+			for j := k; j < 4; j++ {
+				m[i][j] -= f * m[k][j]
+			}
+		}
+	}
+	var c [3]float64
+	for k := 2; k >= 0; k-- {
+		c[k] = m[k][3]
+		for j := k + 1; j < 3; j++ {
+			c[k] -= m[k][j] * c[j]
+		}
+		c[k] /= m[k][k]
+	}
+	return c, true
+}
+
+// singularRel is the pivot, relative to the largest diagonal term, below
+// which solve3 calls the normal equations singular (a trial onset past all
+// but two points leaves the rise's terms undetermined).
+const singularRel = 1e-12
 
 // fitHinge returns the hinge time in [from, to] (n trial times) that fits
 // pts best, with Huber weights against single bad frames, and the
@@ -1080,12 +1146,13 @@ func hinge(pts []onsetPoint, tc float64) (b, s, rss float64) {
 // within one residual variance of its least (the profile-likelihood
 // interval of one parameter), at least the trial step; NaN when no time
 // fits.
-func fitHinge(pts []onsetPoint, from, to float64, n int) (float64, float64) {
+func fitHinge(pts []onsetPoint, from, to float64, n int, straight bool) (float64, float64) {
 	trial := func(k int) float64 { return from + (to-from)*float64(k)/float64(max(1, n-1)) }
+	fit := make([]float64, len(pts))
 	scan := func() (best, bestRSS float64) {
 		bestRSS = math.Inf(1)
 		for k := range n {
-			if _, _, r := hinge(pts, trial(k)); r < bestRSS {
+			if r := hinge(pts, trial(k), fit, straight); r < bestRSS {
 				best, bestRSS = trial(k), r
 			}
 		}
@@ -1100,9 +1167,9 @@ func fitHinge(pts []onsetPoint, from, to float64, n int) (float64, float64) {
 		if math.IsInf(r, 1) {
 			return math.NaN(), math.NaN()
 		}
-		b, s, _ := hinge(pts, best)
+		hinge(pts, best, fit, straight)
 		for i, p := range pts {
-			res[i] = math.Abs(p.a - b - s*math.Max(p.t-best, 0))
+			res[i] = math.Abs(p.a - fit[i])
 		}
 		sc := robust.MADToSigma * robust.Median(res)
 		if !(sc > 0) {
@@ -1119,10 +1186,14 @@ func fitHinge(pts []onsetPoint, from, to float64, n int) (float64, float64) {
 	if math.IsInf(bestRSS, 1) {
 		return math.NaN(), math.NaN()
 	}
-	s2 := bestRSS / float64(max(1, len(pts)-3))
+	params := hingeParams
+	if straight {
+		params--
+	}
+	s2 := bestRSS / float64(max(1, len(pts)-params))
 	lo, hi := best, best
 	for k := range n {
-		if _, _, r := hinge(pts, trial(k)); r-bestRSS <= s2 {
+		if r := hinge(pts, trial(k), fit, straight); r-bestRSS <= s2 {
 			lo, hi = math.Min(lo, trial(k)), math.Max(hi, trial(k))
 		}
 	}
@@ -1131,15 +1202,16 @@ func fitHinge(pts []onsetPoint, from, to float64, n int) (float64, float64) {
 
 // onsetFit fits the amplitudes a around index i0, the first frame where
 // motion is seen (amplitude), with a motion that starts from a baseline at
-// t0, a(t) = b before t0 and b + s (t - t0) after it, over up to
+// t0, a(t) = b before t0 and b + s (t - t0) + q (t - t0)^2 after it (hinge),
+// over up to
 // onsetBaseFrames frames before the rise and the rise up to
 // onsetRiseFraction of the final amplitude (fitHinge). When that reaches
 // back to the stop, the rest at the stop itself, a = 0 at t = 0, is one
 // more point of the baseline, and the onset may lie anywhere from it.
 // It returns t0 (s after the stop), its statistical standard uncertainty
-// and the model's: the move of t0 when the rise is fitted over half as
-// many frames, which a curved rise gives. All NaN when the fit is not
-// determined.
+// and the model's: the moves of t0 when the rise is fitted up to
+// onsetCheckFraction and when it is fitted by a straight line, in
+// quadrature. All NaN when the fit is not determined.
 func onsetFit(a []AmplitudePoint, i0 int, dtS float64) (t0, stat, model float64) {
 	nan := math.NaN()
 	if i0 < 0 || i0 >= len(a) || !(dtS > 0) {
@@ -1153,35 +1225,47 @@ func onsetFit(a []AmplitudePoint, i0 int, dtS float64) (t0, stat, model float64)
 		j--
 	}
 	lo := max(0, j-onsetBaseFrames)
-	hi := i0
-	for hi+1 < len(a) && a[hi+1].A <= onsetRiseFraction {
-		hi++
-	}
-	hi = max(hi, min(len(a)-1, i0+onsetMinRise-1))
-	var pts []onsetPoint
 	from := 0.0
-	if lo == 0 {
-		pts = append(pts, onsetPoint{t: 0, a: 0}) // at rest at the stop
-	} else {
+	if lo > 0 {
 		from = a[lo].TAfterS
-	}
-	nb := len(pts) + j - lo // baseline points
-	for _, p := range a[lo : hi+1] {
-		pts = append(pts, onsetPoint{t: p.TAfterS, a: p.A})
 	}
 	to := a[i0].TAfterS
 	n := int(math.Ceil((to-from)/dtS*onsetSteps)) + 1
-	t0, stat = fitHinge(pts, from, to, n)
+	// fitTo fits the baseline and the rise up to the fraction rise of the
+	// final amplitude.
+	fitTo := func(rise float64, straight bool) (float64, float64) {
+		hi := i0
+		for hi+1 < len(a) && a[hi+1].A <= rise {
+			hi++
+		}
+		hi = max(hi, min(len(a)-1, i0+onsetMinRise-1))
+		var pts []onsetPoint
+		if lo == 0 {
+			pts = append(pts, onsetPoint{t: 0, a: 0}) // at rest at the stop
+		}
+		for _, p := range a[lo : hi+1] {
+			pts = append(pts, onsetPoint{t: p.TAfterS, a: p.A})
+		}
+		return fitHinge(pts, from, to, n, straight)
+	}
+	t0, stat = fitTo(onsetRiseFraction, false)
 	if math.IsNaN(t0) {
 		return nan, nan, nan
 	}
-	model = 0
-	if half := nb + max(onsetMinRise, (len(pts)-nb+1)/2); half < len(pts) {
-		if th, _ := fitHinge(slices.Clone(pts[:half]), from, to, n); !math.IsNaN(th) {
-			model = math.Abs(t0 - th)
-		}
+	// The model: how far the onset moves when the rise is fitted twice
+	// as high, and when it is fitted by a straight line instead (two
+	// shapes of the rise that the data do not tell apart near the onset; a
+	// codec that holds the first small motions back bends the rise the
+	// other way from a relaxation, so the straight line's onset, early for
+	// a relaxation, bounds it from the other side).
+	var dh, dl float64
+	if tc, _ := fitTo(onsetCheckFraction, false); !math.IsNaN(tc) {
+		dh = t0 - tc
 	}
-	return t0, stat, model
+	if tl, _ := fitTo(onsetRiseFraction, true); !math.IsNaN(tl) {
+		dl = t0 - tl
+	}
+	return t0, stat, math.Hypot(dh, dl)
 }
 
 // rss returns the root sum of squares of the components.

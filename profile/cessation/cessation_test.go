@@ -188,3 +188,36 @@ func TestOnsetFit(t *testing.T) {
 		t.Errorf("no amplitudes: onset %g, want NaN", o)
 	}
 }
+
+// TestOnsetCurvature checks that the onset of a noise-free relaxation,
+// 1 - exp(-(t - t0)/tau), is found where it starts: a straight line
+// through the rise up to onsetRiseFraction would put it tau X^2 / 12
+// early (X = 0.22; the least-squares line through x - x^2/2 on [0, X]),
+// 0.7 ms for tau = 0.2 s, which the quadratic of hinge takes out.
+func TestOnsetCurvature(t *testing.T) {
+	const (
+		dt = 0.005
+		// curvatureTolS is a tenth of the straight line's bias at tau =
+		// 0.2 s, and twice the trial grid (onsetSteps per frame).
+		curvatureTolS = 0.07e-3
+	)
+	for _, c := range []struct{ t0, tau float64 }{{0.1, 0.2}, {0.05, 0.15}, {0.1, 0.5}} {
+		var a []AmplitudePoint
+		i0 := -1
+		for k := 1; k <= 300; k++ {
+			ts := float64(k) * dt
+			v := 0.0
+			if ts > c.t0 {
+				v = -math.Expm1(-(ts - c.t0) / c.tau)
+			}
+			a = append(a, AmplitudePoint{TAfterS: ts, A: v})
+			if i0 < 0 && v > onsetSeenFraction {
+				i0 = len(a) - 1
+			}
+		}
+		got, _, _ := onsetFit(a, i0, dt)
+		if math.Abs(got-c.t0) > curvatureTolS {
+			t.Errorf("onset %g s, tau %g s: found at %.5f s", c.t0, c.tau, got)
+		}
+	}
+}
