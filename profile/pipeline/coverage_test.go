@@ -16,6 +16,8 @@ import (
 	"gaptrace/calib"
 	"gaptrace/calib/experiment"
 	"gaptrace/profile/cessation"
+	"gaptrace/profile/layers"
+	"gaptrace/profile/rheometry"
 	"gaptrace/profile/summary"
 	"gaptrace/track/synth"
 )
@@ -540,4 +542,82 @@ func TestCoverage(t *testing.T) {
 	}
 	checkAims(t, fmt.Sprintf("%d renders", len(coverageTestCases)), tab["all"], false)
 	t.Logf("coverage over %d renders:\n%s", len(coverageTestCases), tab)
+}
+
+// nearWallSlipCases are the slip renders of the sweep (scenario slip: 15 %
+// of the wall speed at the stationary wall, 25 % at the moving one) on
+// which TestSlipNearestLayer checks the slips: MJPEG with 0.2 px of
+// jitter, H.264 at CRF 23, FFV1 with 0.2 px of jitter.
+var nearWallSlipCases = []int{1, 13, 19}
+
+// slipWallFrac is issue 14's bound on the error of the slip velocity at
+// each wall: 0.5 % of the wall speed.
+const slipWallFrac = 0.005
+
+// withoutWallLayers returns bins with the layer nearest each wall (the
+// first and the last that have a value) left out, as rheometry.Decompose
+// leaves out a layer without a value.
+func withoutWallLayers(bins []layers.Bin) []layers.Bin {
+	out := slices.Clone(bins)
+	first, last := -1, -1
+	for i, b := range out {
+		if b.Known() {
+			if first < 0 {
+				first = i
+			}
+			last = i
+		}
+	}
+	for _, i := range []int{first, last} {
+		if i >= 0 {
+			out[i].Value, out[i].Err = math.NaN(), math.NaN()
+		}
+	}
+	return out
+}
+
+// TestSlipNearestLayer checks issue 14's must-show on rendered slip
+// scenarios: the slip velocity at each wall within slipWallFrac of the wall
+// speed of synth's truth, from the whole profile and with the layer
+// nearest each wall left out, which shows what the tracers next to the
+// walls add to the extrapolation.
+func TestSlipNearestLayer(t *testing.T) {
+	sweep := coverageSweep(42)
+	for _, i := range nearWallSlipCases {
+		c := sweep[i]
+		t.Run(c.name, func(t *testing.T) {
+			tc := trackCase(t, c)
+			a, err := Analyze(context.Background(), Config{Experiment: tc.Exp, Seed: uint64(c.seed)}, tc.Tracked)
+			if err != nil {
+				t.Fatal(err)
+			}
+			if len(a.Profile.Shear) == 0 || len(tc.Truth.Summary.ShearPhases) == 0 {
+				t.Fatalf("no shear phase analysed")
+			}
+			sh, tp := a.Profile.Shear[0], tc.Truth.Summary.ShearPhases[0]
+			v := float64(tp.WallSpeedUMPerS)
+			for i, b := range sh.Steady.Bins {
+				if b.Known() && !withoutWallLayers(sh.Steady.Bins)[i].Known() {
+					t.Logf("layer nearest a wall: %.1f-%.1f um, %.2f ± %.2f um/s at %.1f um, %d samples of %d tracks", b.FromUM, b.ToUM, b.Value, b.Err, b.YUM, b.N, b.Groups)
+				}
+			}
+			for _, fit := range []struct {
+				name string
+				bins []layers.Bin
+			}{{"all layers", sh.Steady.Bins}, {"without the layer nearest each wall", withoutWallLayers(sh.Steady.Bins)}} {
+				d, err := rheometry.Decompose(fit.bins, tc.Exp.Geometry, v, rheometry.Options{})
+				if err != nil {
+					t.Fatalf("%s: %v", fit.name, err)
+				}
+				es := (d.SlipStationaryUMPerS - float64(tp.SlipStationaryUMPerS)) / math.Abs(v)
+				em := (d.SlipMovingUMPerS - float64(tp.SlipMovingUMPerS)) / math.Abs(v)
+				t.Logf("%s: slip %.2f um/s at the stationary wall (truth %.2f, error %+.3f %% of V), %.2f um/s at the moving wall (truth %.2f, error %+.3f %% of V)",
+					fit.name, d.SlipStationaryUMPerS, float64(tp.SlipStationaryUMPerS), 100*es, d.SlipMovingUMPerS, float64(tp.SlipMovingUMPerS), 100*em)
+				if !(math.Abs(es) <= slipWallFrac) || !(math.Abs(em) <= slipWallFrac) {
+					t.Errorf("%s: slip errors %+.3f %% and %+.3f %% of the wall speed %.4g um/s, issue 14 asks at most %.1f %%",
+						fit.name, 100*es, 100*em, v, 100*slipWallFrac)
+				}
+			}
+		})
+	}
 }
