@@ -30,6 +30,11 @@ const (
 	// point for one degree of freedom, 10.83 (Abramowitz & Stegun 1964,
 	// table 26.8; from memory).
 	splitStreakChi2 = 10.83
+	// splitStartMaxPx bounds the half-separation the fits start from, px:
+	// the deconvolved moments of an elongated spot grow without bound as
+	// its light fills the weight's, and a pair more than 4 px apart has
+	// two maxima of its own.
+	splitStartMaxPx = 2
 	// splitConvergedPx ends a fit's iterations: a hundredth of a pixel
 	// decides between the models, refine places the spots finer.
 	splitConvergedPx = 0.01
@@ -86,14 +91,16 @@ func (d *Detector) splitPairs(p *pixels, noise float64) bool {
 		// a pixel and a half of the candidate, and half the pixels halve
 		// the cost of the fits.
 		R := d.wr
-		if c.x-R < 0 || c.x+R >= p.w || c.y-R < 0 || c.y+R >= p.h {
+		// The window about the refined centre, the middle of the pair.
+		x0, y0 := int(math.Round(c.det.XPx)), int(math.Round(c.det.YPx))
+		if x0-R < 0 || x0+R >= p.w || y0-R < 0 || y0+R >= p.h {
 			continue
 		}
-		wall := p.bands != nil && d.nearWall(c.x, c.y)
+		wall := p.bands != nil && d.nearWall(x0, y0)
 		if wall && slices.Contains(p.cutPlate, true) {
 			continue
 		}
-		p.window(d.win, c.x, c.y, R, wall)
+		p.window(d.win, x0, y0, R, wall)
 		d.models = d.models[:0]
 		for _, j := range d.nbList[d.nbStart[k]:d.nbStart[k+1]] {
 			if o := &d.cands[j]; o.ma > 0 {
@@ -101,13 +108,13 @@ func (d *Detector) splitPairs(p *pixels, noise float64) bool {
 			}
 		}
 		if len(d.models) > 0 {
-			d.subtractModels(c.x, c.y, R, d.models)
+			d.subtractModels(x0, y0, R, d.models)
 		}
 		// The initial pair: the moments' long axis through the refined
 		// centre, the spots where two equal ones give its excess variance.
-		h := math.Sqrt(c.shape.longVar - c.shape.shortVar)
+		h := min(math.Sqrt(c.shape.longVar-c.shape.shortVar), splitStartMaxPx)
 		ux, uy := math.Cos(c.shape.axisRad), math.Sin(c.shape.axisRad)
-		cx, cy := c.det.XPx-float64(c.x), c.det.YPx-float64(c.y)
+		cx, cy := c.det.XPx-float64(x0), c.det.YPx-float64(y0)
 		two := d.fitModel(R, [7]float64{c.det.SNR / 2, cx - h*ux, cy - h*uy, c.det.SNR / 2, cx + h*ux, cy + h*uy}, 2, false)
 		if !two.ok || math.Hypot(two.p[4]-two.p[1], two.p[5]-two.p[2]) < splitMinPx {
 			continue
@@ -123,7 +130,7 @@ func (d *Detector) splitPairs(p *pixels, noise float64) bool {
 		// divides it: the density's peak, as refine's.
 		s1, s2 := a1/tScale, a2/tScale
 		if s1 < d.opt.MinSNR*noise || s2 < d.opt.MinSNR*noise || math.Hypot(x2-x1, y2-y1) < splitMinPx ||
-			math.Max(math.Abs(x1), math.Abs(y1)) > maxShiftPx+1 || math.Max(math.Abs(x2), math.Abs(y2)) > maxShiftPx+1 {
+			math.Max(math.Abs(x1), math.Abs(y1)) > float64(R-1) || math.Max(math.Abs(x2), math.Abs(y2)) > float64(R-1) {
 			continue
 		}
 		// Two spots leave a dip between them; a streak or a wide blob
@@ -134,7 +141,7 @@ func (d *Detector) splitPairs(p *pixels, noise float64) bool {
 		// Two spots D apart add D^2/4 to the long axis's variance, a
 		// streak of length L adds L^2/12 but is fitted by two spots
 		// closer than L/sqrt(3).
-		l3 := math.Sqrt(12*(c.shape.longVar-c.shape.shortVar)) / 3
+		l3 := min(math.Sqrt(12*(c.shape.longVar-c.shape.shortVar))/3, splitStartMaxPx)
 		st := d.fitModel(R, [7]float64{c.det.SNR / 3, cx, cy, l3 * ux, l3 * uy}, 0, true)
 		if st.ok && st.sse-two.sse < splitStreakChi2*noise*noise {
 			continue
@@ -143,10 +150,10 @@ func (d *Detector) splitPairs(p *pixels, noise float64) bool {
 		size := math.Sqrt(2 * spotVar(d.sigma))
 		b := c.det.Brightness
 		second := c.det
-		c.det.XPx, c.det.YPx, c.det.SNR = float64(c.x)+x1, float64(c.y)+y1, s1
+		c.det.XPx, c.det.YPx, c.det.SNR = float64(x0)+x1, float64(y0)+y1, s1
 		c.det.Brightness, c.det.SizePx, c.det.Eccentricity = b*a1/(a1+a2), size, 0
 		c.shape = round
-		second.XPx, second.YPx, second.SNR = float64(c.x)+x2, float64(c.y)+y2, s2
+		second.XPx, second.YPx, second.SNR = float64(x0)+x2, float64(y0)+y2, s2
 		second.Brightness, second.SizePx, second.Eccentricity = b*a2/(a1+a2), size, 0
 		d.cands = append(d.cands, candidate{x: int(math.Round(second.XPx)), y: int(math.Round(second.YPx)), det: second, shape: round, ok: true})
 		split = true
