@@ -154,7 +154,10 @@ func (a *Analysis) buildSummary(cfg Config) *summary.Summary {
 	}
 	s.Input = summary.Input{Path: t.Input, Frames: t.Info.Frames, FPS: fps, WidthPx: t.Info.WidthPx, HeightPx: t.Info.HeightPx}
 	if g := t.Info.Grey; g != nil {
-		s.Input.Grey = &summary.Grey{Method: g.Method, WeightsBGR: g.WeightsBGR, LumaCNRFraction: g.LumaFraction}
+		s.Input.Grey = &summary.Grey{Method: g.Method, WeightsBGR: g.WeightsBGR}
+		if g.Measured {
+			s.Input.Grey.LumaCNRFraction = &g.LumaFraction
+		}
 	}
 	s.Calibration = t.Calibration
 	n, tr, med := t.Tracks.Count()

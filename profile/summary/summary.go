@@ -71,8 +71,10 @@ type Grey struct {
 	Method     string     `json:"method"`
 	WeightsBGR [3]float64 `json:"weights_bgr"`
 	// LumaCNRFraction is the tracers' contrast-to-noise ratio in luma as
-	// a fraction of the best weighting's, on the first frames.
-	LumaCNRFraction float64 `json:"luma_cnr_fraction"`
+	// a fraction of the best weighting's, on the first frames; null when
+	// luma was kept unmeasured, for a codec that stores the colour at a
+	// lower resolution than luma.
+	LumaCNRFraction *float64 `json:"luma_cnr_fraction"`
 }
 
 // Tracking counts what the linker produced.

@@ -143,8 +143,10 @@ func median(v []float64) float64 {
 }
 
 // TestOpenColourVideo writes a three-chip camera's recording under red
-// light (track/synth's colour-red: the weighting wins) and a grey one as
-// Motion JPEG and FFV1, opens each with frames.Open and checks the
+// light (track/synth's colour-red: the weighting wins on full-resolution
+// colour) as Motion JPEG (whose colour OpenCV's writer subsamples: luma is
+// kept unmeasured) and FFV1, and a grey one as Motion JPEG, opens each with
+// frames.Open and checks the
 // reduction recorded in Info.Grey and the frames delivered: every pixel
 // of a weighted frame is the weighted sum, rounded, of the channels OpenCV
 // decodes from the same frame (its FFmpeg reader, or for Motion JPEG its
@@ -153,10 +155,12 @@ func median(v []float64) float64 {
 func TestOpenColourVideo(t *testing.T) {
 	for _, tc := range []struct {
 		scenario, format, method string
+		measured                 bool
 	}{
-		{"colour-red", synth.FormatMJPEG, frames.GreyWeighted},
-		{"colour-red", synth.FormatFFV1, frames.GreyWeighted},
-		{"homogeneous", synth.FormatMJPEG, frames.GreyLuma},
+		// OpenCV's Motion JPEG subsamples the colour: luma, unmeasured.
+		{"colour-red", synth.FormatMJPEG, frames.GreyLuma, false},
+		{"colour-red", synth.FormatFFV1, frames.GreyWeighted, true},
+		{"homogeneous", synth.FormatMJPEG, frames.GreyLuma, false},
 	} {
 		t.Run(tc.scenario+" "+tc.format, func(t *testing.T) {
 			s, err := synth.Builtin(tc.scenario, 3)
@@ -176,8 +180,8 @@ func TestOpenColourVideo(t *testing.T) {
 			}
 			defer src.Close()
 			g := src.Info().Grey
-			if g == nil || g.Method != tc.method {
-				t.Fatalf("Info.Grey %+v, want method %s", g, tc.method)
+			if g == nil || g.Method != tc.method || g.Measured != tc.measured {
+				t.Fatalf("Info.Grey %+v, want method %s, measured %v", g, tc.method, tc.measured)
 			}
 			got := gocv.NewMat()
 			defer got.Close()

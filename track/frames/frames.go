@@ -22,6 +22,7 @@ import (
 	"math"
 	"os"
 	"path/filepath"
+	"slices"
 	"sort"
 	"strings"
 
@@ -655,6 +656,9 @@ func videoGrey(path string) (Grey, error) {
 		return Grey{}, fmt.Errorf("frames: %s: cannot open as a video", path)
 	}
 	defer c.Close()
+	if fcc := fourCC(c.Get(gocv.VideoCaptureFOURCC)); !slices.Contains(fullColourCodecs, fcc) {
+		return unmeasuredLuma, nil
+	}
 	m, m2 := gocv.NewMat(), gocv.NewMat()
 	defer m.Close()
 	defer m2.Close()
@@ -662,7 +666,7 @@ func videoGrey(path string) (Grey, error) {
 		return Grey{}, fmt.Errorf("frames: %s: the first frame cannot be read", path)
 	}
 	if m.Type() != gocv.MatTypeCV8UC3 {
-		return Grey{Method: GreyLuma, WeightsBGR: lumaBGR, LumaFraction: 1}, nil
+		return Grey{Method: GreyLuma, WeightsBGR: lumaBGR, LumaFraction: 1, Measured: true}, nil
 	}
 	if !c.Read(&m2) || m2.Type() != m.Type() {
 		m2.Close()
@@ -675,6 +679,9 @@ func videoGrey(path string) (Grey, error) {
 // first frame, first (decoded in colour), and the second, read from c
 // into raw.
 func packetsGrey(c *gocv.VideoCapture, raw *gocv.Mat, first gocv.Mat) (Grey, error) {
+	if b, err := raw.DataPtrUint8(); err != nil || jpegSubsampled(b) {
+		return unmeasuredLuma, nil
+	}
 	second := gocv.NewMat()
 	defer second.Close()
 	if c.Read(raw) {
