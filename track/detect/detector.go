@@ -150,8 +150,6 @@ type Detector struct {
 	models                []spotModel
 	valid                 []bool
 	mdx, mdy              []float64
-	// fitGX and fitGY are splitPairs' spot profiles, per spot.
-	fitGX, fitGY [3][]float64
 
 	// bands are the rows next to the walls processed with the walls'
 	// profile subtracted, for frames of bandsW x bandsH.
@@ -405,7 +403,6 @@ func (d *Detector) Frame(img gocv.Mat, frame int, out []Detection) ([]Detection,
 		noise = n
 	}
 	d.refineAll(&px, gain)
-	d.splitPairs(&px, noise)
 	if out == nil {
 		out = make([]Detection, 0, len(d.cands)) // one allocation, not a dozen
 	}
