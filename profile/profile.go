@@ -478,6 +478,19 @@ func Analyze(ctx context.Context, src tracks.Source, e *experiment.Experiment, c
 				u.Name, u.T0S, u.T1S, k+1, steps[k].StartS, steps[k].EndS))
 		}
 	}
+	// The shift the tracks share, measured over each whole phase, which
+	// holds more of a slow wander of the camera's correction than a
+	// window of it (velocity.MeasureShift).
+	wholeShift := make([]*velocity.Shift, len(steps))
+	for k, st := range steps {
+		wd, err := rheometry.Decompose(wholes[k].Bins, geom, st.WallSpeedUMPerS, rheometry.Options{})
+		if err != nil {
+			continue
+		}
+		if sh, ok := velocity.MeasureShift(wholeAcc[k].samples(), wholes[k].T0S, wholes[k].T1S, dt, func(y float64) float64 { v, _ := wd.FitAt(y); return v }); ok {
+			wholeShift[k] = &sh
+		}
+	}
 	n := 0
 	for k, st := range steps {
 		n++
@@ -544,7 +557,7 @@ func Analyze(ctx context.Context, src tracks.Source, e *experiment.Experiment, c
 				sh.Decomposition = d
 				shared := sharedErrors(c, gap)
 				shared.VelocityRel = o.VelocityRel
-				shared.CommonUMPerS = velocity.CommonOffsetErr(winSamples[wi], steady.T0S, steady.T1S, dt, func(y float64) float64 { v, _ := d.FitAt(y); return v })
+				shared.CommonUMPerS = commonOffsetErr(winSamples[wi], steady, wholeShift[k], dt, d)
 				if math.IsNaN(shared.CommonUMPerS) {
 					shared.CommonUMPerS = 0
 					r.Warnings = append(r.Warnings, fmt.Sprintf("%s: too few tracers to measure the motion they share; the budget leaves it out", label))
@@ -617,6 +630,22 @@ const windowEdgeTol = 1e-9
 // rate, stated or read from the video: camera clocks are quartz-timed to
 // better than 1e-4 (common practice).
 const FrameRateRel = 1e-4
+
+// commonOffsetErr returns the standard uncertainty of the velocity offset
+// the tracers of window w (its samples ss, its decomposition d) share: the
+// shift measured on the window itself or, when larger, on its whole phase
+// (whole, nil when not measured), carried to the window's mean velocity;
+// NaN when neither is measured.
+func commonOffsetErr(ss []velocity.Sample, w *WindowProfile, whole *velocity.Shift, dt float64, d *rheometry.Decomposition) float64 {
+	sh, ok := velocity.MeasureShift(ss, w.T0S, w.T1S, dt, func(y float64) float64 { v, _ := d.FitAt(y); return v })
+	if whole != nil && (!ok || whole.VarUM2 > sh.VarUM2) {
+		sh, ok = *whole, true
+	}
+	if !ok {
+		return math.NaN()
+	}
+	return sh.OffsetErr(ss, w.T0S, w.T1S, dt)
+}
 
 // sharedErrors returns the shared errors of the calibration c for a gap
 // of gapUM: unknown wall errors (walls given by hand) count as exact.

@@ -444,8 +444,24 @@ const minStepPoints = 5
 // is no more than the tracers' own scatter; NaN with too few frames or
 // tracks.
 func CommonOffsetErr(ss []Sample, t0S, t1S, dtS float64, fit func(yUM float64) float64) float64 {
-	if !(t1S > t0S) || !(dtS > 0) {
+	sh, ok := MeasureShift(ss, t0S, t1S, dtS, fit)
+	if !ok {
 		return math.NaN()
+	}
+	return sh.OffsetErr(ss, t0S, t1S, dtS)
+}
+
+// Shift is the shift that every track of a frame shares, as a stationary
+// sequence: its variance, um^2, and its correlation from one frame to the
+// next (see CommonOffsetErr).
+type Shift struct{ VarUM2, Rho float64 }
+
+// MeasureShift measures the shift the tracks of the samples ss (of one
+// window, from t0S to t1S, frames dtS apart) share, as CommonOffsetErr
+// does; false with too few frames or tracks.
+func MeasureShift(ss []Sample, t0S, t1S, dtS float64, fit func(yUM float64) float64) (Shift, bool) {
+	if !(t1S > t0S) || !(dtS > 0) {
+		return Shift{}, false
 	}
 	// The frames run from the earliest sample's start to the latest's
 	// end: a sample is in the window by its midpoint.
@@ -461,7 +477,6 @@ func CommonOffsetErr(ss []Sample, t0S, t1S, dtS float64, fit func(yUM float64) f
 		r float64
 	}
 	byTrack := map[int][]end{}
-	a := make([]float64, nf)
 	n := 0
 	for _, s := range ss {
 		if s.TS < t0S || s.TS >= t1S {
@@ -477,12 +492,10 @@ func CommonOffsetErr(ss []Sample, t0S, t1S, dtS float64, fit func(yUM float64) f
 		ra := s.XUM - s.VXUMPerS*h - v*(s.TS-h-t0S)
 		rb := s.XUM + s.VXUMPerS*h - v*(s.TS+h-t0S)
 		byTrack[s.Track] = append(byTrack[s.Track], end{fa, ra}, end{fb, rb})
-		a[fb] += 1 / (2 * h)
-		a[fa] -= 1 / (2 * h)
 		n++
 	}
 	if n == 0 {
-		return math.NaN()
+		return Shift{}, false
 	}
 	perFrame := make([][]float64, nf)
 	seen := map[int]bool{}
@@ -524,7 +537,7 @@ func CommonOffsetErr(ss []Sample, t0S, t1S, dtS float64, fit func(yUM float64) f
 		m++
 	}
 	if m < minShiftFrames {
-		return math.NaN()
+		return Shift{}, false
 	}
 	mean /= float64(m)
 	var ss2, c1 float64
@@ -541,7 +554,7 @@ func CommonOffsetErr(ss []Sample, t0S, t1S, dtS float64, fit func(yUM float64) f
 	}
 	variance := ss2/float64(m-1) - own/float64(m)
 	if !(variance > 0) {
-		return 0
+		return Shift{}, true
 	}
 	// The localization noise is independent from frame to frame, so the
 	// covariance at one frame is J's alone.
@@ -549,6 +562,39 @@ func CommonOffsetErr(ss []Sample, t0S, t1S, dtS float64, fit func(yUM float64) f
 	if pairs > 0 {
 		rho = math.Max(0, math.Min(maxShiftRho, c1/float64(pairs)/variance))
 	}
+	return Shift{VarUM2: variance, Rho: rho}, true
+}
+
+// OffsetErr returns the standard uncertainty, um/s, that the shift sh
+// gives the mean velocity of the samples ss of the window from t0S to t1S,
+// frames dtS apart: u^2 = sum_f sum_g a_f a_g var rho^|f-g| over the
+// samples' ends (CommonOffsetErr); NaN without samples.
+func (sh Shift) OffsetErr(ss []Sample, t0S, t1S, dtS float64) float64 {
+	if !(t1S > t0S) || !(dtS > 0) {
+		return math.NaN()
+	}
+	lo, hi := t0S, t1S
+	for _, s := range ss {
+		h := float64(s.Lag) * dtS / 2
+		lo, hi = math.Min(lo, s.TS-h), math.Max(hi, s.TS+h)
+	}
+	nf := int(math.Round((hi-lo)/dtS)) + 1
+	a := make([]float64, nf)
+	n := 0
+	for _, s := range ss {
+		h := float64(s.Lag) * dtS / 2
+		fa, fb := int(math.Round((s.TS-h-lo)/dtS)), int(math.Round((s.TS+h-lo)/dtS))
+		if s.TS < t0S || s.TS >= t1S || !(h > 0) || fa < 0 || fb >= nf || fa == fb {
+			continue
+		}
+		a[fb] += 1 / (2 * h)
+		a[fa] -= 1 / (2 * h)
+		n++
+	}
+	if n == 0 {
+		return math.NaN()
+	}
+	rho, variance := sh.Rho, sh.VarUM2
 	reach := nf
 	if rho > 0 {
 		reach = min(nf, int(math.Ceil(math.Log(shiftRhoCutoff)/math.Log(rho))))
