@@ -344,6 +344,14 @@ func BenchmarkAnalyzeMemory(b *testing.B) {
 // timing of the transient samples of one track.
 const maxMemoryGrowth = 1.2
 
+// memoryRepeats is how many times TestAnalyzeMemoryBounded measures each
+// length, keeping the smallest peak. The error of one measurement is one
+// way only: objects allocated while the collector marks count as live
+// until the next cycle, and a loaded machine stretches the marking (one
+// run at 1.29 against 1.17 alone, stop 22), so the least of a few runs is
+// the closest to the true peak.
+const memoryRepeats = 2
+
 // TestAnalyzeMemoryBounded checks that Analyze's peak live heap does not
 // grow with the length of the observation after the stop (1 500 against
 // 12 000 frames of 450 tracers).
@@ -351,15 +359,19 @@ func TestAnalyzeMemoryBounded(t *testing.T) {
 	var peaks []float64
 	for _, frames := range []int{1500, 12000} {
 		g, s := benchShear(t, frames)
-		peaks = append(peaks, float64(peakLive(func() {
-			r, err := Analyze(context.Background(), g, s.Experiment(), s.Calibration(), Options{Seed: 1})
-			if err != nil {
-				t.Fatal(err)
-			}
-			if r.AfterStop == nil || len(r.ShearPhases) != 1 || math.IsNaN(float64(r.ShearPhases[0].BulkRatePerS)) {
-				t.Fatalf("%d frames: no shear phase or no after-stop analysis", frames)
-			}
-		})))
+		peak := math.Inf(1)
+		for range memoryRepeats {
+			peak = min(peak, float64(peakLive(func() {
+				r, err := Analyze(context.Background(), g, s.Experiment(), s.Calibration(), Options{Seed: 1})
+				if err != nil {
+					t.Fatal(err)
+				}
+				if r.AfterStop == nil || len(r.ShearPhases) != 1 || math.IsNaN(float64(r.ShearPhases[0].BulkRatePerS)) {
+					t.Fatalf("%d frames: no shear phase or no after-stop analysis", frames)
+				}
+			})))
+		}
+		peaks = append(peaks, peak)
 	}
 	t.Logf("peak live heap: %.1f MiB at 1500 frames, %.1f MiB at 12000", peaks[0]/(1<<20), peaks[1]/(1<<20))
 	if peaks[1] > maxMemoryGrowth*peaks[0] {
