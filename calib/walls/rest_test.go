@@ -44,21 +44,10 @@ func TestFindTracersAtRest(t *testing.T) {
 			if err != nil {
 				t.Fatal(err)
 			}
-			truth := s.Calibration()
-			top, bot := truth.StationaryWallPx, truth.MovingWallPx
-			if top[0][1] > bot[0][1] {
-				top, bot = bot, top
-			}
-			for k, want := range []struct {
-				got walls.Line
-				l   [2][2]float64
-			}{{r.Top.Line, top}, {r.Bottom.Line, bot}} {
-				for _, p := range want.l {
-					d := want.got.YAt(p[0]) - p[1]
-					t.Logf("wall %d at x=%g: y off by %+.3f px", k, p[0], d)
-					if d < -restLinePx || d > restLinePx {
-						t.Errorf("wall %d at x=%g: y off by %+.3f px, limit %g", k, p[0], d, restLinePx)
-					}
+			for _, e := range lineErrors(r, s) {
+				t.Logf("wall %d at x=%g: y off by %+.3f px", e.wall, e.xPx, e.dyPx)
+				if e.dyPx < -restLinePx || e.dyPx > restLinePx {
+					t.Errorf("wall %d at x=%g: y off by %+.3f px, limit %g", e.wall, e.xPx, e.dyPx, restLinePx)
 				}
 			}
 		})

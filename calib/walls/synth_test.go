@@ -84,30 +84,47 @@ func TestFindOnSynth(t *testing.T) {
 			if err != nil {
 				t.Fatal(err)
 			}
-			truth := s.Calibration()
-			top, bot := truth.StationaryWallPx, truth.MovingWallPx
-			if top[0][1] > bot[0][1] {
-				top, bot = bot, top
-			}
-			for k, want := range []struct {
-				got walls.Line
-				l   [2][2]float64
-			}{{r.Top.Line, top}, {r.Bottom.Line, bot}} {
-				for _, p := range want.l {
-					d := want.got.YAt(p[0]) - p[1]
-					worstLine = math.Max(worstLine, math.Abs(d))
-					if math.Abs(d) > acceptance.WallLinePx {
-						t.Errorf("wall %d at x=%g: y off by %.3f px", k, p[0], d)
-					}
+			errs := lineErrors(r, s)
+			for _, e := range errs {
+				worstLine = math.Max(worstLine, math.Abs(e.dyPx))
+				if math.Abs(e.dyPx) > acceptance.WallLinePx {
+					t.Errorf("wall %d at x=%g: y off by %.3f px", e.wall, e.xPx, e.dyPx)
 				}
 			}
 			if d := r.TiltDeg - c.tiltDeg; math.Abs(d) > acceptance.TiltDeg {
 				t.Errorf("tilt %.4f deg, want %g", r.TiltDeg, c.tiltDeg)
 			}
 			worstTilt = math.Max(worstTilt, math.Abs(r.TiltDeg-c.tiltDeg))
-			t.Logf("jitter %g: walls off by %+.3f, %+.3f px at x=0, gap %.3f px (truth %.3f), tilt %.4f, reflection %v/%v", c.jitterPx,
-				r.Top.YAt(0)-top[0][1], r.Bottom.YAt(0)-bot[0][1], r.GapPx, truth.GapPx, r.TiltDeg, r.Top.Reflection, r.Bottom.Reflection)
+			t.Logf("jitter %g: walls off by %+.3f, %+.3f px at the first end, gap %.3f px (truth %.3f), tilt %.4f, reflection %v/%v", c.jitterPx,
+				errs[0].dyPx, errs[2].dyPx, r.GapPx, s.Calibration().GapPx, r.TiltDeg, r.Top.Reflection, r.Bottom.Reflection)
 		})
 	}
 	t.Logf("worst wall error %.3f px (limit %g), worst tilt error %.4f deg (limit %g)", worstLine, acceptance.WallLinePx, worstTilt, acceptance.TiltDeg)
+}
+
+// lineError is a fitted wall line's error at one end of the renderer's
+// true line: wall 0 is the upper wall in the image, 1 the lower.
+type lineError struct {
+	wall      int
+	xPx, dyPx float64 // where along the row, and fitted y minus true y
+}
+
+// lineErrors compares r's two lines with the walls s renders, at both ends
+// of each true line.
+func lineErrors(r *walls.Result, s *synth.Scenario) []lineError {
+	truth := s.Calibration()
+	top, bot := truth.StationaryWallPx, truth.MovingWallPx
+	if top[0][1] > bot[0][1] {
+		top, bot = bot, top
+	}
+	var out []lineError
+	for k, want := range []struct {
+		got walls.Line
+		l   [2][2]float64
+	}{{r.Top.Line, top}, {r.Bottom.Line, bot}} {
+		for _, p := range want.l {
+			out = append(out, lineError{wall: k, xPx: p[0], dyPx: want.got.YAt(p[0]) - p[1]})
+		}
+	}
+	return out
 }

@@ -18,19 +18,29 @@ import (
 // configuration for it.
 func rendered(t *testing.T, name string) Config {
 	t.Helper()
-	dir := t.TempDir()
 	sc, err := synth.Builtin(name, 3)
 	if err != nil {
 		t.Fatal(err)
 	}
-	if _, err := sc.Write(dir, synth.Output{Format: synth.FormatMJPEG}); err != nil {
+	cfg, _ := render(t, sc, synth.Output{Format: synth.FormatMJPEG})
+	return cfg
+}
+
+// render writes sc in a temporary folder as out asks and returns the
+// pipeline's configuration for the recording (its experiment file, folder
+// and video) and the renderer's truth.
+func render(t *testing.T, sc *synth.Scenario, out synth.Output) (Config, *synth.Truth) {
+	t.Helper()
+	dir := t.TempDir()
+	truth, err := sc.Write(dir, out)
+	if err != nil {
 		t.Fatal(err)
 	}
 	exp, err := experiment.Load(filepath.Join(dir, synth.ExperimentFile))
 	if err != nil {
 		t.Fatal(err)
 	}
-	return Config{Experiment: exp, ExperimentDir: dir, Input: filepath.Join(dir, "video.avi")}
+	return Config{Experiment: exp, ExperimentDir: dir, Input: truth.Summary.Input.Path}, truth
 }
 
 // TestCancel checks that a cancelled context stops each stage with the
@@ -114,20 +124,13 @@ func TestStartUpOnsetThroughCodecs(t *testing.T) {
 					t.Skip("ffmpeg is not on PATH (cmd/scripts/deps.sh --test installs it)")
 				}
 			}
-			dir := t.TempDir()
 			sc, err := synth.Builtin("startup-bands", 4)
 			if err != nil {
 				t.Fatal(err)
 			}
-			truth, err := sc.Write(dir, out)
-			if err != nil {
-				t.Fatal(err)
-			}
-			exp, err := experiment.Load(filepath.Join(dir, synth.ExperimentFile))
-			if err != nil {
-				t.Fatal(err)
-			}
-			a, err := Run(context.Background(), Config{Experiment: exp, ExperimentDir: dir, Input: truth.Summary.Input.Path, EveryS: 0.2, Seed: 4})
+			cfg, _ := render(t, sc, out)
+			cfg.EveryS, cfg.Seed = 0.2, 4
+			a, err := Run(context.Background(), cfg)
 			if err != nil {
 				t.Fatal(err)
 			}

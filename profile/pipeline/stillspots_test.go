@@ -5,11 +5,9 @@ import (
 	"context"
 	"fmt"
 	"math"
-	"path/filepath"
 	"strings"
 	"testing"
 
-	"gaptrace/calib/experiment"
 	"gaptrace/track/synth"
 	"gaptrace/track/tracks"
 )
@@ -38,20 +36,12 @@ const (
 // velocities and the bulk rate lie no farther from the truth than with the
 // spots kept.
 func TestStillSpotsDust(t *testing.T) {
-	dir := t.TempDir()
 	sc, err := synth.Builtin("dust", 7)
 	if err != nil {
 		t.Fatal(err)
 	}
-	truth, err := sc.Write(dir, synth.Output{Format: synth.FormatMJPEG})
-	if err != nil {
-		t.Fatal(err)
-	}
-	exp, err := experiment.Load(filepath.Join(dir, synth.ExperimentFile))
-	if err != nil {
-		t.Fatal(err)
-	}
-	cfg := Config{Experiment: exp, ExperimentDir: dir, Input: filepath.Join(dir, "video.avi"), Seed: 7}
+	cfg, truth := render(t, sc, synth.Output{Format: synth.FormatMJPEG})
+	cfg.Seed = 7
 	ctx := context.Background()
 	rec, err := Open(ctx, cfg)
 	if err != nil {
