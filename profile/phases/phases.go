@@ -112,8 +112,12 @@ func Reconcile(program, detected []Phase, fps float64) ([]Phase, []string) {
 		name = "rheometer log"
 	}
 	ps, ds := shears(program), shears(detected)
-	if len(detected) > 0 && len(ps) != len(ds) {
-		warn = append(warn, fmt.Sprintf("phases: the %s has %d shear phases, the video shows %d", name, len(ps), len(ds)))
+	switch {
+	case len(detected) > 0 && len(ds) == 0:
+		warn = append(warn, fmt.Sprintf("phases: the moving wall's motion in the video stands too little above its noise to check the %s's %s against; the %s's times are used",
+			name, plural(len(ps), "shear phase"), name))
+	case len(detected) > 0 && len(ps) != len(ds):
+		warn = append(warn, fmt.Sprintf("phases: the %s has %s, the video shows %d", name, plural(len(ps), "shear phase"), len(ds)))
 	}
 	tol := MaxDisagreeFrames / fps
 	for i := 0; i < min(len(ps), len(ds)); i++ {
@@ -217,4 +221,12 @@ func (d Disagreement) Advice() string {
 	return fmt.Sprintf("the phase %s at %.4g s in the experiment file's motion program but at %.4g s in the video (%+.1f frames): the program's time is used, but a program gives the planned times and the video the measured ones; "+
 		"trust the video, and correct the motion's start_s and end_s (or give the rheometer's log with --log)",
 		d.What, d.ProgramS, d.DetectedS, d.DiffFrames)
+}
+
+// plural is n and the noun, with an s when n is not 1.
+func plural(n int, noun string) string {
+	if n == 1 {
+		return "1 " + noun
+	}
+	return fmt.Sprintf("%d %ss", n, noun)
 }

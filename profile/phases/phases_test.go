@@ -152,6 +152,14 @@ func TestReconcile(t *testing.T) {
 	if ph, w := phases.Reconcile(nil, det(0.5, 2), fps); len(w) != 0 || ph[1].Source != "detected" {
 		t.Errorf("no program: %+v %q", ph, w)
 	}
+	still := []phases.Phase{{Kind: phases.Rest, StartS: 0, EndS: 3, Source: "detected"}}
+	if ph, w := phases.Reconcile(prog, still, fps); len(w) != 1 || !strings.Contains(w[0], "too little above its noise to check the motion program's 1 shear phase against") || ph[1].StartS != 0.5 {
+		t.Errorf("no motion seen: %+v %q", ph, w)
+	}
+	two := append(det(0.5, 1), phases.Phase{Kind: phases.Shear, StartS: 1.5, EndS: 2, Source: "detected"})
+	if _, w := phases.Reconcile(prog, two, fps); len(w) == 0 || !strings.Contains(w[0], "has 1 shear phase, the video shows 2") {
+		t.Errorf("two shear phases seen: %q", w)
+	}
 }
 
 // oneFrame is the acceptance limit of issue 4 for detected phases.
