@@ -84,6 +84,10 @@ func TestVerdict(t *testing.T) {
 		{"slip at the stationary wall", Picture{GapUM: 800, OffsetUM: 24, OffsetErrUM: 0.05, Slope: -0.03, SlopeErr: 1e-4}, true, ModeWall, WallStationary},
 		{"slip at the moving wall", Picture{GapUM: 800, OffsetUM: 0, OffsetErrUM: 0.05, Slope: -0.03, SlopeErr: 1e-4}, true, ModeWall, WallMoving},
 		{"plane", Picture{GapUM: 800, Interior: true, JumpUM: 40, JumpErrUM: 0.1, PlaneUM: 480, Slope: -0.05}, true, ModeBulk, ""},
+		// A significant jump (5.9 standard errors) no larger than the floor
+		// of the picture's errors at the walls (3 x 0.1 um), as on a
+		// quiescent sample under H.264 CRF 28 in the coverage sweep (case 31).
+		{"jump below the floor", Picture{GapUM: 800, Interior: true, JumpUM: 0.29, JumpErrUM: 0.049, PlaneUM: 700, OffsetErrUM: 0.1, SlopeErr: 1e-5}, false, "", ""},
 		// Significant but below the noise floor of one tracer (0.3 um).
 		{"tiny drift", Picture{GapUM: 800, OffsetUM: 0.2, OffsetErrUM: 0.01}, false, "", ""},
 	}

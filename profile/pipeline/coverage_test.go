@@ -339,12 +339,34 @@ func typeBString(fig map[string][]float64) string {
 	return b.String()
 }
 
+// verdictErrors names the verdicts of got that differ from the truth's:
+// each shear phase's, and the one after the stop. zValues leaves out the
+// after-stop values of a wrong verdict, so a false alarm would not show in
+// the z table; these are counted apart.
+func verdictErrors(name string, got *summary.Summary, truth *synth.SummaryTruth) []string {
+	var out []string
+	for i, tp := range truth.ShearPhases {
+		if i < len(got.ShearPhases) && got.ShearPhases[i].Verdict != tp.Verdict {
+			out = append(out, fmt.Sprintf("%s shear phase %d: %s, truth %s", name, i+1, got.ShearPhases[i].Verdict, tp.Verdict))
+		}
+	}
+	if a, ta := got.AfterStop, truth.AfterStop; ta != nil && (a == nil || a.Verdict != ta.Verdict) {
+		v := "no analysis"
+		if a != nil {
+			v = a.Verdict
+		}
+		out = append(out, fmt.Sprintf("%s after the stop: %s, truth %s", name, v, ta.Verdict))
+	}
+	return out
+}
+
 // runCoverage tracks and analyses the cases and returns the z table, with
-// the worst values named, and the Type B figures (typeB).
-func runCoverage(tb testing.TB, cs []coverageCase) (zTable, []string, map[string][]float64) {
+// the worst values named, the Type B figures (typeB) and the wrong verdicts
+// (verdictErrors).
+func runCoverage(tb testing.TB, cs []coverageCase) (zTable, []string, map[string][]float64, []string) {
 	tab := zTable{}
 	fig := map[string][]float64{}
-	var worst []string
+	var worst, wrong []string
 	for _, c := range cs {
 		tc := trackCase(tb, c)
 		cfg := Config{Experiment: tc.Exp, Seed: uint64(c.seed)}
@@ -352,6 +374,7 @@ func runCoverage(tb testing.TB, cs []coverageCase) (zTable, []string, map[string
 		if err != nil {
 			tb.Fatalf("%s: %v", c.name, err)
 		}
+		wrong = append(wrong, verdictErrors(c.name, a.Summary, tc.Truth.Summary)...)
 		zs := zValues(a.Summary, tc.Truth.Summary)
 		tab.add(zs)
 		typeB(fig, zs, tc.Truth.Summary.Input.FPS, c.gapScale)
@@ -361,7 +384,7 @@ func runCoverage(tb testing.TB, cs []coverageCase) (zTable, []string, map[string
 			}
 		}
 	}
-	return tab, worst, fig
+	return tab, worst, fig, wrong
 }
 
 // Coverage aims of issue 12.
@@ -396,8 +419,12 @@ func coverageOnly(tb testing.TB, cs []coverageCase, only string) []coverageCase 
 func BenchmarkCoverage(b *testing.B) {
 	cs := coverageOnly(b, coverageSweep(42), os.Getenv("GAPTRACE_COVERAGE_ONLY"))
 	for range b.N {
-		tab, worst, fig := runCoverage(b, cs)
+		tab, worst, fig, wrong := runCoverage(b, cs)
 		b.Logf("coverage over %d renders:\n%s", len(cs), tab)
+		b.Logf("verdicts: %d of %d renders wrong", len(wrong), len(cs))
+		for _, w := range wrong {
+			b.Error("wrong verdict: " + w)
+		}
 		b.Logf("Type B figures:\n%s", typeBString(fig))
 		w, m, med := zStats(tab["all"])
 		for _, a := range coverageAims {
@@ -532,6 +559,9 @@ func TestCoverage(t *testing.T) {
 		a, err := Analyze(context.Background(), Config{Experiment: tc.Exp, Seed: uint64(c.seed)}, tc.Tracked)
 		if err != nil {
 			t.Fatalf("%s: %v", c.name, err)
+		}
+		for _, w := range verdictErrors(c.name, a.Summary, tc.Truth.Summary) {
+			t.Error("wrong verdict: " + w)
 		}
 		for _, z := range zValues(a.Summary, tc.Truth.Summary) {
 			tab.add([]zValue{z})
